@@ -1,0 +1,26 @@
+# Two entry points a new user needs: `make demo` and `make test`.
+PY ?= python3
+VENV ?= .venv
+BIN := $(VENV)/bin
+
+.PHONY: demo test venv bench clean
+
+$(BIN)/rhofollow: pyproject.toml
+	$(PY) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -e '.[test,dask]'
+	touch $(BIN)/rhofollow
+
+venv: $(BIN)/rhofollow
+
+demo: venv
+	$(BIN)/rhofollow demo
+
+test: venv
+	$(BIN)/python -m pytest -q
+
+bench: venv
+	for f in bench/bench_*.py; do $(BIN)/python $$f || exit 1; done
+
+clean:
+	rm -rf $(VENV) build *.egg-info

@@ -1,0 +1,63 @@
+"""Command-line interface: one module per command, each with ``register(subparsers)``.
+
+The CLI is thin: parse options, call the library, render. Results go to stdout, messages to stderr.
+"""
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+from .. import __version__
+
+#: Command modules in the order they appear in ``--help``. A module that is not present yet is
+#: skipped, so commands can be added one file at a time.
+COMMANDS = ["demo", "check", "assess", "eclipses", "rv", "night", "campaign", "plan", "log"]
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="rhofollow",
+        description="Eccentricity constraints from the stellar-density mismatch of transiting "
+        "planets, and the follow-up plans that test them.",
+    )
+    p.add_argument("--version", action="version", version=f"rhofollow {__version__}")
+    p.add_argument("--debug", action="store_true", help="show tracebacks of unexpected errors")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+    for name in COMMANDS:
+        try:
+            mod = importlib.import_module(f"{__name__}.{name}")
+        except ModuleNotFoundError as exc:
+            if exc.name == f"{__name__}.{name}":
+                continue
+            raise
+        mod.register(sub)
+    return p
+
+
+def main(argv: list[str] | None = None) -> int:
+    from .common import UserError, err_console
+
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "func", None):
+        parser.print_help()
+        return 2
+    try:
+        return int(args.func(args) or 0)
+    except UserError as exc:
+        err_console().print(f"[bold red]error:[/] {exc}", highlight=False)
+        return 2
+    except KeyboardInterrupt:
+        err_console().print("interrupted")
+        return 130
+    except Exception as exc:  # noqa: BLE001 - last line of defence, the user sees one sentence
+        if args.debug:
+            raise
+        err_console().print(f"[bold red]internal error:[/] {type(exc).__name__}: {exc} "
+                            "(run with --debug for the traceback)", highlight=False)
+        return 3
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

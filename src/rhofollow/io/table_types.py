@@ -1,0 +1,95 @@
+"""Plain data records produced by the catalogue reader (no I/O here).
+
+A catalogue row becomes a :class:`Target`: canonical column names (as in DESIGN.md, with their
+unit suffixes, e.g. ``period_d``, ``t14_h``, ``rho_star_cgs``) mapped to :class:`Measurement`.
+Values are already converted to the unit the suffix names.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+__all__ = ["Measurement", "Target", "RowIssue", "CatalogueResult"]
+
+
+@dataclass(frozen=True)
+class Measurement:
+    """A value with an optional asymmetric 1-sigma error (err_lo, err_hi >= 0; 0 = exact)."""
+
+    value: float
+    err_lo: float = 0.0
+    err_hi: float = 0.0
+
+    @property
+    def has_error(self) -> bool:
+        return self.err_lo > 0 or self.err_hi > 0
+
+    @property
+    def err(self) -> float:
+        """Symmetrised 1-sigma error (mean of the two sides)."""
+        return 0.5 * (self.err_lo + self.err_hi)
+
+
+@dataclass
+class Target:
+    """One validated catalogue row.
+
+    ``row`` is the 1-based data-row number in ``source`` (the header is not counted).
+    ``values`` maps canonical column names to measurements; text columns (``name``) are attributes.
+    """
+
+    name: str
+    row: int
+    source: str
+    values: dict[str, Measurement] = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)
+
+    def has(self, *keys: str) -> bool:
+        return all(k in self.values and math.isfinite(self.values[k].value) for k in keys)
+
+    def get(self, key: str) -> Measurement | None:
+        return self.values.get(key)
+
+    def value(self, key: str, default: float = math.nan) -> float:
+        m = self.values.get(key)
+        return m.value if m is not None else default
+
+
+@dataclass(frozen=True)
+class RowIssue:
+    """A validation problem: file, 1-based data row (0 = header/file level), column, reason."""
+
+    source: str
+    row: int
+    column: str
+    reason: str
+    name: str = ""
+    severity: str = "error"  # "error" (row skipped) or "warning" (row kept)
+
+    def __str__(self) -> str:
+        where = f"{self.source}" + (f", row {self.row}" if self.row else "")
+        col = f", column '{self.column}'" if self.column else ""
+        who = f" ({self.name})" if self.name else ""
+        return f"{where}{col}{who}: {self.reason}"
+
+
+@dataclass
+class CatalogueResult:
+    """Everything the reader learned: good targets, and the issues of every row."""
+
+    source: str
+    n_rows: int
+    targets: list[Target]
+    issues: list[RowIssue]
+
+    @property
+    def errors(self) -> list[RowIssue]:
+        return [i for i in self.issues if i.severity == "error"]
+
+    @property
+    def n_failed(self) -> int:
+        return len({i.row for i in self.errors})
+
+    @property
+    def ok(self) -> bool:
+        return not self.errors

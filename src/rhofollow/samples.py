@@ -1,0 +1,176 @@
+"""The per-target posterior sample set: the one object that flows through the pipeline.
+
+Every downstream number (occultation window, K range, RV hours, priority) is computed from the
+same weighted samples, so uncertainties propagate consistently.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field, fields
+
+import numpy as np
+
+__all__ = ["SampleSet", "SAMPLE_COLUMNS", "weighted_quantiles", "quantile_dict", "QUANTILE_LEVELS",
+           "kish_ess"]
+
+#: Column name -> unit (internal units). All arrays have the same length N.
+SAMPLE_COLUMNS = {
+    "e": "",                 # eccentricity
+    "omega": "rad",          # argument of periastron, RV convention (transit at f = pi/2 - omega)
+    "b": "",                 # transit impact parameter (sky-projected, in stellar radii)
+    "k": "",                 # planet-to-star radius ratio Rp/R* (undiluted, of the host star)
+    "period": "d",           # orbital period
+    "t0": "d",               # mid-transit epoch, BJD_TDB
+    "rho_star": "g/cm3",     # density of the host star
+    "mstar": "solMass",      # host mass
+    "rstar": "solRad",       # host radius
+    "a_rs": "",              # true semi-major axis in stellar radii, from rho_star and period
+    "inc": "rad",            # orbital inclination
+    "teff": "K",             # host effective temperature (NaN when unknown)
+}
+
+QUANTILE_LEVELS = {"q025": 0.025, "q16": 0.16, "q50": 0.5, "q84": 0.84, "q975": 0.975}
+
+
+def kish_ess(weights: np.ndarray) -> float:
+    """Kish effective sample size (sum w)^2 / sum w^2 of importance weights."""
+    w = np.asarray(weights, dtype=float)
+    s = w.sum()
+    if not np.isfinite(s) or s <= 0:
+        return 0.0
+    return float(s * s / np.sum(w * w))
+
+
+def weighted_quantiles(x: np.ndarray, weights: np.ndarray | None, q) -> np.ndarray:
+    """Quantiles of weighted samples (inverse of the weighted empirical CDF, midpoint rule).
+
+    Parameters
+    ----------
+    x : array (N,) or (T, N)
+        Samples; a 2-D array gives quantiles per row.
+    weights : array like x, or None for equal weights
+    q : float or array of probabilities in [0, 1]
+    """
+    x = np.asarray(x, dtype=float)
+    qa = np.atleast_1d(np.asarray(q, dtype=float))
+    if weights is None:
+        weights = np.ones_like(x)
+    w = np.broadcast_to(np.asarray(weights, dtype=float), x.shape)
+    if x.ndim == 1:
+        x2, w2 = x[None, :], w[None, :]
+    else:
+        x2, w2 = x, w
+    order = np.argsort(x2, axis=-1)
+    xs = np.take_along_axis(x2, order, axis=-1)
+    ws = np.take_along_axis(w2, order, axis=-1)
+    cw = np.cumsum(ws, axis=-1)
+    tot = cw[:, -1:]
+    cdf = (cw - 0.5 * ws) / tot
+    out = np.empty((x2.shape[0], qa.size))
+    for i in range(x2.shape[0]):
+        out[i] = np.interp(qa, cdf[i], xs[i])
+    if x.ndim == 1:
+        out = out[0]
+    return out if np.ndim(q) else out[..., 0]
+
+
+def quantile_dict(x: np.ndarray, weights: np.ndarray | None = None, scale: float = 1.0) -> dict:
+    """Quantile object of the JSON contract: keys q025, q16, q50, q84, q975."""
+    vals = weighted_quantiles(x, weights, list(QUANTILE_LEVELS.values())) * scale
+    return {k: float(v) for k, v in zip(QUANTILE_LEVELS, vals)}
+
+
+@dataclass
+class SampleSet:
+    """Weighted posterior samples of one target.
+
+    Attributes are numpy arrays of equal length N in the units of :data:`SAMPLE_COLUMNS`;
+    ``weights`` are normalised to sum to 1. ``ess`` is the Kish effective sample size.
+    ``meta`` carries scalars of the target used downstream (for example ``vmag``, ``logg``,
+    ``ra_deg``, ``dec_deg``, ``star_route``), never per-sample arrays.
+    """
+
+    name: str
+    e: np.ndarray
+    omega: np.ndarray
+    b: np.ndarray
+    k: np.ndarray
+    period: np.ndarray
+    t0: np.ndarray
+    rho_star: np.ndarray
+    mstar: np.ndarray
+    rstar: np.ndarray
+    a_rs: np.ndarray
+    inc: np.ndarray
+    teff: np.ndarray
+    weights: np.ndarray
+    meta: dict = field(default_factory=dict)
+
+    def __post_init__(self):
+        n = len(self.weights)
+        for c in SAMPLE_COLUMNS:
+            arr = np.asarray(getattr(self, c), dtype=float)
+            if arr.shape != (n,):
+                arr = np.broadcast_to(arr, (n,)).copy()
+            setattr(self, c, arr)
+        w = np.asarray(self.weights, dtype=float)
+        s = w.sum()
+        self.weights = w / s if s > 0 else w
+
+    @property
+    def n(self) -> int:
+        return len(self.weights)
+
+    @property
+    def ess(self) -> float:
+        return kish_ess(self.weights)
+
+    def quantiles(self, column: str, scale: float = 1.0) -> dict:
+        """Quantile object (q025..q975) of one column, weighted."""
+        return quantile_dict(getattr(self, column), self.weights, scale)
+
+    def reweighted(self, log_like: np.ndarray) -> "SampleSet":
+        """A copy with weights multiplied by exp(log_like) (numerically stabilised)."""
+        ll = np.asarray(log_like, dtype=float)
+        ll = np.where(np.isfinite(ll), ll, -np.inf)
+        m = np.max(ll)
+        w = self.weights * np.exp(ll - m) if np.isfinite(m) else np.zeros_like(self.weights)
+        kw = {c: getattr(self, c) for c in SAMPLE_COLUMNS}
+        return SampleSet(name=self.name, weights=w, meta=dict(self.meta), **kw)
+
+    def resample(self, n: int, rng: np.random.Generator) -> dict:
+        """Equal-weight draws (systematic resampling): dict column -> array (n,)."""
+        cw = np.cumsum(self.weights)
+        cw[-1] = 1.0
+        u = (rng.random() + np.arange(n)) / n
+        idx = np.searchsorted(cw, u)
+        return {c: getattr(self, c)[idx] for c in SAMPLE_COLUMNS}
+
+    def to_table(self):
+        """astropy Table with units (for ECSV export)."""
+        from astropy.table import Table
+        import astropy.units as u
+
+        t = Table()
+        for c, unit in SAMPLE_COLUMNS.items():
+            vals = getattr(self, c)
+            if c in ("omega", "inc"):
+                t[c + "_deg"] = np.degrees(vals) * u.deg
+            else:
+                t[c] = vals * u.Unit(unit) if unit else vals
+        t["weight"] = self.weights
+        t.meta["name"] = self.name
+        t.meta["ess"] = self.ess
+        t.meta.update({k: v for k, v in self.meta.items() if isinstance(v, (int, float, str, bool))})
+        return t
+
+    @classmethod
+    def from_table(cls, t) -> "SampleSet":
+        """Inverse of :meth:`to_table`."""
+        kw = {}
+        for c, unit in SAMPLE_COLUMNS.items():
+            if c in ("omega", "inc"):
+                kw[c] = np.radians(np.asarray(t[c + "_deg"], dtype=float))
+            else:
+                kw[c] = np.asarray(t[c], dtype=float)
+        meta = {k: v for k, v in t.meta.items() if k not in ("name", "ess")}
+        return cls(name=t.meta["name"], weights=np.asarray(t["weight"], dtype=float), meta=meta, **kw)
