@@ -1,0 +1,365 @@
+"""Observing tasks built from the science records (plain dicts) and visibility arrays.
+
+Inputs are the JSON-like records of the occultation and RV steps and a :class:`VisGrid` (target x
+time observability and airmass on a regular UTC grid), so everything here runs on plain data and
+is tested without the upstream modules. Times are Julian Dates in UTC (``jd``) at the boundary and
+hours since ``vis.t_jd[0]`` inside the scheduler.
+
+Task values (dimensionless; "expected progress towards settling the eccentricity")
+-----------------------------------------------------------------------------------
+Let ``E = P(e > e_min | data)`` be the posterior evidence for an eccentric orbit (weighted
+fraction of the eccentricity samples above ``e_min``, default 0.1) and
+``A(X) = exp(-kappa (X_max - 1))`` the airmass penalty with ``X_max`` the highest airmass during the
+block (``kappa`` = 0.5 by default: A = 1 at the zenith, 0.61 at airmass 2).
+
+* Occultation window (fixed task): the block is the timing window widened by a baseline
+  ``B`` on each side, ``T_block = T_window + 2 B``.
+
+      V_occ = P_occ * w_k * E * A(X_max) * min(1, T_occ / T_block)
+
+  ``P_occ`` is the probability that the occultation occurs (``p_occultation``), ``w_k`` the share of
+  the event's timing posterior inside this window when the record gives it (``window_mass``;
+  otherwise split evenly between the event's windows), ``T_occ`` the expected occultation
+  duration (``occ_duration_h``). The last factor is the evidence per unit of block duration,
+  normalised by the eclipse's own length: a tightly predicted occultation is worth more than
+  the same event buried in a long window.
+
+* RV visit (flexible task, start on a grid inside the target's visible slots):
+
+      V_rv(t) = E * W(phi(t)) * A(X_max(t)) / N_rem
+
+  ``N_rem = max(1, n_epochs_confirm_ecc - n_done)`` is how far the target is from a confirmed
+  eccentricity (each visit brings it ``1/N_rem`` of the way), and ``W`` the phase weight at the
+  orbital phase ``phi`` of the visit's middle (0 = transit, from BJD_TDB):
+  ``W = w_0 + (1 - w_0) max_j exp(-d_j^2 / (2 sigma^2))`` with ``d_j`` the circular phase distance
+  to the informative phase ``best_phases[j]`` (``w_0`` = 0.25, ``sigma`` = 0.08 by default; W = 1
+  when no informative phase is given). The visit lasts ``hours_confirm_ecc / n_epochs_confirm_ecc``
+  (overheads included upstream) unless the record gives ``visit_h``.
+
+A fully decided target (E = 0) or an impossible confirmation (``n_epochs_confirm_ecc`` missing or
+infinite) gets no task; the reason is recorded in the "skipped" list.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from datetime import datetime, timezone
+
+import numpy as np
+
+from .scheduler import FixedTask, FlexibleTask
+
+__all__ = ["VisGrid", "ValueModel", "iso_to_jd", "jd_to_iso", "airmass_factor", "phase_weight",
+           "ecc_evidence", "occultation_tasks", "rv_task", "visible_windows", "Skip"]
+
+_MJD0 = datetime(1858, 11, 17, tzinfo=timezone.utc)
+
+
+def iso_to_jd(s) -> float:
+    """ISO-8601 UTC string (or datetime, or float JD passed through) -> Julian Date (UTC scale)."""
+    if isinstance(s, (int, float, np.floating)):
+        return float(s)
+    dt = s if isinstance(s, datetime) else datetime.fromisoformat(str(s).strip().replace("Z", "+00:00"))
+    if dt.tzinfo is None:
+        dt = dt.replace(tzinfo=timezone.utc)
+    return (dt - _MJD0).total_seconds() / 86400.0 + 2400000.5
+
+
+def jd_to_iso(jd: float) -> str:
+    """Julian Date (UTC scale) -> ISO-8601 string ``YYYY-MM-DDTHH:MM:SSZ`` (rounded to the second)."""
+    from datetime import timedelta
+
+    dt = _MJD0 + timedelta(seconds=round((float(jd) - 2400000.5) * 86400.0))
+    return dt.strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+@dataclass
+class VisGrid:
+    """Observability of targets on a regular time grid of one night (or any span).
+
+    Attributes
+    ----------
+    t_jd : array (N,)
+        Grid times, Julian Date UTC, regularly spaced.
+    names : list of str (T,)
+        Target names, rows of the arrays.
+    observable : bool array (T, N)
+        True where every constraint (altitude / airmass, night, Moon, horizon) holds.
+    airmass : float array (T, N)
+        Airmass (inf or nan below the horizon).
+    """
+
+    t_jd: np.ndarray
+    names: list
+    observable: np.ndarray
+    airmass: np.ndarray
+
+    def __post_init__(self):
+        self.t_jd = np.asarray(self.t_jd, dtype=float)
+        self.observable = np.atleast_2d(np.asarray(self.observable, dtype=bool))
+        self.airmass = np.atleast_2d(np.asarray(self.airmass, dtype=float))
+        shape = (len(self.names), self.t_jd.size)
+        if self.observable.shape != shape or self.airmass.shape != shape:
+            raise ValueError(f"visibility arrays must have shape {shape} (targets, times)")
+        self._row = {n: i for i, n in enumerate(self.names)}
+
+    @property
+    def step_h(self) -> float:
+        """Grid spacing in hours."""
+        return float((self.t_jd[1] - self.t_jd[0]) * 24.0) if self.t_jd.size > 1 else 0.0
+
+    def hours(self, jd) -> np.ndarray:
+        """JD UTC -> hours since the first grid time."""
+        return (np.asarray(jd, dtype=float) - self.t_jd[0]) * 24.0
+
+    def row(self, name: str) -> int:
+        """Row of a target (KeyError with the name if absent)."""
+        return self._row[name]
+
+    def fraction_observable(self, name: str, jd0: float, jd1: float) -> float:
+        """Fraction of the grid points in [jd0, jd1] where the target is observable (0 if none)."""
+        m = (self.t_jd >= jd0 - 1e-9) & (self.t_jd <= jd1 + 1e-9)
+        if not m.any():
+            return 0.0
+        return float(self.observable[self.row(name), m].mean())
+
+    def airmass_max(self, name: str, jd0, jd1, n: int = 9) -> np.ndarray:
+        """Highest airmass over [jd0, jd1] (arrays broadcast), by interpolation at ``n`` points."""
+        jd0, jd1 = np.broadcast_arrays(np.asarray(jd0, float), np.asarray(jd1, float))
+        f = np.linspace(0.0, 1.0, n)
+        pts = jd0[..., None] + (jd1 - jd0)[..., None] * f
+        x = self.airmass[self.row(name)]
+        x = np.where(np.isfinite(x), x, 1e3)
+        return np.interp(pts, self.t_jd, x).max(axis=-1)
+
+
+@dataclass(frozen=True)
+class ValueModel:
+    """Tunable constants of the task values (see the module docstring).
+
+    Attributes
+    ----------
+    kappa : float
+        Airmass penalty rate (per unit airmass).
+    e_min : float
+        Eccentricity above which an orbit counts as eccentric.
+    phase_sigma : float
+        Width of the phase weight (orbital phase units, 0..1).
+    phase_floor : float
+        Phase weight far from every informative phase.
+    baseline_h : float
+        Out-of-occultation baseline added on each side of an occultation window (hours).
+    step_h : float
+        Spacing of candidate RV start times (hours).
+    """
+
+    kappa: float = 0.5
+    e_min: float = 0.1
+    phase_sigma: float = 0.08
+    phase_floor: float = 0.25
+    baseline_h: float = 1.0
+    step_h: float = 1.0 / 6.0
+
+
+@dataclass(frozen=True)
+class Skip:
+    """A task not offered to the scheduler, with the reason in words."""
+
+    name: str
+    reason: str
+
+    def to_dict(self) -> dict:
+        return {"name": self.name, "reason": self.reason}
+
+
+def airmass_factor(x, kappa: float = 0.5) -> np.ndarray:
+    """Airmass penalty ``exp(-kappa (X - 1))`` (X >= 1 dimensionless; 0 for non-finite X)."""
+    x = np.asarray(x, dtype=float)
+    with np.errstate(over="ignore", invalid="ignore"):
+        out = np.exp(-kappa * (np.maximum(x, 1.0) - 1.0))
+    return np.where(np.isfinite(x), out, 0.0)
+
+
+def phase_weight(phase, best_phases, sigma: float = 0.08, floor: float = 0.25) -> np.ndarray:
+    """Weight in [floor, 1] of an RV epoch at orbital ``phase`` (0..1, 0 = transit).
+
+    ``floor + (1 - floor) * max_j exp(-d_j^2 / (2 sigma^2))`` with ``d_j`` the circular phase
+    distance to ``best_phases[j]``; 1 everywhere when ``best_phases`` is empty.
+    """
+    phase = np.asarray(phase, dtype=float)
+    bp = np.asarray([p for p in (best_phases or []) if p is not None and np.isfinite(p)], dtype=float)
+    if bp.size == 0:
+        return np.ones_like(phase)
+    d = np.abs(((phase[..., None] - bp) + 0.5) % 1.0 - 0.5)
+    return floor + (1.0 - floor) * np.exp(-0.5 * (d / sigma) ** 2).max(axis=-1)
+
+
+def ecc_evidence(e, weights=None, e_min: float = 0.1) -> float:
+    """Posterior probability that the eccentricity exceeds ``e_min`` (weighted samples)."""
+    e = np.asarray(e, dtype=float)
+    if e.size == 0:
+        return 0.0
+    w = np.ones_like(e) if weights is None else np.asarray(weights, dtype=float)
+    s = w.sum()
+    return float(np.sum(w * (e > e_min)) / s) if s > 0 else 0.0
+
+
+def _num(x, default=math.nan) -> float:
+    """A float from a number or a quantile object (its median)."""
+    if isinstance(x, dict):
+        x = x.get("q50", default)
+    try:
+        return float(x) if x is not None else default
+    except (TypeError, ValueError):
+        return default
+
+
+def occultation_tasks(record: dict, evidence: float, vis: VisGrid,
+                      model: ValueModel = ValueModel()) -> tuple[list[FixedTask], list[Skip]]:
+    """Fixed tasks for the occultation windows of one target that fall inside the grid.
+
+    Parameters
+    ----------
+    record : dict
+        Occultation record: ``name``, ``p_occultation``, ``occ_duration_h`` (hours, number or
+        quantile object), ``events`` with ``epoch`` and ``window_utc`` ``[[start, end], ...]``
+        (ISO UTC strings or JD UTC floats) and optional ``window_mass`` (one share per window).
+    evidence : float
+        ``E`` of the module docstring (0..1).
+    vis : VisGrid
+        Visibility of the night; a block must be observable at every grid point it covers.
+
+    Returns
+    -------
+    tasks, skipped
+        Tasks in hours since ``vis.t_jd[0]``; ``skipped`` explains windows in the night that
+        cannot be observed or carry no value.
+    """
+    name = record["name"]
+    p_occ = _num(record.get("p_occultation"), 1.0)
+    t_occ = _num(record.get("occ_duration_h"))
+    tasks, skipped = [], []
+    lo, hi = vis.t_jd[0], vis.t_jd[-1]
+    base_d = model.baseline_h / 24.0
+    for ev in record.get("events") or []:
+        wins = ev.get("window_utc") or []
+        mass = ev.get("window_mass") or [1.0 / max(len(wins), 1)] * len(wins)
+        for k, (w0, w1) in enumerate(wins):
+            j0, j1 = iso_to_jd(w0) - base_d, iso_to_jd(w1) + base_d
+            if j1 < lo or j0 > hi:
+                continue
+            label = f"{name} occ E{ev.get('epoch', '?')}" + (f" w{k + 1}" if len(wins) > 1 else "")
+            if j0 < lo - 1e-9 or j1 > hi + 1e-9:
+                skipped.append(Skip(label, "window with baselines runs past the night"))
+                continue
+            frac = vis.fraction_observable(name, j0, j1)
+            if frac < 1.0:
+                skipped.append(Skip(label, f"window observable only {100 * frac:.0f}% of the time"))
+                continue
+            xmax = float(vis.airmass_max(name, j0, j1))
+            t_block = (j1 - j0) * 24.0
+            eff = min(1.0, t_occ / t_block) if np.isfinite(t_occ) and t_occ > 0 else 1.0
+            value = p_occ * float(mass[k]) * evidence * float(airmass_factor(xmax, model.kappa)) * eff
+            if not value > 0:
+                skipped.append(Skip(label, "no value (eccentricity evidence or occurrence is zero)"))
+                continue
+            tasks.append(FixedTask(label, float(vis.hours(j0)), float(vis.hours(j1)), value,
+                                   kind="occultation",
+                                   meta={"target": name, "epoch": ev.get("epoch"), "airmass_max": xmax,
+                                         "window_utc": [jd_to_iso(iso_to_jd(w0)), jd_to_iso(iso_to_jd(w1))],
+                                         "baseline_h": model.baseline_h}))
+    return tasks, skipped
+
+
+def visible_windows(observable: np.ndarray, t_h: np.ndarray, duration_h: float) -> list[tuple]:
+    """Allowed start intervals (hours) for a block of ``duration_h`` inside the observable runs.
+
+    A start ``t_h[i]`` is allowed when every grid point in ``[t_h[i], t_h[i] + duration_h]`` is
+    observable and the block ends inside the grid.
+    """
+    obs = np.asarray(observable, dtype=bool)
+    n = obs.size
+    if n == 0:
+        return []
+    step = t_h[1] - t_h[0] if n > 1 else 1.0
+    k = int(math.ceil(duration_h / step - 1e-9))
+    if k >= n:
+        return []
+    c = np.concatenate([[0], np.cumsum(~obs)])
+    ok = np.zeros(n, dtype=bool)
+    ok[: n - k] = (c[k + 1: n + 1] - c[: n - k]) == 0
+    # the block may end between grid points: the last allowed start is end-of-run - duration
+    out = []
+    idx = np.nonzero(ok)[0]
+    if idx.size == 0:
+        return out
+    breaks = np.nonzero(np.diff(idx) > 1)[0]
+    for a, b in zip(np.r_[idx[0], idx[breaks + 1]], np.r_[idx[breaks], idx[-1]]):
+        # extend the latest start to the end of the observable run (run end is grid point b + k
+        # or further)
+        run_end = b + k
+        while run_end + 1 < n and obs[run_end + 1]:
+            run_end += 1
+        latest = min(t_h[run_end] - duration_h, t_h[-1] - duration_h)
+        out.append((float(t_h[a]), float(max(latest, t_h[b]))))
+    return out
+
+
+def rv_task(record: dict, evidence: float, vis: VisGrid, t0_bjd: float, period_d: float,
+            bjd_minus_jd: float = 0.0, n_done: int = 0,
+            model: ValueModel = ValueModel()) -> tuple[FlexibleTask | None, Skip | None]:
+    """One flexible RV visit of a target in the night (or the reason there is none).
+
+    Parameters
+    ----------
+    record : dict
+        RV record: ``name``, ``n_epochs_confirm_ecc``, ``hours_confirm_ecc`` (hours),
+        ``best_phases`` (orbital phases 0..1, 0 = transit), optional ``visit_h`` (hours).
+    evidence : float
+        ``E`` of the module docstring.
+    vis : VisGrid
+    t0_bjd, period_d : float
+        Transit epoch (BJD_TDB) and period (days) for the orbital phase.
+    bjd_minus_jd : float
+        BJD_TDB - JD_UTC for the target during the night (days; barycentric + TT-UTC correction).
+    n_done : int
+        Visits already obtained.
+    """
+    name = record["name"]
+    n_need = _num(record.get("n_epochs_confirm_ecc"))
+    hours = _num(record.get("hours_confirm_ecc"))
+    if not (np.isfinite(n_need) and n_need > 0):
+        return None, Skip(f"{name} rv", "eccentricity cannot be confirmed with RVs (no finite epoch count)")
+    visit_h = _num(record.get("visit_h"))
+    if not (np.isfinite(visit_h) and visit_h > 0):
+        visit_h = hours / n_need if np.isfinite(hours) and hours > 0 else math.nan
+    if not (np.isfinite(visit_h) and visit_h > 0):
+        return None, Skip(f"{name} rv", "no RV visit length (hours_confirm_ecc missing)")
+    if not evidence > 0:
+        return None, Skip(f"{name} rv", "no value (no evidence for eccentricity)")
+    n_rem = max(1.0, n_need - n_done)
+    row = vis.row(name)
+    t_h = vis.hours(vis.t_jd)
+    wins = visible_windows(vis.observable[row], t_h, visit_h)
+    if not wins:
+        return None, Skip(f"{name} rv", f"not observable for a {visit_h:.2f} h visit tonight")
+    best = list(record.get("best_phases") or [])
+    jd_ref = vis.t_jd[0]
+
+    def value(starts_h, _d=visit_h):
+        starts_h = np.asarray(starts_h, dtype=float)
+        mid_jd = jd_ref + (starts_h + 0.5 * _d) / 24.0
+        phase = ((mid_jd + bjd_minus_jd - t0_bjd) / period_d) % 1.0
+        j0 = jd_ref + starts_h / 24.0
+        xmax = vis.airmass_max(name, j0, j0 + _d / 24.0)
+        w = phase_weight(phase, best, model.phase_sigma, model.phase_floor)
+        return evidence * w * airmass_factor(xmax, model.kappa) / n_rem
+
+    def phase_of(start_h, _d=visit_h):
+        mid_jd = jd_ref + (start_h + 0.5 * _d) / 24.0
+        return float(((mid_jd + bjd_minus_jd - t0_bjd) / period_d) % 1.0)
+
+    task = FlexibleTask(f"{name} rv", visit_h, tuple(wins), value, step=model.step_h, kind="rv",
+                        meta={"target": name, "phase_of": phase_of, "n_remaining": n_rem,
+                              "best_phases": best})
+    return task, None
