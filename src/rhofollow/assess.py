@@ -1,0 +1,370 @@
+"""The density-mismatch assessment: catalogue rows -> posterior samples and explanations.
+
+This module is the boundary between the catalogue (units already converted by the reader) and the
+numerical core in :mod:`rhofollow.physics`. It picks the routes a row offers, draws the measurements,
+runs the hypotheses and builds the JSON record of the ``assess`` command. No printing here.
+"""
+from __future__ import annotations
+
+import math
+import zlib
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .io.table_types import Measurement, Target
+from .physics import stars as st
+from .physics.eccentricity import (HYPOTHESES, HypothesisSetup, Obs, StarPool, TransitObservables,
+                                   run_hypothesis)
+from .physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior
+from .physics.sampling import draw_split_normal
+from .physics.transit import ars_from_t14_b, ecc_min_from_ratio, rho_from_ars, smo_invert
+from .samples import SampleSet, quantile_dict, weighted_quantiles
+
+__all__ = ["Assessment", "assess_target", "assess_catalogue", "target_seed", "READINGS",
+           "evidence_strength", "DEFAULT_N_SAMPLES", "ESS_FLOOR"]
+
+DEFAULT_N_SAMPLES = 20000
+ESS_FLOOR = 2000.0
+HOURS = 1.0 / 24.0
+
+#: Assumed 1-sigma errors (fraction of the value) when the catalogue gives none; each use is a warning.
+DEFAULT_FRACTIONAL_ERRORS = {
+    "t14_h": 0.02, "t23_h": 0.03, "a_rs": 0.05, "rho_circ_cgs": 0.15, "rp_rs": 0.02, "depth_ppm": 0.04,
+    "rho_star_cgs": 0.10, "mstar_msun": 0.05, "rstar_rsun": 0.04, "logg_cgs": 0.1 / 4.4,
+    "teff_k": 100 / 5800, "feh_dex": None, "b": None,
+}
+DEFAULT_ABSOLUTE_ERRORS = {"feh_dex": 0.1, "b": 0.1, "companion_rho_cgs": None}
+
+#: Plain-language reading of each explanation.
+READINGS = {
+    "circular": "the densities agree: a circular orbit around the target star explains the transit",
+    "eccentric": "the transit duration does not fit the star on a circular orbit: an eccentric orbit "
+                 "explains it",
+    "blend": "a circular orbit diluted by unresolved light from another star (a blend) explains it",
+    "other_host": "a circular orbit around the companion star explains it (the planet may orbit the "
+                  "other star)",
+}
+
+
+def evidence_strength(ln_bayes: float) -> str:
+    """Verbal strength of a Bayes factor, Kass & Raftery 1995 (JASA 90, 773) scale on 2 ln B."""
+    two = 2 * ln_bayes
+    if two < 2:
+        return "barely worth mentioning"
+    if two < 6:
+        return "positive"
+    if two < 10:
+        return "strong"
+    return "very strong"
+
+
+def target_seed(seed: int, name: str) -> np.random.Generator:
+    """Generator for one target: depends on the run seed and the target name only (not on order or
+    chunking), so serial, multi-process and cluster runs give identical results."""
+    return np.random.default_rng(np.random.SeedSequence([int(seed) & 0xFFFFFFFF, zlib.crc32(name.encode())]))
+
+
+@dataclass
+class Assessment:
+    """Result for one target: the JSON record, the eccentric-hypothesis samples, and all evidences."""
+
+    name: str
+    target: Target | None
+    ok: bool
+    errors: list[str] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
+    samples: SampleSet | None = None
+    record: dict = field(default_factory=dict)
+
+
+class _RowProblem(Exception):
+    pass
+
+
+def _obs(t: Target, key: str, warnings: list, scale: float = 1.0, required=True) -> Obs | None:
+    """Measurement -> Obs (scaled), filling a documented default error with a warning when missing."""
+    m: Measurement | None = t.get(key)
+    if m is None or not math.isfinite(m.value):
+        if required:
+            raise _RowProblem(f"column '{key}' is needed for this route")
+        return None
+    lo, hi = m.err_lo, m.err_hi
+    if lo <= 0 and hi <= 0:
+        frac = DEFAULT_FRACTIONAL_ERRORS.get(key)
+        if frac is not None:
+            lo = hi = abs(m.value) * frac
+            warnings.append(f"no uncertainty for '{key}'; assumed ±{100 * frac:.3g} %")
+        elif DEFAULT_ABSOLUTE_ERRORS.get(key) is not None:
+            lo = hi = DEFAULT_ABSOLUTE_ERRORS[key]
+            warnings.append(f"no uncertainty for '{key}'; assumed ±{lo:g}")
+    lo = lo if lo > 0 else hi
+    hi = hi if hi > 0 else lo
+    return Obs(m.value * scale, lo * scale, hi * scale)
+
+
+def _draw(rng, n, o: Obs, lower=-np.inf, upper=np.inf):
+    return draw_split_normal(rng, n, o.value, o.lo, o.hi, lower, upper)
+
+
+def _ln_summary(x: np.ndarray) -> Obs:
+    """Split-normal description of log(x) from draws (median, 16 and 84 % quantiles)."""
+    q16, q50, q84 = np.quantile(np.log(x), [0.16, 0.5, 0.84])
+    return Obs(float(q50), max(q50 - q16, 1e-6), max(q84 - q50, 1e-6))
+
+
+def _radius_ratio(t: Target, warnings) -> Obs:
+    if t.has("rp_rs"):
+        return _obs(t, "rp_rs", warnings)
+    if t.has("depth_ppm"):
+        d = _obs(t, "depth_ppm", warnings, scale=1e-6)
+        k = math.sqrt(d.value)
+        return Obs(k, d.lo / (2 * k), d.hi / (2 * k))
+    raise _RowProblem("a radius ratio is needed: give 'rp_rs' or 'depth_ppm'")
+
+
+def _circular_density_routes(t: Target, period: Obs, k: Obs, rng, n, warnings) -> dict:
+    """Circular-orbit density draws (g/cm^3) from every transit route the row offers."""
+    routes = {}
+    p = _draw(rng, n, period, lower=0)
+    kk = _draw(rng, n, k, lower=0, upper=1)
+    if t.has("t14_h") and (t.has("t23_h") or t.has("b")):
+        t14 = _draw(rng, n, _obs(t, "t14_h", warnings, HOURS), lower=0)
+        if t.has("t23_h"):
+            t23 = _draw(rng, n, _obs(t, "t23_h", warnings, HOURS), lower=0)
+            _, a_rs = smo_invert(t14, t23, kk, p)
+            label = "durations (T14, T23, k; Seager & Mallen-Ornelas 2003)"
+        else:
+            b = np.abs(_draw(rng, n, _obs(t, "b", warnings)))
+            a_rs = ars_from_t14_b(t14, b, kk, p)
+            label = "durations (T14, b, k; Seager & Mallen-Ornelas 2003)"
+        good = np.isfinite(a_rs) & (a_rs > 1)
+        if good.mean() < 0.5:
+            raise _RowProblem("the durations are inconsistent with the radius ratio for most draws "
+                              "(T23 too close to T14 or b^2 < 0)")
+        routes["durations"] = (rho_from_ars(a_rs[good], p[good]), label)
+    if t.has("a_rs"):
+        a = _draw(rng, n, _obs(t, "a_rs", warnings), lower=1)
+        routes["a_rs"] = (rho_from_ars(a, p), "a/R* and P (Kepler's third law)")
+    if t.has("rho_circ_cgs"):
+        routes["rho_circ"] = (_draw(rng, n, _obs(t, "rho_circ_cgs", warnings), lower=0), "given rho_circ")
+    return routes
+
+
+def _star_pool(t: Target, rng, n, warnings) -> tuple[StarPool, str, dict]:
+    """Draws of the host star from the first independent route in order of directness."""
+    teff = _draw(rng, n, _obs(t, "teff_k", [], required=False), lower=1000) if t.has("teff_k") else np.full(n, np.nan)
+    candidates = {}
+    if t.has("rho_star_cgs"):
+        candidates["rho_star"] = _draw(rng, n, _obs(t, "rho_star_cgs", warnings), lower=0)
+    if t.has("mstar_msun", "rstar_rsun"):
+        m_ = _draw(rng, n, _obs(t, "mstar_msun", warnings), lower=0)
+        r_ = _draw(rng, n, _obs(t, "rstar_rsun", warnings), lower=0)
+        candidates["mass_radius"] = (st.rho_from_mass_radius(m_, r_), m_, r_)
+    if t.has("logg_cgs", "rstar_rsun"):
+        lg = _draw(rng, n, _obs(t, "logg_cgs", warnings))
+        r_ = _draw(rng, n, _obs(t, "rstar_rsun", warnings), lower=0)
+        candidates["logg_radius"] = (st.rho_from_logg_radius(lg, r_), st.mass_from_logg_radius(lg, r_), r_)
+    if t.has("teff_k", "logg_cgs", "feh_dex"):
+        lg = _draw(rng, n, _obs(t, "logg_cgs", warnings))
+        fe = _draw(rng, n, _obs(t, "feh_dex", warnings))
+        m_, r_ = st.torres_mass_radius(teff, lg, fe, rng=rng)
+        candidates["torres2010"] = (st.rho_from_mass_radius(m_, r_), m_, r_)
+    if not candidates:
+        raise _RowProblem("no independent stellar density route: give rho_star_cgs, mstar_msun + "
+                          "rstar_rsun, logg_cgs + rstar_rsun, or teff_k + logg_cgs + feh_dex")
+    labels = {"rho_star": "given rho* (e.g. asteroseismic)", "mass_radius": "M* and R*",
+              "logg_radius": "log g and R*", "torres2010": "Teff, log g, [Fe/H] (Torres et al. 2010)"}
+    route = next(iter(candidates))
+    medians = {}
+    for key, val in candidates.items():
+        rho_k = val if key == "rho_star" else val[0]
+        medians[key] = _ln_summary(rho_k)
+    if route == "rho_star":
+        rho = candidates["rho_star"]
+        other = next((candidates[k] for k in ("mass_radius", "logg_radius", "torres2010") if k in candidates), None)
+        if other is not None:
+            # mass from the other route, radius consistent with the adopted density
+            mstar = other[1]
+        else:
+            mstar = st.mass_from_density_ms(rho)
+            warnings.append("no stellar mass route; mass estimated from the density with a main-sequence "
+                            "relation (rough, affects K)")
+        rstar = np.cbrt(mstar / (rho / st.RHO_SUN_CGS))
+    else:
+        rho, mstar, rstar = candidates[route]
+    return StarPool(rho, mstar, rstar, teff), labels[route], medians
+
+
+def _disagreement(medians: dict[str, Obs], what: str, warnings: list, threshold: float = 3.0):
+    keys = list(medians)
+    for i in range(len(keys)):
+        for j in range(i + 1, len(keys)):
+            a, b = medians[keys[i]], medians[keys[j]]
+            s = math.hypot(0.5 * (a.lo + a.hi), 0.5 * (b.lo + b.hi))
+            z = abs(a.value - b.value) / s if s > 0 else 0.0
+            if z > threshold:
+                warnings.append(f"{what} routes disagree: {keys[i]} gives {math.exp(a.value):.3g}, "
+                                f"{keys[j]} gives {math.exp(b.value):.3g} g/cm^3 ({z:.1f} sigma)")
+
+
+def _omega_quantiles(omega: np.ndarray, w: np.ndarray) -> dict:
+    """Quantiles of omega (deg), unwrapped about the weighted circular mean (may leave [0, 360))."""
+    mean = math.atan2(float(np.sum(w * np.sin(omega))), float(np.sum(w * np.cos(omega))))
+    unwrapped = mean + np.mod(omega - mean + np.pi, 2 * np.pi) - np.pi
+    q = quantile_dict(np.degrees(unwrapped), w)
+    shift = 360.0 * math.floor(q["q50"] / 360.0)
+    return {k: v - shift for k, v in q.items()}
+
+
+def assess_target(t: Target, n_samples: int = DEFAULT_N_SAMPLES, prior: str | EccPrior = DEFAULT_PRIOR,
+                  seed: int = 0, transit_prob: bool = True, ess_floor: float = ESS_FLOOR,
+                  hypotheses=HYPOTHESES) -> Assessment:
+    """Assess one validated target. Never raises for a bad row: problems land in ``errors``."""
+    rng = target_seed(seed, t.name)
+    warnings = list(t.warnings)
+    try:
+        prior_obj = prior if isinstance(prior, EccPrior) else parse_prior(prior)
+        return _assess(t, n_samples, prior_obj, rng, transit_prob, ess_floor, warnings, hypotheses)
+    except _RowProblem as exc:
+        msg = f"{t.source}, row {t.row} ({t.name}): {exc}"
+        return Assessment(t.name, t, False, [msg], warnings,
+                          record={"name": t.name, "ok": False, "errors": [msg], "warnings": warnings})
+
+
+def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses) -> Assessment:
+    period = _obs(t, "period_d", warnings)
+    if period.lo <= 0:
+        period = Obs(period.value, 0.0, 0.0)
+    t0m = t.get("t0_bjd")
+    if t0m is None or not t0m.has_error:
+        warnings.append("no uncertainty for 't0_bjd'; the epoch is treated as exact")
+        t0 = Obs(t.value("t0_bjd"), 0.0, 0.0)
+    else:
+        t0 = Obs(t0m.value, t0m.err_lo or t0m.err_hi, t0m.err_hi or t0m.err_lo)
+    k = _radius_ratio(t, warnings)
+    n_mc = max(4000, n // 4)
+    routes = _circular_density_routes(t, period, k, rng, n_mc, warnings)
+    if not routes:
+        raise _RowProblem("no transit-geometry route: give a_rs; or t14_h with t23_h or b; or rho_circ_cgs")
+    _disagreement({r: _ln_summary(v[0]) for r, v in routes.items()}, "circular-density", warnings)
+    star, star_label, star_medians = _star_pool(t, rng, n, warnings)
+    _disagreement(star_medians, "stellar-density", warnings)
+
+    contam = t.value("contam_frac", 0.0)
+    contam = 0.0 if not math.isfinite(contam) else contam
+    if t.has("t14_h"):
+        route = "durations"
+        t23 = _obs(t, "t23_h", warnings, HOURS, required=False)
+        bobs = _obs(t, "b", warnings, required=False) if t23 is None else None
+        obs = TransitObservables("durations", period, t0, k, t14=_obs(t, "t14_h", warnings, HOURS),
+                                 t23=t23, b=bobs, dilution_known=1 / (1 - contam))
+    else:
+        route = "density"
+        best = min((r for r in routes), key=lambda r: _ln_summary(routes[r][0]).hi)
+        bobs = _obs(t, "b", warnings, required=False)
+        obs = TransitObservables("density", period, t0, k, b=bobs,
+                                 ln_rho_circ=_ln_summary(routes[best][0]), dilution_known=1 / (1 - contam))
+    rho_circ_draws, rho_circ_label = routes.get("durations") or routes.get("a_rs") or routes.get("rho_circ")
+
+    setup = HypothesisSetup(prior=prior, transit_prob=transit_prob)
+    if t.has("ecc"):
+        em = t.get("ecc")
+        setup.prior = measured_prior(em.value, em.err_lo or 0.01, em.err_hi or 0.01)
+        setup.transit_prob = False
+        if t.has("omega_deg"):
+            om = t.get("omega_deg")
+            setup.omega_measured = Obs(math.radians(om.value), math.radians(om.err_lo or 5.0),
+                                       math.radians(om.err_hi or 5.0))
+    if t.has("companion_rho_cgs"):
+        crho = _draw(rng, n // 4, _obs(t, "companion_rho_cgs", warnings), lower=0)
+        cm = st.mass_from_density_ms(crho)
+        setup.companion = StarPool(crho, cm, np.cbrt(cm / (crho / st.RHO_SUN_CGS)), np.full(crho.size, np.nan))
+        if t.has("companion_flux_frac"):
+            setup.companion_flux = t.value("companion_flux_frac")
+
+    results = {}
+    for hyp in hypotheses:
+        if hyp == "other_host" and setup.companion is None:
+            continue
+        m = n if hyp == "eccentric" else max(2000, n // 4)
+        floor = ess_floor if hyp == "eccentric" else min(ess_floor, m / 10)
+        results[hyp] = run_hypothesis(hyp, obs, star, setup, m, rng, ess_floor=floor)
+
+    ecc_res = results["eccentric"]
+    lw = ecc_res.log_w
+    if not np.any(np.isfinite(lw)):
+        raise _RowProblem("no orbit reproduces the transit with this star (all weights are zero); "
+                          "check the durations, radius ratio and stellar parameters")
+    w = np.exp(lw - np.max(lw))
+    w = w / w.sum()
+    aux = ecc_res.aux
+    meta = {"route_transit": route, "route_star": star_label, "prior": prior.name,
+            "row": t.row, "source": t.source}
+    for key in ("ra_deg", "dec_deg", "vmag", "logg_cgs", "feh_dex", "jitter_ms", "mp_mearth",
+                "teff_k", "contam_frac"):
+        if t.has(key):
+            meta[key] = t.value(key)
+    for key in ("mp_mearth",):
+        if t.has(key):
+            mm = t.get(key)
+            meta[key + "_err"] = mm.err
+    samples = SampleSet(name=t.name, e=aux["e"], omega=aux["omega"], b=aux["b"], k=aux["k"],
+                        period=aux["period"], t0=aux["t0"], rho_star=aux["rho_star"], mstar=aux["mstar"],
+                        rstar=aux["rstar"], a_rs=aux["a_rs"], inc=aux["inc"], teff=aux["teff"],
+                        weights=w, meta=meta)
+    ess = samples.ess
+    if ess < ess_floor:
+        warnings.append(f"effective sample size {ess:.0f} is below the floor {ess_floor:.0f} even after "
+                        "adapting the proposal; quantiles are noisier than usual")
+
+    # summaries
+    rho_star_q = quantile_dict(star.rho)
+    nr = min(len(rho_circ_draws), len(star.rho))
+    ratio = rho_circ_draws[:nr] / rng.permutation(star.rho)[:nr]
+    ln_ratio = np.log(ratio)
+    sd = float(np.std(ln_ratio))
+    ratio_sigma = float(abs(np.median(ln_ratio)) / sd) if sd > 0 else 0.0
+    logz = {h: float(r.log_evidence) for h, r in results.items()}
+    finite = {h: v for h, v in logz.items() if math.isfinite(v)}
+    order = sorted(finite, key=finite.get, reverse=True)
+    favoured = order[0] if order else "eccentric"
+    ln_b = finite[order[0]] - finite[order[1]] if len(order) > 1 else float("inf")
+    record = {
+        "name": t.name, "ok": True, "errors": [], "warnings": warnings,
+        "route_transit": rho_circ_label if route == "density" else "durations (forward model, b marginalised)",
+        "route_star": star_label,
+        "rho_circ_cgs": quantile_dict(rho_circ_draws),
+        "rho_star_cgs": rho_star_q,
+        "density_ratio": quantile_dict(ratio),
+        "density_ratio_sigma": ratio_sigma,
+        "ecc": samples.quantiles("e"),
+        "omega_deg": _omega_quantiles(samples.omega, w),
+        "ecc_min": float(ecc_min_from_ratio(np.median(ratio))),
+        "p_ecc_gt_0p1": float(np.sum(w[samples.e > 0.1])),
+        "ess": float(ess),
+        "n_samples": int(samples.n),
+        "prior": prior.name,
+        "log_evidence": {h: (v if math.isfinite(v) else None) for h, v in logz.items()},
+        "favoured": favoured,
+        "ln_bayes_factor": ln_b if math.isfinite(ln_b) else None,
+        "evidence_strength": evidence_strength(ln_b) if math.isfinite(ln_b) else "only one explanation fits",
+        "reading": READINGS[favoured],
+    }
+    return Assessment(t.name, t, True, [], warnings, samples, record)
+
+
+def assess_catalogue(targets, n_samples: int = DEFAULT_N_SAMPLES, prior: str | EccPrior = DEFAULT_PRIOR,
+                     seed: int = 0, transit_prob: bool = True, ess_floor: float = ESS_FLOOR,
+                     progress=None) -> list[Assessment]:
+    """Assess every target (serially; see :mod:`rhofollow.parallel` for pools and clusters).
+
+    ``progress`` is an optional callable invoked once per finished target.
+    """
+    prior_obj = prior if isinstance(prior, EccPrior) else parse_prior(prior)
+    out = []
+    for t in targets:
+        out.append(assess_target(t, n_samples, prior_obj, seed, transit_prob, ess_floor))
+        if progress is not None:
+            progress()
+    return out

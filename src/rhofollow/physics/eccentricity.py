@@ -1,0 +1,218 @@
+"""Eccentricity posterior and competing explanations from the density mismatch.
+
+Method (Dawson & Johnson 2012, ApJ 756, 122, importance-sampling form): draw (e, w) from a prior, the host
+star from its independent measurement, and weight each draw by the likelihood of the transit data.
+
+Two likelihood routes:
+
+* ``durations`` (when T14 is measured): the forward model predicts T14 and T23 (Winn 2010 eqs. 14-16) from
+  (rho*, P, e, w, b, k); b is drawn uniformly on [0, 1 + k) (the geometric prior of a transiting
+  planet) and marginalised, which handles the b-e degeneracy. Measured T23 or b, when given, enter the
+  likelihood too.
+* ``density`` (a/R* or rho_circ only): log rho_circ,obs ~ split normal about
+  log(rho_host g^3 D^(-3/4)), with g = (1 + e sin w)/sqrt(1 - e^2) (photo-eccentric effect) and D the
+  dilution (photo-blend effect, Kipping 2014, MNRAS 440, 2164; D^(-3/4) from the small-planet SMO
+  relations).
+
+Hypotheses, each with a log-evidence from the same sampler (mean importance weight):
+
+* ``circular``: e = 0, the transit on the target star, only known dilution.
+* ``eccentric``: (e, w) from the prior x transit-probability factor (1 + e sin w)/(1 - e^2)
+  (Barnes 2007; Kipping 2014b), normalised by the prior mean of 1/(1 - e^2).
+* ``blend``: circular, with unknown extra diluting light: contaminating fraction c ~ U(0, 0.9)
+  (common practice, no source), D = D_known / (1 - c).
+* ``other_host``: circular orbit around a companion star of density ``companion_rho``; its flux fraction
+  f is given or ~ U(0.05, 0.5) (common practice, no source), D = 1/f.
+
+All arrays are in internal units: days, radians, g/cm^3.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .priors import EccPrior
+from .sampling import adaptive_importance_sample, split_normal_ppf, split_normal_logpdf, ImportanceResult
+from .transit import ars_from_rho, eccentric_durations, g_factor, inclination_from_b
+
+__all__ = ["Obs", "TransitObservables", "StarPool", "HYPOTHESES", "run_hypothesis",
+           "BLEND_CONTAM_MAX", "OTHER_HOST_FLUX_RANGE"]
+
+HYPOTHESES = ("circular", "eccentric", "blend", "other_host")
+BLEND_CONTAM_MAX = 0.9
+OTHER_HOST_FLUX_RANGE = (0.05, 0.5)
+
+
+@dataclass(frozen=True)
+class Obs:
+    """A measured value with split-normal 1-sigma widths (lo, hi > 0)."""
+
+    value: float
+    lo: float
+    hi: float
+
+    def ppf(self, u):
+        return split_normal_ppf(u, self.value, self.lo, self.hi)
+
+    def logpdf(self, x):
+        return split_normal_logpdf(x, self.value, self.lo, self.hi)
+
+
+@dataclass(frozen=True)
+class TransitObservables:
+    """What the transit fit measured (days for times and durations).
+
+    ``route`` is "durations" (needs t14) or "density" (needs ln_rho_circ: the split-normal description
+    of log rho_circ in ln(g/cm^3)). ``k`` is the observed (possibly diluted) radius ratio.
+    ``dilution_known`` is D_known = 1/(1 - contam_frac) >= 1.
+    """
+
+    route: str
+    period: Obs
+    t0: Obs
+    k: Obs
+    t14: Obs | None = None
+    t23: Obs | None = None
+    b: Obs | None = None
+    ln_rho_circ: Obs | None = None
+    dilution_known: float = 1.0
+
+
+@dataclass
+class StarPool:
+    """Joint draws of a star (rho g/cm^3, mstar Msun, rstar Rsun, teff K), sorted by density.
+
+    A unit-cube coordinate u maps to the draw at quantile u of density, so the sampler can adapt to the
+    part of the star's density distribution that the transit favours.
+    """
+
+    rho: np.ndarray
+    mstar: np.ndarray
+    rstar: np.ndarray
+    teff: np.ndarray
+
+    def __post_init__(self):
+        order = np.argsort(self.rho)
+        for name in ("rho", "mstar", "rstar", "teff"):
+            setattr(self, name, np.asarray(getattr(self, name), dtype=float)[order])
+
+    def take(self, u):
+        idx = np.minimum((np.asarray(u) * len(self.rho)).astype(int), len(self.rho) - 1)
+        return self.rho[idx], self.mstar[idx], self.rstar[idx], self.teff[idx]
+
+
+@dataclass
+class HypothesisSetup:
+    """Everything a hypothesis model needs beyond the observables."""
+
+    prior: EccPrior | None = None
+    transit_prob: bool = True
+    omega_measured: Obs | None = None   # known orbit: omega measurement (radians)
+    companion: StarPool | None = None
+    companion_flux: float | None = None
+    extra: dict = field(default_factory=dict)
+
+
+def _log_like_transit(obs: TransitObservables, rho_host, period, k_true, b, e, w, dilution):
+    """Log-likelihood of the transit observables for arrays of physical parameters."""
+    if obs.route == "durations":
+        a_rs = ars_from_rho(rho_host, period)
+        t14, t23 = eccentric_durations(a_rs, b, k_true, period, e, w)
+        ll = obs.t14.logpdf(t14)
+        if obs.t23 is not None:
+            ll = ll + obs.t23.logpdf(t23)
+        elif obs.b is not None:
+            ll = ll + obs.b.logpdf(b)
+        # impossible geometry (planet inside the star, no inclination gives this b)
+        fac = (1 - e * e) / (1 + e * np.sin(w))
+        bad = (b >= a_rs * fac) | (a_rs * (1 - e) <= 1 + k_true)
+        return np.where(bad, -np.inf, ll)
+    g3 = g_factor(e, w) ** 3
+    ln_model = np.log(rho_host * g3) - 0.75 * np.log(dilution)
+    return obs.ln_rho_circ.logpdf(ln_model)
+
+
+def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: HypothesisSetup,
+                   n: int, rng: np.random.Generator, ess_floor: float = 2000.0
+                   ) -> ImportanceResult:
+    """Importance-sample one hypothesis; returns weights, evidence and physical arrays in ``aux``.
+
+    ``aux`` holds e, omega, b, k (true radius ratio of the host), period, t0, rho_star, mstar, rstar,
+    a_rs, inc, teff, dilution.
+    """
+    if hyp not in HYPOTHESES:
+        raise ValueError(f"unknown hypothesis {hyp!r}")
+    dur = obs.route == "durations"
+    if hyp == "eccentric":
+        dims = ["e", "w"]
+    elif hyp == "blend":
+        dims = ["rho", "c"]
+    elif hyp == "other_host":
+        dims = ["rho"] + (["f"] if setup.companion_flux is None else [])
+    else:
+        dims = ["rho"]
+    if dur:
+        dims.append("b")
+    d = len(dims)
+    col = {name: i for i, name in enumerate(dims)}
+    host = setup.companion if hyp == "other_host" else star
+
+    def model(u, rng_):
+        m = u.shape[0]
+        if "rho" in col:
+            rho, mstar, rstar, teff = host.take(u[:, col["rho"]])
+        else:
+            rho, mstar, rstar, teff = host.take(rng_.random(m))
+        period = obs.period.ppf(rng_.random(m)) if obs.period.lo > 0 else np.full(m, obs.period.value)
+        t0 = obs.t0.ppf(rng_.random(m)) if obs.t0.lo > 0 else np.full(m, obs.t0.value)
+        k_obs = np.abs(obs.k.ppf(rng_.random(m)))
+        log_prior = np.zeros(m)
+        if hyp == "eccentric":
+            e = setup.prior.ppf(u[:, col["e"]])
+            if setup.omega_measured is not None:
+                w = setup.omega_measured.ppf(u[:, col["w"]])
+            else:
+                w = 2 * np.pi * u[:, col["w"]]
+            if setup.transit_prob:
+                log_prior = np.log((1 + e * np.sin(w)) / (1 - e * e) / setup.prior.mean_transit_boost)
+        else:
+            e = np.zeros(m)
+            w = np.full(m, np.pi / 2)
+        dilution = np.full(m, obs.dilution_known)
+        if hyp == "blend":
+            c = BLEND_CONTAM_MAX * u[:, col["c"]]
+            dilution = dilution / (1 - c)
+        elif hyp == "other_host":
+            if setup.companion_flux is not None:
+                f = np.full(m, setup.companion_flux)
+            else:
+                lo, hi = OTHER_HOST_FLUX_RANGE
+                f = lo + (hi - lo) * u[:, col["f"]]
+            dilution = 1.0 / f
+        k_true = k_obs * np.sqrt(dilution)
+        if dur:
+            b = (1 + k_true) * u[:, col["b"]]
+        else:
+            b = np.full(m, np.nan)
+        ll = _log_like_transit(obs, rho, period, k_true, b, e, w, dilution) + log_prior
+        a_rs = ars_from_rho(rho, period)
+        if not dur:
+            b = np.full(m, np.nan)
+        aux = dict(e=e, omega=np.mod(w, 2 * np.pi), b=b, k=k_true, period=period, t0=t0,
+                   rho_star=rho, mstar=mstar, rstar=rstar, a_rs=a_rs, teff=teff, dilution=dilution)
+        return np.where(np.isfinite(ll), ll, -np.inf), aux
+
+    res = adaptive_importance_sample(model, d, n, rng, ess_floor=ess_floor)
+    aux = res.aux
+    if not dur:
+        # b is not constrained by a density-only route: draw it from its measurement when given, else
+        # from the geometric prior U(0, 1) for the downstream stages (occultation impact parameter).
+        if obs.b is not None:
+            aux["b"] = np.clip(np.abs(obs.b.ppf(rng.random(len(aux["e"])))), 0, None)
+        else:
+            aux["b"] = rng.random(len(aux["e"]))
+    with np.errstate(invalid="ignore"):
+        inc = inclination_from_b(aux["b"], aux["a_rs"], aux["e"], aux["omega"])
+    aux["inc"] = np.where(np.isfinite(inc), inc, np.pi / 2)
+    return res
