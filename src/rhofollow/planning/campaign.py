@@ -1,0 +1,279 @@
+"""The campaign plan: every observable occultation window and the RV visits to place, per target.
+
+:func:`plan_campaign` is pure: it takes the per-target science dicts of :mod:`.night` and one
+:class:`NightVis` per night (visibility on that night's grid) and returns a :class:`CampaignPlan`
+whose :meth:`CampaignPlan.to_dict` is the ``campaign`` JSON contract::
+
+    {"site", "start", "end",
+     "targets": [{"name", "occultation_windows": [...], "rv_visits": [...],
+                  "hours": {"<instrument>": h}, ...}],
+     "hours_total": {"<instrument>": h}, "cautions": [...]}
+
+RV visits are placed one per night: visit ``k`` of a target aims at informative phase
+``best_phases[k mod m]`` and takes the not yet used night whose best start (on the candidate grid
+inside the visible slots) has the highest value at that phase (value formula of
+:mod:`.tasks`). Hours per instrument are block lengths plus the per-block overhead
+(slew + setup); occultation blocks include their baselines. Finally each night's chosen items are
+checked together with the exact interval scheduler; items that cannot share the night with more
+valuable ones are flagged ``"clash": true`` (they stay in the list: the observer decides).
+"""
+from __future__ import annotations
+
+import csv
+import io
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .night import CAUTION
+from .scheduler import FixedTask, solve_fixed
+from .tasks import ValueModel, VisGrid, jd_to_iso, occultation_tasks, phase_weight, rv_task
+
+__all__ = ["NightVis", "CampaignPlan", "plan_campaign", "hours_table", "to_ical", "TABLE_FORMATS"]
+
+TABLE_FORMATS = ("md", "latex", "csv")
+
+
+@dataclass
+class NightVis:
+    """Visibility of one night: local ``date`` (YYYY-MM-DD, evening), grid, limits (JD UTC)."""
+
+    date: str
+    vis: VisGrid
+    start_jd: float
+    end_jd: float
+
+
+@dataclass
+class CampaignPlan:
+    """Per-target windows, visits and hours; ``to_dict`` gives the JSON contract."""
+
+    site: str
+    start: str
+    end: str
+    targets: list
+    instruments: dict
+    cautions: list = field(default_factory=lambda: [CAUTION])
+
+    @property
+    def hours_total(self) -> dict:
+        """Hours per instrument summed over targets."""
+        tot = {name: 0.0 for name in self.instruments.values()}
+        for t in self.targets:
+            for k, v in t["hours"].items():
+                tot[k] = tot.get(k, 0.0) + v
+        return {k: round(v, 3) for k, v in tot.items()}
+
+    def to_dict(self) -> dict:
+        return {"site": self.site, "start": self.start, "end": self.end, "targets": self.targets,
+                "hours_total": self.hours_total, "instruments": dict(self.instruments),
+                "cautions": list(self.cautions)}
+
+
+def _rv_night_options(entry: dict, night: NightVis, model: ValueModel):
+    """(task, starts, phases, airmass factor * evidence / N_rem part) for one night, or None."""
+    t, _ = rv_task(dict(entry["rv"], name=entry["name"]), entry["evidence"], night.vis,
+                   entry["t0_bjd"], entry["period_d"], entry.get("bjd_minus_jd", 0.0),
+                   entry.get("n_done", 0), model)
+    if t is None:
+        return None
+    h0, h1 = night.vis.hours(night.start_jd), night.vis.hours(night.end_jd)
+    st = t.starts()
+    st = st[(st >= h0 - 1e-9) & (st + t.duration <= h1 + 1e-9)]
+    if st.size == 0:
+        return None
+    phases = np.array([t.meta["phase_of"](s) for s in st])
+    # value without the phase weight: evaluate the full value with no informative phase
+    flat = rv_task(dict(entry["rv"], name=entry["name"], best_phases=[]), entry["evidence"], night.vis,
+                   entry["t0_bjd"], entry["period_d"], entry.get("bjd_minus_jd", 0.0),
+                   entry.get("n_done", 0), model)[0]
+    base = flat.values_at(st)
+    return t, st, phases, base
+
+
+def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, overhead_h: float = 0.0,
+                  instruments: dict | None = None, model: ValueModel = ValueModel()) -> CampaignPlan:
+    """Windows, RV visits and hours per instrument for every target over the nights given.
+
+    Parameters
+    ----------
+    science : list of dict
+        Per-target science dicts (:func:`rhofollow.planning.night.science_entry`).
+    nights : list of NightVis
+        One entry per night of the campaign, in date order.
+    site : str
+        Site name for the report.
+    overhead_h : float
+        Slew + setup per block (hours), counted in the hours.
+    instruments : dict
+        ``{"occultation": name, "rv": name}``: instrument names the hours are booked on.
+    model : ValueModel
+    """
+    inst = {"occultation": "photometer", "rv": "spectrograph"}
+    inst.update(instruments or {})
+    out = []
+    per_night: dict[int, list] = {}
+    for entry in science:
+        name = entry["name"]
+        rec = {"name": name, "ok": True, "occultation_windows": [], "rv_visits": [], "hours": {},
+               "n_windows_unobservable": 0, "notes": []}
+        occ_h = 0.0
+        if entry.get("occultation"):
+            for ni, night in enumerate(nights):
+                tasks, skipped = occultation_tasks(dict(entry["occultation"], name=name),
+                                                   entry["evidence"], night.vis, model)
+                rec["n_windows_unobservable"] += len(skipped)
+                for t in tasks:
+                    j0 = night.vis.t_jd[0] + t.start / 24.0
+                    j1 = night.vis.t_jd[0] + t.end / 24.0
+                    if j0 < night.start_jd - 1e-9 or j1 > night.end_jd + 1e-9:
+                        rec["n_windows_unobservable"] += 1
+                        continue
+                    w = {"night": night.date, "epoch": t.meta["epoch"], "start_utc": jd_to_iso(j0),
+                         "end_utc": jd_to_iso(j1), "window_utc": t.meta["window_utc"],
+                         "baseline_h": t.meta["baseline_h"], "value": round(t.value, 6),
+                         "airmass_max": round(t.meta["airmass_max"], 4), "clash": False}
+                    rec["occultation_windows"].append(w)
+                    per_night.setdefault(ni, []).append((w, j0, j1, t.value))
+                    occ_h += (j1 - j0) * 24.0 + overhead_h
+        rv_h = 0.0
+        rv = entry.get("rv")
+        if rv and np.isfinite(entry.get("period_d", np.nan)) and np.isfinite(entry.get("t0_bjd", np.nan)):
+            n_need = rv.get("n_epochs_confirm_ecc")
+            try:
+                n_rem = int(np.ceil(max(0.0, float(n_need) - entry.get("n_done", 0))))
+            except (TypeError, ValueError, OverflowError):
+                n_rem = -1
+            if n_rem < 0:
+                rec["notes"].append("eccentricity cannot be confirmed with RVs (no finite epoch count)")
+            elif not entry["evidence"] > 0:
+                rec["notes"].append("no RV visits: no evidence for eccentricity")
+            else:
+                opts = {ni: _rv_night_options(entry, n, model) for ni, n in enumerate(nights)}
+                opts = {k: v for k, v in opts.items() if v is not None}
+                best = [p for p in (rv.get("best_phases") or []) if p is not None] or [None]
+                used = set()
+                for k in range(n_rem):
+                    target_phase = best[k % len(best)]
+                    pick = None
+                    for ni, (task, st, ph, base) in opts.items():
+                        if ni in used:
+                            continue
+                        w = base * (phase_weight(ph, [target_phase], model.phase_sigma, model.phase_floor)
+                                    if target_phase is not None else 1.0)
+                        j = int(np.argmax(w))
+                        if pick is None or w[j] > pick[0] + 1e-12:
+                            pick = (float(w[j]), ni, float(st[j]), float(ph[j]), task)
+                    if pick is None:
+                        rec["notes"].append(f"only {k} of {n_rem} RV visits fit in the nights given")
+                        break
+                    val, ni, s, ph, task = pick
+                    used.add(ni)
+                    night = nights[ni]
+                    j0 = night.vis.t_jd[0] + s / 24.0
+                    j1 = j0 + task.duration / 24.0
+                    v = {"night": night.date, "start_utc": jd_to_iso(j0), "end_utc": jd_to_iso(j1),
+                         "phase": round(ph, 4), "target_phase": target_phase, "value": round(val, 6),
+                         "airmass_max": round(float(night.vis.airmass_max(name, j0, j1)), 4),
+                         "clash": False}
+                    rec["rv_visits"].append(v)
+                    per_night.setdefault(ni, []).append((v, j0, j1, val))
+                    rv_h += task.duration + overhead_h
+                rec["rv_visits"].sort(key=lambda x: x["start_utc"])
+        if occ_h:
+            rec["hours"][inst["occultation"]] = round(occ_h, 3)
+        if rv_h:
+            rec["hours"][inst["rv"]] = round(rv_h, 3)
+        if not rec["occultation_windows"] and not rec["rv_visits"]:
+            rec["notes"].append("nothing observable in the campaign")
+        out.append(rec)
+    # nights where the items cannot all be done: flag the ones the exact scheduler drops
+    for ni, items in per_night.items():
+        if len(items) < 2:
+            continue
+        j_ref = nights[ni].vis.t_jd[0]
+        tasks = [FixedTask(f"i{k}", (j0 - j_ref) * 24.0, (j1 - j_ref) * 24.0, max(val, 1e-12))
+                 for k, (_, j0, j1, val) in enumerate(items)]
+        kept = {b.task for b in solve_fixed(tasks, overhead_h).blocks}
+        for k, (item, *_rest) in enumerate(items):
+            item["clash"] = k not in kept
+    return CampaignPlan(site, nights[0].date if nights else "", nights[-1].date if nights else "",
+                        out, inst)
+
+
+def hours_table(plan: CampaignPlan, fmt: str = "md") -> str:
+    """The proposal table: per target the windows, visits and hours per instrument, and totals.
+
+    ``fmt`` is "md" (Markdown), "latex" (a tabular environment) or "csv".
+    """
+    if fmt not in TABLE_FORMATS:
+        raise ValueError(f"unknown table format {fmt!r}; choose one of {', '.join(TABLE_FORMATS)}")
+    insts = list(dict.fromkeys(plan.instruments.values()))
+    head = ["Target", "Occultation windows", "RV visits"] + [f"{i} (h)" for i in insts] + ["Total (h)"]
+    rows = []
+    for t in plan.targets:
+        hs = [t["hours"].get(i, 0.0) for i in insts]
+        rows.append([t["name"], str(len(t["occultation_windows"])), str(len(t["rv_visits"]))]
+                    + [f"{h:.2f}" for h in hs] + [f"{sum(hs):.2f}"])
+    tot = plan.hours_total
+    hs = [tot.get(i, 0.0) for i in insts]
+    rows.append(["Total", str(sum(len(t["occultation_windows"]) for t in plan.targets)),
+                 str(sum(len(t["rv_visits"]) for t in plan.targets))]
+                + [f"{h:.2f}" for h in hs] + [f"{sum(hs):.2f}"])
+    if fmt == "csv":
+        buf = io.StringIO()
+        w = csv.writer(buf, lineterminator="\n")
+        w.writerow(head)
+        w.writerows(rows)
+        return buf.getvalue()
+    if fmt == "md":
+        lines = ["| " + " | ".join(head) + " |", "|" + "|".join(["---"] + ["---:"] * (len(head) - 1)) + "|"]
+        lines += ["| " + " | ".join(r) + " |" for r in rows]
+        return "\n".join(lines) + "\n"
+
+    def esc(s):
+        s = s.replace("\\", "\0")
+        for ch in "&%_#${}":
+            s = s.replace(ch, "\\" + ch)
+        return s.replace("\0", r"\textbackslash{}")
+
+    lines = [r"\begin{tabular}{l" + "r" * (len(head) - 1) + "}", r"\hline",
+             " & ".join(esc(h) for h in head) + r" \\", r"\hline"]
+    lines += [" & ".join(esc(c) for c in r) + r" \\" for r in rows[:-1]]
+    lines += [r"\hline", " & ".join(esc(c) for c in rows[-1]) + r" \\", r"\hline", r"\end{tabular}"]
+    return "\n".join(lines) + "\n"
+
+
+def to_ical(plan: CampaignPlan) -> bytes:
+    """iCalendar (RFC 5545) text of every occultation window and RV visit, times in UTC."""
+    from datetime import datetime, timezone
+
+    from icalendar import Calendar, Event
+
+    def dt(iso):
+        return datetime.fromisoformat(iso.replace("Z", "+00:00")).astimezone(timezone.utc)
+
+    cal = Calendar()
+    cal.add("prodid", "-//rhofollow//campaign plan//EN")
+    cal.add("version", "2.0")
+    cal.add("x-wr-calname", f"rhofollow campaign {plan.site} {plan.start} to {plan.end}")
+    for t in plan.targets:
+        items = [("occultation", w) for w in t["occultation_windows"]] + [("RV", v) for v in t["rv_visits"]]
+        for kind, it in items:
+            ev = Event()
+            label = f"E{it['epoch']}" if kind == "occultation" else f"phase {it['phase']:.2f}"
+            ev.add("summary", f"{t['name']} {kind} ({label})")
+            ev.add("dtstart", dt(it["start_utc"]))
+            ev.add("dtend", dt(it["end_utc"]))
+            ev.add("uid", f"{t['name']}-{kind}-{it['start_utc']}@rhofollow".replace(" ", "_"))
+            ev.add("dtstamp", dt(it["start_utc"]))
+            desc = [f"site: {plan.site}", f"value: {it['value']}", f"max airmass: {it['airmass_max']}"]
+            if kind == "occultation":
+                desc.append(f"predicted window (UTC): {it['window_utc'][0]} to {it['window_utc'][1]}, "
+                            f"baselines {it['baseline_h']} h each side")
+            if it.get("clash"):
+                desc.append("clashes with a more valuable item that night")
+            desc.append(CAUTION)
+            ev.add("description", "\n".join(desc))
+            cal.add_component(ev)
+    return cal.to_ical()

@@ -1,0 +1,112 @@
+"""Campaign plan: windows, RV placement at informative phases, hours, tables, iCalendar."""
+import csv
+import io
+
+import numpy as np
+import pytest
+
+from rhofollow.planning.campaign import NightVis, hours_table, plan_campaign, to_ical
+from rhofollow.planning.night import CAUTION, science_entry
+from rhofollow.planning.tasks import VisGrid, iso_to_jd, jd_to_iso
+
+JD0 = 2461376.5 + 1.0 / 24.0  # invented: first night starts 2026-12-03T01:00Z
+NAMES = ["HTS-101", "HTS-102"]
+
+
+def _nights(n=6, obs_fn=None):
+    out = []
+    for k in range(n):
+        t = JD0 + k + np.arange(97) * 5.0 / 1440.0
+        obs = np.ones((len(NAMES), t.size), bool) if obs_fn is None else obs_fn(k, t)
+        out.append(NightVis(f"2026-12-{2 + k:02d}", VisGrid(t, NAMES, obs, np.full(obs.shape, 1.25)),
+                            t[0], t[-1]))
+    return out
+
+
+def _science(n_rv=4):
+    period = 2.5
+    occ = {"p_occultation": 0.9, "occ_duration_h": 1.5, "events": [
+        {"epoch": k, "window_utc": [[jd_to_iso(JD0 + 0.2 + k * period - 0.04),
+                                     jd_to_iso(JD0 + 0.2 + k * period + 0.04)]]} for k in range(4)]}
+    rv = {"n_epochs_confirm_ecc": n_rv, "hours_confirm_ecc": 0.5 * n_rv, "best_phases": [0.2, 0.6]}
+    return [science_entry("HTS-101", evidence=0.8, occultation=occ, rv=rv, t0_bjd=JD0 - 1.0, period_d=period),
+            science_entry("HTS-102", evidence=0.5, rv=dict(rv, n_epochs_confirm_ecc=float("inf")),
+                          t0_bjd=JD0, period_d=4.0)]
+
+
+def test_campaign_contract_hours_and_phases():
+    nights = _nights()
+    plan = plan_campaign(_science(), nights, site="Alto Quemado Observatory", overhead_h=0.1,
+                         instruments={"occultation": "AQ-Cam", "rv": "AQ-Vel"})
+    d = plan.to_dict()
+    assert {"targets", "hours_total", "cautions"} <= set(d) and d["cautions"] == [CAUTION]
+    t101, t102 = d["targets"]
+    assert {"name", "occultation_windows", "rv_visits", "hours"} <= set(t101)
+    # windows at JD0 + 0.2, 2.7, 5.2, 7.7 d; nights cover JD0 + k .. JD0 + k + 0.33 d (k = 0..5),
+    # so epoch 1 falls in daytime and epoch 3 after the campaign
+    assert [w["epoch"] for w in t101["occultation_windows"]] == [0, 2]
+    for w in t101["occultation_windows"]:
+        assert iso_to_jd(w["end_utc"]) - iso_to_jd(w["start_utc"]) == pytest.approx((0.08 + 2 / 24), abs=1e-5)
+    # hours: occultation blocks (1.92 h window + 2 x 1 h baselines) plus the overhead of each
+    occ_h = sum((iso_to_jd(w["end_utc"]) - iso_to_jd(w["start_utc"])) * 24 + 0.1
+                for w in t101["occultation_windows"])
+    assert t101["hours"]["AQ-Cam"] == pytest.approx(occ_h, abs=1e-3)
+    assert t101["hours"]["AQ-Vel"] == pytest.approx(4 * (0.5 + 0.1), abs=1e-3)
+    # 4 visits, distinct nights, alternating target phases, each close to its target phase
+    nights_used = [v["night"] for v in t101["rv_visits"]]
+    assert len(nights_used) == 4 == len(set(nights_used))
+    assert sorted(v["target_phase"] for v in t101["rv_visits"]) == [0.2, 0.2, 0.6, 0.6]
+    for v in t101["rv_visits"]:
+        dphi = abs((v["phase"] - v["target_phase"] + 0.5) % 1 - 0.5)
+        assert dphi < 0.05
+    # impossible confirmation: no visits, a note, no hours
+    assert t102["rv_visits"] == [] and t102["hours"] == {} and t102["notes"]
+    assert d["hours_total"]["AQ-Vel"] == pytest.approx(t101["hours"]["AQ-Vel"])
+
+
+def test_campaign_fewer_nights_than_visits():
+    plan = plan_campaign(_science(n_rv=9), _nights(3), site="x")
+    t = plan.targets[0]
+    assert len(t["rv_visits"]) == 3 and any("only 3 of 9" in n for n in t["notes"])
+
+
+def test_campaign_visits_only_when_observable():
+    def obs_fn(k, t):
+        o = np.zeros((2, t.size), bool)
+        if k % 2 == 0:
+            o[:, 10:50] = True
+        return o
+    nights = _nights(6, obs_fn)
+    plan = plan_campaign(_science(n_rv=3), nights, site="x")
+    for v in plan.targets[0]["rv_visits"]:
+        night = next(n for n in nights if n.date == v["night"])
+        assert night.vis.t_jd[10] - 1e-6 <= iso_to_jd(v["start_utc"])
+        assert iso_to_jd(v["end_utc"]) <= night.vis.t_jd[49] + 1e-6
+
+
+def test_campaign_flags_clashes():
+    sci = _science(n_rv=6)
+    # a second target with the same windows: both cannot be observed, one is flagged
+    sci[1] = science_entry("HTS-102", evidence=0.4, occultation=sci[0]["occultation"], t0_bjd=JD0,
+                           period_d=2.5)
+    plan = plan_campaign(sci, _nights(2), site="x")
+    a = plan.targets[0]["occultation_windows"][0]
+    b = plan.targets[1]["occultation_windows"][0]
+    assert a["clash"] is False and b["clash"] is True
+
+
+def test_tables_and_ical():
+    plan = plan_campaign(_science(), _nights(), site="Alto Quemado Observatory",
+                         instruments={"occultation": "AQ-Cam", "rv": "AQ_Vel"})
+    md = hours_table(plan, "md")
+    assert md.splitlines()[0].startswith("| Target |") and "| Total |" in md
+    rows = list(csv.reader(io.StringIO(hours_table(plan, "csv"))))
+    assert rows[0][:3] == ["Target", "Occultation windows", "RV visits"] and rows[-1][0] == "Total"
+    assert float(rows[-1][-1]) == pytest.approx(sum(plan.hours_total.values()), abs=0.02)
+    tex = hours_table(plan, "latex")
+    assert r"\begin{tabular}" in tex and r"AQ\_Vel" in tex and "HTS-101" in tex
+    with pytest.raises(ValueError, match="unknown table format"):
+        hours_table(plan, "html")
+    ics = to_ical(plan).decode()
+    n_items = sum(len(t["occultation_windows"]) + len(t["rv_visits"]) for t in plan.targets)
+    assert ics.count("BEGIN:VEVENT") == n_items and "HTS-101 occultation" in ics
