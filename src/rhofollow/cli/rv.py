@@ -1,0 +1,137 @@
+"""``rhofollow rv``: RV semi-amplitude, epochs and hours to confirm an eccentric orbit, and the
+eccentricity update from measured RVs."""
+from __future__ import annotations
+
+from pathlib import Path
+
+from .common import UserError, add_json_option, add_seed_option, console, err_console, write_json
+
+__all__ = ["register", "run"]
+
+
+def register(subparsers):
+    p = subparsers.add_parser(
+        "rv", help="RV semi-amplitude, epochs and hours to confirm e > 0, update from measured RVs",
+        description="For every catalogue target: the RV semi-amplitude K and planet mass, the per-epoch "
+        "precision on the chosen spectrograph, the epochs and hours to detect K and to confirm an "
+        "eccentric orbit (likelihood-ratio test, simulated), the most informative orbital phases, and, "
+        "with measured RVs, the updated eccentricity.")
+    p.add_argument("catalog", metavar="CATALOG", help="target catalogue (CSV, ECSV or VOTable)")
+    p.add_argument("--instrument", metavar="FILE", action="append", required=True,
+                   help="spectrograph model (TOML); the first one is planned with, all of them name the "
+                   "instruments allowed in RV files (repeat the option for several)")
+    p.add_argument("--rv-data", metavar="PATH",
+                   help="measured RVs: a directory of <target>.csv / .ecsv files, or one file with a "
+                   "'target' column")
+    p.add_argument("--fap", type=float, default=0.01,
+                   help="false-alarm probability of the eccentricity test (default 0.01)")
+    p.add_argument("--power", type=float, default=0.8,
+                   help="required probability of confirming e > 0 (default 0.8)")
+    p.add_argument("--samples", type=int, default=20000,
+                   help="posterior samples per target in the assessment (default 20000)")
+    p.add_argument("--relation", default="auto",
+                   choices=["auto", "wrf16", "otegi20-rocky", "otegi20-volatile", "giant"],
+                   help="planet mass-radius relation when no mass is known (default auto)")
+    p.add_argument("--k-mode", default="marginal", choices=["marginal", "mass"],
+                   help="RV update: marginalise K analytically, or take K from the mass draws")
+    add_json_option(p)
+    add_seed_option(p)
+    p.set_defaults(func=run)
+
+
+def _fmt(q, digits=1):
+    if not q:
+        return "-"
+    return f"{q['q50']:.{digits}f} [{q['q16']:.{digits}f}, {q['q84']:.{digits}f}]"
+
+
+def run(args) -> int:
+    from rich.table import Table
+
+    from ..assess import assess_catalogue
+    from ..io.catalogue import read_catalogue
+    from ..io.instruments import InstrumentError, Spectrograph, read_instruments
+    from ..io.rvdata import RVDataError, read_rv_data
+    from ..rvplan import CAUTION, plan_rv
+
+    if not 0 < args.fap < 1:
+        raise UserError(f"--fap must lie between 0 and 1, got {args.fap}")
+    if not 0 < args.power < 1:
+        raise UserError(f"--power must lie between 0 and 1, got {args.power}")
+    if args.samples < 200:
+        raise UserError(f"--samples must be at least 200, got {args.samples}")
+    try:
+        insts = read_instruments(args.instrument)
+    except InstrumentError as exc:
+        raise UserError(str(exc)) from None
+    plan_inst = next(iter(insts.values()))
+    if not isinstance(plan_inst, Spectrograph):
+        raise UserError(f"{args.instrument[0]}: key 'kind' is \"{plan_inst.kind}\"; the rv command needs a "
+                        "spectrograph")
+    rv_data = None
+    if args.rv_data:
+        try:
+            rv_data = read_rv_data(args.rv_data, known_instruments=insts.keys())
+        except RVDataError as exc:
+            raise UserError(str(exc)) from None
+    if not Path(args.catalog).exists():
+        raise UserError(f"{args.catalog}: catalogue file not found")
+    try:
+        cat = read_catalogue(args.catalog)
+    except Exception as exc:  # the reader's own error type carries a one-sentence message
+        if type(exc).__name__ == "CatalogueError":
+            raise UserError(str(exc)) from None
+        raise
+    ec = err_console()
+    for issue in cat.issues:
+        ec.print(f"[yellow]{issue.severity}:[/] {issue}", highlight=False)
+    if rv_data:
+        unknown = sorted(set(rv_data) - {t.name for t in cat.targets})
+        for name in unknown:
+            ec.print(f"[yellow]warning:[/] RVs of {name} ({rv_data[name].source}) match no catalogue target",
+                     highlight=False)
+    from rich.progress import Progress
+
+    with Progress(console=ec, transient=True) as prog:
+        task = prog.add_task("assessing", total=len(cat.targets))
+        assessments = assess_catalogue(cat.targets, n_samples=args.samples, seed=args.seed,
+                                       progress=lambda: prog.advance(task))
+        task2 = prog.add_task("RV planning", total=len(assessments))
+        records = plan_rv(assessments, plan_inst, rv_data, fap=args.fap, power=args.power, seed=args.seed,
+                          relation=args.relation, k_mode=args.k_mode, progress=lambda: prog.advance(task2))
+
+    with_data = any("ecc_confirmed" in r for r in records)
+    tab = Table(title=f"RV follow-up on {plan_inst.name} (FAP {args.fap:g}, power {args.power:.0%})")
+    for col in ("target", "K m/s", "Mp M⊕", "σ/epoch m/s", "N det K", "N conf e", "hours", "phases"):
+        tab.add_column(col, justify="left" if col in ("target", "phases") else "right")
+    if with_data:
+        tab.add_column("e updated", justify="right")
+        tab.add_column("e > 0?", justify="center")
+    for r in records:
+        if not r["ok"]:
+            row = [r["name"], "[red]" + "; ".join(r["errors"])[:60] + "[/]"] + [""] * 6
+        else:
+            n = r["n_epochs_confirm_ecc"]
+            row = [r["name"], _fmt(r["k_ms"]), _fmt(r["mp_mearth"]), f"{r['sigma_rv_ms']:.2f}",
+                   str(r["n_epochs_detect_k"] or "-"), str(n) if n else f"> {400}",
+                   f"{r['hours_confirm_ecc']:.1f}" if r["hours_confirm_ecc"] else "-",
+                   ", ".join(f"{p:.2f}" for p in r["best_phases"][:3])]
+        if with_data:
+            if "ecc_confirmed" in r:
+                row += [_fmt(r.get("ecc_updated"), 3), "yes" if r["ecc_confirmed"] else "no"]
+            else:
+                row += ["", ""]
+        tab.add_row(*row)
+    con = console()
+    con.print(tab)
+    con.print("Phases: orbital phase from mid-transit (0..1) where eccentric and circular orbits differ "
+              "most. " + CAUTION, highlight=False)
+    for r in records:
+        for w in r.get("warnings", []):
+            ec.print(f"[yellow]warning:[/] {r['name']}: {w}", highlight=False)
+    if args.json:
+        doc = {"command": "rv", "catalogue": str(args.catalog), "instrument": plan_inst.name,
+               "instrument_file": plan_inst.source, "fap": args.fap, "power": args.power, "seed": args.seed,
+               "caution": CAUTION, "targets": records}
+        write_json(args.json, doc)
+    return 0 if all(r["ok"] for r in records) and cat.ok else 1

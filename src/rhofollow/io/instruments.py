@@ -1,0 +1,158 @@
+"""Instrument models from TOML files (tomllib), validated with errors that name file and key.
+
+Two kinds (key ``kind``):
+
+``kind = "spectrograph"`` — an RV instrument. Keys (unit in the name):
+
+=======================  ========  ==========================================================
+key                      default   meaning
+=======================  ========  ==========================================================
+name                     required  instrument name as written in RV files (``instrument``)
+precision_ref_ms         required  photon-limited RV error at ``vmag_ref`` and ``exposure_ref_s``
+vmag_ref                 required  reference V magnitude
+exposure_ref_s           required  reference exposure time (s)
+floor_ms                 required  instrumental noise floor per epoch (m/s)
+exposure_min_s           60        shortest useful exposure (s)
+exposure_max_s           3600      longest exposure (s): a fainter star gets this and a larger error
+overhead_min             required  pointing, acquisition and read-out per visit (minutes)
+observatory              ""        free text
+=======================  ========  ==========================================================
+
+``kind = "photometer"`` — a camera for occultation (secondary-eclipse) light curves. Keys:
+``name``, ``overhead_min`` (per visit), ``exposure_s`` (typical cadence exposure), ``readout_s``,
+``filter`` (text), ``precision_ref_ppm`` (scatter per minute at ``vmag_ref``), ``vmag_ref``,
+``baseline_h`` (out-of-eclipse baseline wanted on each side of an event), ``observatory``.
+"""
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+
+__all__ = ["InstrumentError", "Spectrograph", "Photometer", "read_instrument", "read_instruments"]
+
+
+class InstrumentError(ValueError):
+    """An instrument file is missing, unreadable or has a bad key (message names file and key)."""
+
+
+@dataclass(frozen=True)
+class Spectrograph:
+    """An RV spectrograph's precision model (see module docstring for the keys and units)."""
+
+    name: str
+    precision_ref_ms: float
+    vmag_ref: float
+    exposure_ref_s: float
+    floor_ms: float
+    overhead_min: float
+    exposure_min_s: float = 60.0
+    exposure_max_s: float = 3600.0
+    observatory: str = ""
+    source: str = ""
+    kind: str = "spectrograph"
+
+    @property
+    def overhead_s(self) -> float:
+        return 60.0 * self.overhead_min
+
+
+@dataclass(frozen=True)
+class Photometer:
+    """A photometer for occultation light curves (see module docstring for the keys and units)."""
+
+    name: str
+    overhead_min: float
+    exposure_s: float = 60.0
+    readout_s: float = 10.0
+    filter: str = ""
+    precision_ref_ppm: float = math.nan
+    vmag_ref: float = math.nan
+    baseline_h: float = 1.0
+    observatory: str = ""
+    source: str = ""
+    kind: str = "photometer"
+
+
+# key -> (required, bound): bound 0.0 means "> 0", -1.0 means ">= 0", None means unbounded
+_SPEC_NUM = {"precision_ref_ms": (True, 0.0), "vmag_ref": (True, None), "exposure_ref_s": (True, 0.0),
+             "floor_ms": (True, -1.0), "overhead_min": (True, -1.0), "exposure_min_s": (False, 0.0),
+             "exposure_max_s": (False, 0.0)}
+_PHOT_NUM = {"overhead_min": (True, -1.0), "exposure_s": (False, 0.0), "readout_s": (False, -1.0),
+             "precision_ref_ppm": (False, 0.0), "vmag_ref": (False, None), "baseline_h": (False, -1.0)}
+_TEXT = ("name", "observatory", "filter")
+
+
+def _num(data, key, required, lower, src):
+    if key not in data:
+        if required:
+            raise InstrumentError(f"{src}: key '{key}' is missing")
+        return None
+    v = data[key]
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        raise InstrumentError(f"{src}: key '{key}' must be a number, got {v!r}")
+    v = float(v)
+    if not math.isfinite(v):
+        raise InstrumentError(f"{src}: key '{key}' must be finite, got {v}")
+    if lower is not None:
+        if lower < 0 and v < 0:
+            raise InstrumentError(f"{src}: key '{key}' must be >= 0, got {v:g}")
+        if lower >= 0 and v <= lower:
+            raise InstrumentError(f"{src}: key '{key}' must be > {lower:g}, got {v:g}")
+    return v
+
+
+def read_instrument(path) -> Spectrograph | Photometer:
+    """Read and validate one instrument TOML file.
+
+    Raises :class:`InstrumentError` with a one-sentence message naming the file and key.
+    """
+    p = Path(path)
+    src = str(p)
+    try:
+        with p.open("rb") as fh:
+            data = tomllib.load(fh)
+    except FileNotFoundError:
+        raise InstrumentError(f"{src}: instrument file not found") from None
+    except IsADirectoryError:
+        raise InstrumentError(f"{src}: is a directory, not an instrument file") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InstrumentError(f"{src}: not valid TOML ({exc})") from None
+    kind = data.get("kind")
+    if kind not in ("spectrograph", "photometer"):
+        raise InstrumentError(f"{src}: key 'kind' must be \"spectrograph\" or \"photometer\", got {kind!r}")
+    spec = _SPEC_NUM if kind == "spectrograph" else _PHOT_NUM
+    allowed = set(spec) | set(_TEXT) | {"kind"}
+    for key in data:
+        if key not in allowed:
+            raise InstrumentError(f"{src}: unknown key '{key}' for a {kind} "
+                                  f"(allowed: {', '.join(sorted(allowed))})")
+    name = data.get("name")
+    if not isinstance(name, str) or not name.strip():
+        raise InstrumentError(f"{src}: key 'name' must be a non-empty string")
+    for key in ("observatory", "filter"):
+        if key in data and not isinstance(data[key], str):
+            raise InstrumentError(f"{src}: key '{key}' must be a string")
+    vals = {k: _num(data, k, req, lo, src) for k, (req, lo) in spec.items()}
+    vals = {k: v for k, v in vals.items() if v is not None}
+    text = {k: data[k] for k in ("observatory", "filter") if k in data}
+    if kind == "spectrograph":
+        text.pop("filter", None)
+        inst = Spectrograph(name=name.strip(), source=src, **vals, **text)
+        if inst.exposure_min_s > inst.exposure_max_s:
+            raise InstrumentError(f"{src}: key 'exposure_min_s' ({inst.exposure_min_s:g}) exceeds "
+                                  f"'exposure_max_s' ({inst.exposure_max_s:g})")
+        return inst
+    return Photometer(name=name.strip(), source=src, **vals, **text)
+
+
+def read_instruments(paths) -> dict[str, Spectrograph | Photometer]:
+    """Read several instrument files; name -> model. Two files with one name is an error."""
+    out: dict[str, Spectrograph | Photometer] = {}
+    for p in paths:
+        inst = read_instrument(p)
+        if inst.name in out:
+            raise InstrumentError(f"{p}: key 'name' repeats instrument '{inst.name}' of {out[inst.name].source}")
+        out[inst.name] = inst
+    return out

@@ -1,0 +1,346 @@
+"""How many RV epochs detect K, and how many confirm that the orbit is eccentric.
+
+With the period and mid-transit time fixed by the transit, the circular model
+v = gamma + K c(phase) and, at a fixed (e, omega), the eccentric model v = gamma + K s_{e,omega}(phase)
+are linear in K and the offsets. Both are profiled analytically (weighted least squares after
+projecting out per-instrument offsets), and the eccentric model is maximised over an (e, omega)
+grid. The likelihood-ratio statistic is Delta chi^2 = chi^2_circ - min_grid chi^2_ecc (Gaussian
+errors; Neyman-Pearson likelihood-ratio test, Wilks 1938, Ann. Math. Stat. 9, 60). Its false-alarm
+threshold is taken from simulations under the circular null (the asymptotic chi^2 with 2 degrees
+of freedom is only reached at large K/sigma, because the grid search adds a look-elsewhere effect).
+
+Everything is vectorised over simulated data sets, grid points and epochs; the only Python loops
+are over a handful of phase batches and over the bisection in N.
+
+Units: phases are (t - t0)/P from mid-transit (cycles), velocities m/s, angles radians.
+"""
+from __future__ import annotations
+
+import numpy as np
+from scipy import stats
+
+from .rv import circular_shape, rv_shape
+
+__all__ = ["EccGrid", "ecc_grid", "profiled_chi2", "lrt_statistic", "simulate_lrt", "power_at",
+           "epochs_to_confirm", "epochs_to_detect_k_simple", "epochs_to_detect_k",
+           "fisher_noncentrality", "fisher_epochs_to_confirm", "informative_phases", "N_LADDER"]
+
+#: Candidate numbers of epochs searched by :func:`epochs_to_confirm` (bisection on this ladder).
+N_LADDER = (5, 6, 7, 8, 9, 10, 12, 14, 16, 18, 20, 23, 26, 30, 35, 40, 46, 53, 60, 70, 80, 92, 106,
+            120, 140, 160, 185, 212, 240, 275, 315, 360, 400)
+
+
+class EccGrid:
+    """An (e, omega) grid for the profiled eccentric model (flattened arrays ``e``, ``omega``).
+
+    Eccentricities are spaced as e_max (i / n_e)^1.5 for i = 1..n_e (denser near circular, where
+    the test decides), arguments of periastron uniformly on [0, 2 pi).
+    """
+
+    def __init__(self, n_e: int = 14, n_omega: int = 24, e_max: float = 0.9):
+        ee = e_max * (np.arange(1, n_e + 1) / n_e) ** 1.5
+        ww = np.arange(n_omega) * (2.0 * np.pi / n_omega)
+        eg, wg = np.meshgrid(ee, ww, indexing="ij")
+        self.e = eg.ravel()
+        self.omega = wg.ravel()
+
+    @property
+    def size(self) -> int:
+        return self.e.size
+
+    def templates(self, phases):
+        """Unit-amplitude eccentric RV templates, shape (..., G, N) for phases (..., N)."""
+        ph = np.asarray(phases, float)[..., None, :]
+        return rv_shape(ph, self.e[:, None], self.omega[:, None])
+
+
+def ecc_grid(n_e: int = 14, n_omega: int = 24, e_max: float = 0.9) -> EccGrid:
+    """Default (e, omega) grid; see :class:`EccGrid`."""
+    return EccGrid(n_e, n_omega, e_max)
+
+
+def _project_offsets(x, w, groups, n_groups):
+    """Remove the weighted mean of each instrument group along the last axis (offsets profiled)."""
+    if n_groups == 1:
+        mean = np.sum(x * w, axis=-1, keepdims=True) / np.sum(w)
+        return x - mean
+    onehot = (groups[:, None] == np.arange(n_groups)[None, :]).astype(float)  # (N, I)
+    sums = (x * w) @ onehot / (w @ onehot)                                     # (..., I)
+    return x - sums[..., groups]
+
+
+def profiled_chi2(y, templates, w=None, groups=None):
+    """Minimum chi^2 over K and per-group offsets for every (data set, template) pair.
+
+    Parameters
+    ----------
+    y : ndarray (..., D, N), data sets (m/s)
+    templates : ndarray (..., G, N), unit-amplitude model shapes
+    w : ndarray (N,), inverse variances (1/m^2 s^-2); None = all 1
+    groups : ndarray (N,) of int, instrument index per epoch (separate offsets); None = one offset
+
+    Returns
+    -------
+    ndarray (..., D, G): chi^2 = |y_perp|^2_w - (y_perp . s_perp)_w^2 / |s_perp|^2_w
+    (Frisch-Waugh-Lovell: offsets projected out, then a one-parameter linear fit in K).
+    """
+    y = np.asarray(y, float)
+    s = np.asarray(templates, float)
+    n = y.shape[-1]
+    w = np.ones(n) if w is None else np.asarray(w, float)
+    g = np.zeros(n, int) if groups is None else np.asarray(groups, int)
+    ng = int(g.max()) + 1 if n else 1
+    yp = _project_offsets(y, w, g, ng)
+    sp = _project_offsets(s, w, g, ng)
+    yy = np.sum(w * yp * yp, axis=-1)
+    ss = np.sum(w * sp * sp, axis=-1)
+    ys = (yp * w) @ np.swapaxes(sp, -1, -2)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        gain = np.where(ss[..., None, :] > 0, ys * ys / ss[..., None, :], 0.0)
+    return yy[..., :, None] - gain
+
+
+def lrt_statistic(y, phases, grid: EccGrid, w=None, groups=None, ecc_templates=None):
+    """Likelihood-ratio statistic eccentric vs circular, per data set.
+
+    Returns ``(delta_chi2, best)``: Delta chi^2 = chi^2_circ - min over the grid of chi^2_ecc
+    (>= 0, shape (..., D)) and the index of the best grid point.
+    """
+    circ = circular_shape(phases)[..., None, :]
+    chi_c = profiled_chi2(y, circ, w, groups)[..., 0]
+    s = grid.templates(phases) if ecc_templates is None else ecc_templates
+    chi_e = profiled_chi2(y, s, w, groups)
+    best = np.argmin(chi_e, axis=-1)
+    dchi = chi_c - np.take_along_axis(chi_e, best[..., None], axis=-1)[..., 0]
+    return np.maximum(dchi, 0.0), best
+
+
+def _draw_truth(e, omega, k, weights, n, rng):
+    """Indices of n posterior samples drawn with their weights (systematic resampling)."""
+    w = np.ones(len(e)) / len(e) if weights is None else np.asarray(weights, float) / np.sum(weights)
+    cw = np.cumsum(w)
+    cw[-1] = 1.0
+    idx = np.searchsorted(cw, (rng.random() + np.arange(n)) / n)
+    return rng.permutation(idx)
+
+
+def simulate_lrt(e, omega, k, sigma, n_epochs, *, weights=None, seed=0, n_alt=400, n_null=2000,
+                 n_batches=8, grid: EccGrid | None = None, phases=None):
+    """Simulate the eccentric-vs-circular LRT at ``n_epochs`` epochs for one target.
+
+    Parameters
+    ----------
+    e, omega, k : ndarray (S,), posterior samples (eccentricity, omega [rad], K [m/s])
+    sigma : float, per-epoch RV error including jitter (m/s)
+    n_epochs : int
+    weights : ndarray (S,) or None
+    seed : int or Generator; the same seed gives the same answer (common random numbers across N)
+    n_alt, n_null : simulated data sets drawn from the posterior and under the circular null
+    n_batches : number of independent epoch sets (phases uniform over the orbit, the feasible
+        epochs when no schedule is known yet); data sets are split evenly among them
+    phases : optional ndarray (N,) of fixed orbital phases (for example a schedule's visits)
+
+    Returns
+    -------
+    dict with ``threshold`` (the (1 - fap) points are taken later), ``d_alt`` (n_alt,),
+    ``d_null`` (n_null,) arrays of Delta chi^2.
+    """
+    rng = np.random.default_rng(seed)
+    grid = grid or ecc_grid()
+    e, omega, k = (np.asarray(a, float) for a in (e, omega, k))
+    nb = n_batches if phases is None else 1
+    na, nn = -(-n_alt // nb), -(-n_null // nb)
+    if phases is None:
+        ph = rng.random((nb, n_epochs))
+    else:
+        ph = np.asarray(phases, float)[None, :]
+        n_epochs = ph.shape[1]
+    ia = _draw_truth(e, omega, k, weights, nb * na, rng).reshape(nb, na)
+    i0 = _draw_truth(e, omega, k, weights, nb * nn, rng).reshape(nb, nn)
+    noise_a = sigma * rng.standard_normal((nb, na, n_epochs))
+    noise_0 = sigma * rng.standard_normal((nb, nn, n_epochs))
+    y_alt = k[ia][..., None] * rv_shape(ph[:, None, :], e[ia][..., None], omega[ia][..., None]) + noise_a
+    y_null = k[i0][..., None] * circular_shape(ph)[:, None, :] + noise_0
+    templ = grid.templates(ph)                                              # (nb, G, N)
+    # Data in units of sigma, so that Delta chi^2 is in its usual units.
+    d_alt, _ = lrt_statistic(y_alt / sigma, ph, grid, ecc_templates=templ)
+    d_null, _ = lrt_statistic(y_null / sigma, ph, grid, ecc_templates=templ)
+    return {"d_alt": d_alt.ravel()[:n_alt], "d_null": d_null.ravel()[:n_null]}
+
+
+def power_at(e, omega, k, sigma, n_epochs, fap=0.01, **kw):
+    """Power of the LRT at ``n_epochs`` and false-alarm probability ``fap`` (simulated).
+
+    Returns ``(power, threshold)``: the fraction of posterior-drawn data sets whose Delta chi^2
+    exceeds the (1 - fap) quantile of the simulated circular-null distribution.
+    """
+    sim = simulate_lrt(e, omega, k, sigma, n_epochs, **kw)
+    thr = float(np.quantile(sim["d_null"], 1.0 - fap))
+    return float(np.mean(sim["d_alt"] > thr)), thr
+
+
+def epochs_to_confirm(e, omega, k, sigma, *, fap=0.01, power=0.8, ladder=N_LADDER, start=None, **kw):
+    """Smallest N on ``ladder`` whose simulated LRT power reaches ``power`` at ``fap``.
+
+    Galloping search from ``start`` (for example the Fisher estimate; default the middle of the
+    ladder) followed by bisection; power rises with N and the same seed is used at every N, so the
+    simulated curves share their random numbers. Keyword arguments go to :func:`simulate_lrt`.
+
+    Returns a dict: ``n`` (int, or None when the largest N on the ladder falls short), ``power``
+    (at that N, or at the largest N), ``threshold`` (Delta chi^2 at the false-alarm level), and
+    ``evaluations`` (N -> simulated power).
+    """
+    cache: dict[int, tuple[float, float]] = {}
+
+    def ok(i):
+        n = ladder[i]
+        if n not in cache:
+            cache[n] = power_at(e, omega, k, sigma, n, fap, **kw)
+        return cache[n][0] >= power
+
+    top = len(ladder) - 1
+    i0 = top // 2 if start is None else int(np.clip(np.searchsorted(ladder, start), 0, top))
+    if ok(i0):
+        hi, step, lo = i0, 1, -1
+        while hi - step >= 0 and ok(hi - step):
+            hi, step = hi - step, step * 2
+        lo = max(hi - step, -1)
+    else:
+        lo, step, hi = i0, 1, None
+        while lo < top:
+            cand = min(lo + step, top)
+            if ok(cand):
+                hi = cand
+                break
+            lo, step = cand, step * 2
+        if hi is None:
+            p, thr = cache[ladder[top]]
+            return {"n": None, "power": p, "threshold": thr,
+                    "evaluations": {n: v[0] for n, v in sorted(cache.items())}}
+    while hi - lo > 1:
+        mid = (lo + hi) // 2
+        if ok(mid):
+            hi = mid
+        else:
+            lo = mid
+    p, thr = cache[ladder[hi]]
+    return {"n": int(ladder[hi]), "power": p, "threshold": thr,
+            "evaluations": {n: v[0] for n, v in sorted(cache.items())}}
+
+
+def epochs_to_detect_k_simple(k, sigma, q=5.0):
+    """N = 2 (q sigma / K)^2: epochs for a q-sigma amplitude with phases spread over the orbit
+    (sigma_K = sigma sqrt(2/N); derived, common practice)."""
+    return 2.0 * (q * np.asarray(sigma, float) / np.asarray(k, float)) ** 2
+
+
+def _smallest_n(power_fn, target, n_min, n_max):
+    """Smallest integer N in [n_min, n_max] with power_fn(N) >= target (monotone), else None."""
+    if power_fn(n_max) < target:
+        return None
+    lo, hi = n_min - 1, n_max
+    while hi - lo > 1:
+        mid = (lo + hi) // 2
+        if power_fn(mid) >= target:
+            hi = mid
+        else:
+            lo = mid
+    return hi
+
+
+def epochs_to_detect_k(k, sigma, weights=None, fap=0.01, power=0.8, n_min=3, n_max=10000):
+    """Epochs to detect the circular-orbit signal of amplitude K (analytic, averaged over K).
+
+    With P and T0 known the amplitude test has one degree of freedom; for phases spread uniformly
+    the per-epoch non-centrality is K^2 / (2 sigma^2) (mean of sin^2 is 1/2). Power at N epochs is
+    the posterior average of P[chi'^2_1(N K^2 / 2 sigma^2) > chi^2_{1, 1-fap}] (non-central chi^2,
+    scipy.stats.ncx2). Returns the smallest N >= n_min reaching ``power``, or None.
+    """
+    k = np.atleast_1d(np.asarray(k, float))
+    w = np.ones(k.size) / k.size if weights is None else np.asarray(weights, float) / np.sum(weights)
+    thr = stats.chi2.isf(fap, 1)
+    lam1 = k * k / (2.0 * sigma * sigma)
+    return _smallest_n(lambda n: float(np.sum(w * stats.ncx2.sf(thr, 1, n * lam1))), power, n_min, n_max)
+
+
+def fisher_noncentrality(e, omega, k, sigma, n_phase: int = 256, step: float = 1e-4):
+    """Per-epoch Fisher non-centrality of the eccentricity test, per posterior sample.
+
+    Parameters theta = (gamma, K, h = e cos omega, q = e sin omega); the Fisher matrix per epoch is
+    the phase average of grad m grad m^T / sigma^2 (uniform phases). The (h, q) block after
+    marginalising gamma and K (Schur complement) gives lambda_1 = (h, q) F_s (h, q)^T, the expected
+    Delta chi^2 per epoch of the linearised test of h = q = 0.
+    """
+    e = np.atleast_1d(np.asarray(e, float))
+    om = np.atleast_1d(np.asarray(omega, float))
+    k = np.atleast_1d(np.asarray(k, float))
+    ph = (np.arange(n_phase) + 0.5) / n_phase
+    h, q = e * np.cos(om), e * np.sin(om)
+
+    def shape(hh, qq):
+        return rv_shape(ph[None, :], np.hypot(hh, qq)[:, None], np.arctan2(qq, hh)[:, None])
+
+    s0 = shape(h, q)
+    dh = (shape(h + step, q) - shape(h - step, q)) / (2 * step)
+    dq = (shape(h, q + step) - shape(h, q - step)) / (2 * step)
+    grads = np.stack([np.ones_like(s0), s0, k[:, None] * dh, k[:, None] * dq], axis=1)  # (S, 4, P)
+    fis = np.einsum("sip,sjp->sij", grads, grads) / (n_phase * sigma * sigma)
+    a, b, c = fis[:, 2:, 2:], fis[:, 2:, :2], fis[:, :2, :2]
+    schur = a - b @ np.linalg.solve(c, np.swapaxes(b, 1, 2))
+    theta = np.stack([h, q], axis=1)
+    return np.einsum("si,sij,sj->s", theta, schur, theta)
+
+
+def fisher_epochs_to_confirm(e, omega, k, sigma, weights=None, fap=0.01, power=0.8, n_min=5,
+                             n_max=10000, max_samples=2000, seed=0):
+    """Fast Fisher-matrix estimate of the epochs to confirm e > 0.
+
+    Power at N is the posterior average of P[chi'^2_2(N lambda_1) > chi^2_{2, 1-fap}] with
+    lambda_1 from :func:`fisher_noncentrality` (asymptotic, Wilks 1938; no look-elsewhere
+    correction for the (e, omega) search, so it is optimistic when K/sigma is small).
+    Returns the smallest N or None.
+    """
+    e = np.atleast_1d(np.asarray(e, float))
+    if e.size > max_samples:
+        rng = np.random.default_rng(seed)
+        idx = _draw_truth(e, omega, k, weights, max_samples, rng)
+        e, omega, k, w = e[idx], np.asarray(omega)[idx], np.asarray(k)[idx], None
+    else:
+        w = weights
+    lam = fisher_noncentrality(e, omega, k, sigma)
+    w = np.ones(e.size) / e.size if w is None else np.asarray(w, float) / np.sum(w)
+    thr = stats.chi2.isf(fap, 2)
+    return _smallest_n(lambda n: float(np.sum(w * stats.ncx2.sf(thr, 2, n * lam))), power, n_min, n_max)
+
+
+def informative_phases(e, omega, k, weights=None, n_phase: int = 200, n_best: int = 4,
+                       max_samples: int = 2000, seed=0):
+    """Orbital phases where eccentric and circular predictions differ most across the posterior.
+
+    For each sample the eccentric curve K s(phase) is compared with its best circular
+    approximation (least-squares projection onto {1, circular curve} over the orbit); the
+    predictive spread is the weighted RMS of that difference over the posterior. Returns
+    ``(phases, spread_ms, best)`` where ``best`` lists up to ``n_best`` local maxima of the
+    spread as dicts ``{"phase": ..., "spread_ms": ...}``, largest first; phase 0 = mid-transit,
+    0.5 = half a period later.
+    """
+    e = np.atleast_1d(np.asarray(e, float))
+    omega, k = np.atleast_1d(np.asarray(omega, float)), np.atleast_1d(np.asarray(k, float))
+    w = weights
+    if e.size > max_samples:
+        idx = _draw_truth(e, omega, k, weights, max_samples, np.random.default_rng(seed))
+        e, omega, k, w = e[idx], omega[idx], k[idx], None
+    w = np.ones(e.size) / e.size if w is None else np.asarray(w, float) / np.sum(w)
+    ph = np.arange(n_phase) / n_phase
+    s = rv_shape(ph[None, :], e[:, None], omega[:, None])                   # (S, P)
+    c = circular_shape(ph)
+    sp = s - s.mean(axis=1, keepdims=True)
+    cp = c - c.mean()
+    coef = sp @ cp / (cp @ cp)
+    resid = k[:, None] * (sp - coef[:, None] * cp[None, :])
+    spread = np.sqrt(w @ (resid * resid))
+    left, right = np.roll(spread, 1), np.roll(spread, -1)
+    peaks = np.flatnonzero((spread >= left) & (spread > right))
+    peaks = peaks[np.argsort(spread[peaks])[::-1]][:n_best]
+    best = [{"phase": float(ph[i]), "spread_ms": float(spread[i])} for i in peaks]
+    return ph, spread, best
