@@ -257,8 +257,9 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses) -> 
         route = "durations"
         t23 = _obs(t, "t23_h", warnings, HOURS, required=False)
         bobs = _obs(t, "b", warnings, required=False) if t23 is None else None
+        proxy = _ln_summary(routes["durations"][0]) if "durations" in routes else None
         obs = TransitObservables("durations", period, t0, k, t14=_obs(t, "t14_h", warnings, HOURS),
-                                 t23=t23, b=bobs, dilution_known=1 / (1 - contam))
+                                 t23=t23, b=bobs, ln_rho_circ=proxy, dilution_known=1 / (1 - contam))
     else:
         route = "density"
         best = min((r for r in routes), key=lambda r: _ln_summary(routes[r][0]).hi)

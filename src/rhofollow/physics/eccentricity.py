@@ -33,7 +33,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .priors import EccPrior
-from .sampling import adaptive_importance_sample, split_normal_ppf, split_normal_logpdf, ImportanceResult
+from .sampling import (adaptive_importance_sample, split_normal_ppf, split_normal_logpdf,
+                       ImportanceResult)
 from .transit import ars_from_rho, eccentric_durations, g_factor, inclination_from_b
 
 __all__ = ["Obs", "TransitObservables", "StarPool", "HYPOTHESES", "run_hypothesis",
@@ -58,13 +59,22 @@ class Obs:
     def logpdf(self, x):
         return split_normal_logpdf(x, self.value, self.lo, self.hi)
 
+    def draw(self, rng, m):
+        """m random draws (untruncated); symmetric errors take the fast normal path."""
+        if self.lo <= 0 and self.hi <= 0:
+            return np.full(m, self.value)
+        if self.lo == self.hi:
+            return self.value + self.lo * rng.standard_normal(m)
+        return self.ppf(rng.random(m))
+
 
 @dataclass(frozen=True)
 class TransitObservables:
     """What the transit fit measured (days for times and durations).
 
     ``route`` is "durations" (needs t14) or "density" (needs ln_rho_circ: the split-normal description
-    of log rho_circ in ln(g/cm^3)). ``k`` is the observed (possibly diluted) radius ratio.
+    of log rho_circ in ln(g/cm^3)). With the durations route, ``ln_rho_circ`` (optional) only shapes
+    the sampler's first proposal; the likelihood uses the durations. ``k`` is the observed (possibly diluted) radius ratio.
     ``dilution_known`` is D_known = 1/(1 - contam_frac) >= 1.
     """
 
@@ -133,6 +143,48 @@ def _log_like_transit(obs: TransitObservables, rho_host, period, k_true, b, e, w
     return obs.ln_rho_circ.logpdf(ln_model)
 
 
+def _make_proxy(hyp, dims, obs, host, setup):
+    """Cheap stand-in for the likelihood that shapes the sampler's first proposal.
+
+    Compares log(rho_host g^3 D^(-3/4)) with the summary of the observed circular density, widened by
+    1.5x + 0.05 (natural-log units) for safety; b is left free.
+    """
+    col = {name: i for i, name in enumerate(dims)}
+    spread0 = 0.5 * (obs.ln_rho_circ.lo + obs.ln_rho_circ.hi)
+
+    def proxy(u):
+        m = u.shape[0]
+        e = np.zeros(m)
+        w = np.full(m, np.pi / 2)
+        log_prior = np.zeros(m)
+        if "e" in col:
+            e = setup.prior.ppf(u[:, col["e"]])
+            uw = u[:, col["w"]]
+            w = setup.omega_measured.ppf(uw) if setup.omega_measured is not None else 2 * np.pi * uw
+            if setup.transit_prob:
+                log_prior = np.log((1 + e * np.sin(w)) / (1 - e * e))
+        spread = spread0
+        if "rho" in col:
+            ln_rho = np.log(host.take(u[:, col["rho"]])[0])
+        else:
+            ln_rho = np.log(np.median(host.rho))
+            spread = np.hypot(spread, np.std(np.log(host.rho)))
+        spread = 1.5 * spread + 0.05
+        dil = np.full(m, obs.dilution_known)
+        if "c" in col:
+            dil = dil / (1 - BLEND_CONTAM_MAX * u[:, col["c"]])
+        if hyp == "other_host":
+            if "f" in col:
+                lo, hi = OTHER_HOST_FLUX_RANGE
+                dil = 1.0 / (lo + (hi - lo) * u[:, col["f"]])
+            else:
+                dil = np.full(m, 1.0 / setup.companion_flux)
+        ln_model = ln_rho + 3 * np.log(g_factor(e, w)) - 0.75 * np.log(dil)
+        return -0.5 * ((ln_model - obs.ln_rho_circ.value) / spread) ** 2 + log_prior
+
+    return proxy
+
+
 def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: HypothesisSetup,
                    n: int, rng: np.random.Generator, ess_floor: float = 2000.0
                    ) -> ImportanceResult:
@@ -164,9 +216,9 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
             rho, mstar, rstar, teff = host.take(u[:, col["rho"]])
         else:
             rho, mstar, rstar, teff = host.take(rng_.random(m))
-        period = obs.period.ppf(rng_.random(m)) if obs.period.lo > 0 else np.full(m, obs.period.value)
-        t0 = obs.t0.ppf(rng_.random(m)) if obs.t0.lo > 0 else np.full(m, obs.t0.value)
-        k_obs = np.abs(obs.k.ppf(rng_.random(m)))
+        period = obs.period.draw(rng_, m)
+        t0 = obs.t0.draw(rng_, m)
+        k_obs = np.abs(obs.k.draw(rng_, m))
         log_prior = np.zeros(m)
         if hyp == "eccentric":
             e = setup.prior.ppf(u[:, col["e"]])
@@ -203,7 +255,9 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
                    rho_star=rho, mstar=mstar, rstar=rstar, a_rs=a_rs, teff=teff, dilution=dilution)
         return np.where(np.isfinite(ll), ll, -np.inf), aux
 
-    res = adaptive_importance_sample(model, d, n, rng, ess_floor=ess_floor)
+    proxy = _make_proxy(hyp, dims, obs, host, setup) if obs.ln_rho_circ is not None else None
+    res = adaptive_importance_sample(model, d, n, rng, ess_floor=ess_floor, proxy=proxy,
+                                     pool=(hyp == "eccentric"))
     aux = res.aux
     if not dur:
         # b is not constrained by a density-only route: draw it from its measurement when given, else
