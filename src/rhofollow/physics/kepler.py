@@ -1,0 +1,271 @@
+"""Kepler's equation and the anomalies of an elliptic orbit (vectorised, unit-free).
+
+Angles are in radians, times in days. Eccentricities are in [0, 0.999]. The argument of
+periastron ``omega`` follows the radial-velocity convention of DESIGN.md: the transit (inferior
+conjunction) happens at true anomaly f = pi/2 - omega and the occultation at f = -pi/2 - omega.
+
+The solver follows Markley (1995, Celest. Mech. Dyn. Astron. 63, 101): a cubic starter built
+from a Pade approximation of sin E, then one fifth-order correction. Its result is checked on the
+residual |E - e sin E - M|; the few elements above the tolerance (if any) get safeguarded Newton
+steps, and :class:`KeplerConvergenceError` is raised if any still fail: never a silent NaN.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = [
+    "KeplerConvergenceError",
+    "E_MAX",
+    "RESIDUAL_TOL",
+    "solve_kepler",
+    "true_anomaly",
+    "eccentric_to_mean",
+    "eccentric_to_true",
+    "true_to_eccentric",
+    "true_to_mean",
+    "mean_anomaly_at_transit",
+    "mean_anomaly_at_occultation",
+    "time_of_true_anomaly",
+    "time_of_periastron",
+    "transit_to_occultation_time",
+    "occultation_offset_first_order",
+]
+
+#: Largest eccentricity accepted by the solver.
+E_MAX = 0.999
+#: Required accuracy of the solution: |E - e sin E - M| <= RESIDUAL_TOL (radians).
+RESIDUAL_TOL = 1e-12
+
+_TWO_PI = 2.0 * np.pi
+_CHUNK = 1 << 15  # elements per block: the temporaries of one block stay in the CPU cache
+
+
+class KeplerConvergenceError(ArithmeticError):
+    """Raised when Kepler's equation could not be solved to :data:`RESIDUAL_TOL`."""
+
+
+def _markley_block(m, e):
+    """Solve E - e sin E = m for m in [0, pi] (one block of float64 arrays).
+
+    Returns ``(E, res)``: the eccentric anomaly and its residual E - e sin E - m. The cubic
+    starter is evaluated in float32 (it only needs ~1e-4 accuracy before the fifth-order
+    correction); the correction and the residual are float64. The residual uses the sine and
+    cosine of the starter already computed and Taylor series of the (small) correction, whose
+    truncation error is below 1e-17 for |correction| <= 0.01; larger corrections are flagged by
+    an infinite residual so that the caller re-checks them with a direct sine.
+    """
+    pi = np.float32(np.pi)
+    m32 = m.astype(np.float32)
+    e32 = e.astype(np.float32)
+    one = np.float32(1.0)
+    # Markley (1995) eqs. (20)-(21): alpha from the Pade approximant; d, q, r of the cubic.
+    alpha = (np.float32(3.0 * np.pi**2) + np.float32(1.6 * np.pi) * (pi - m32) / (one + e32))
+    alpha *= np.float32(1.0 / (np.pi**2 - 6.0))
+    ome = one - e32
+    d = np.float32(3.0) * ome + alpha * e32
+    ad = alpha * d
+    m2 = m32 * m32
+    q = np.float32(2.0) * ad * ome - m2
+    r = (np.float32(3.0) * ad * (d - ome)) * m32 + m2 * m32
+    w = np.abs(r) + np.sqrt(np.maximum(q * q * q + r * r, np.float32(0.0)))
+    w = np.exp(np.log(np.maximum(w, np.float32(1e-37))) * np.float32(2.0 / 3.0))
+    e1 = ((np.float32(2.0) * r * w / (w * w + w * q + q * q) + m32) / d).astype(np.float64)
+    # One fifth-order correction, Markley (1995) eqs. (27)-(29).
+    es = e * np.sin(e1)
+    ec = e * np.cos(e1)
+    f0 = e1 - es - m
+    f1 = 1.0 - ec
+    d3 = -f0 / (f1 - 0.5 * f0 * es / f1)
+    d4 = -f0 / (f1 + 0.5 * d3 * es + d3 * d3 * ec / 6.0)
+    d42 = d4 * d4
+    d5 = -f0 / (f1 + 0.5 * d4 * es + d42 * (ec / 6.0 - d4 * es / 24.0))
+    big_e = e1 + d5
+    dd = big_e - e1  # the correction actually applied (exact in floating point)
+    d2 = dd * dd
+    sin_d = dd * (1.0 - d2 / 6.0 * (1.0 - d2 / 20.0 * (1.0 - d2 / 42.0)))
+    cos_d = 1.0 - d2 / 2.0 * (1.0 - d2 / 12.0 * (1.0 - d2 / 30.0))
+    # E - e sin E - m with sin(e1 + dd) = sin e1 cos dd + cos e1 sin dd.
+    res = (e1 - m) + dd - (es * cos_d + ec * sin_d)
+    res[np.abs(dd) > 0.01] = np.inf
+    return big_e, res
+
+
+def _polish(m, e, big_e, max_iter=8):
+    """Safeguarded Newton steps on the elements that miss the tolerance (m in [0, pi])."""
+    lo = np.zeros_like(m)
+    hi = np.full_like(m, np.pi)
+    for _ in range(max_iter):
+        res = big_e - e * np.sin(big_e) - m
+        bad = np.abs(res) > RESIDUAL_TOL
+        if not bad.any():
+            return big_e, bad
+        # The residual is increasing in E: keep a bracket and bisect when Newton leaves it.
+        hi = np.where(res > 0, np.minimum(hi, big_e), hi)
+        lo = np.where(res < 0, np.maximum(lo, big_e), lo)
+        step = big_e - res / (1.0 - e * np.cos(big_e))
+        outside = (step <= lo) | (step >= hi)
+        big_e = np.where(bad, np.where(outside, 0.5 * (lo + hi), step), big_e)
+    res = big_e - e * np.sin(big_e) - m
+    return big_e, np.abs(res) > RESIDUAL_TOL
+
+
+def solve_kepler(M, e, *, check: bool = True) -> np.ndarray:
+    """Eccentric anomaly E solving Kepler's equation M = E - e sin E.
+
+    Parameters
+    ----------
+    M : float or ndarray
+        Mean anomaly, radians (any real value; the result keeps the same number of turns).
+    e : float or ndarray
+        Eccentricity in [0, 0.999], broadcast against ``M``.
+    check : bool
+        Verify |E - e sin E - M| <= 1e-12 and repair or raise (default). Only turn this off in
+        benchmarks of the bare kernel.
+
+    Returns
+    -------
+    ndarray (or float for scalar input)
+        Eccentric anomaly in radians, with |E - e sin E - M| <= 1e-12.
+
+    Raises
+    ------
+    ValueError
+        If an eccentricity is outside [0, 0.999] or a value is not finite.
+    KeplerConvergenceError
+        If some element cannot be brought to the tolerance (not expected for valid input).
+    """
+    M_arr, e_arr = np.broadcast_arrays(np.asarray(M, dtype=float), np.asarray(e, dtype=float))
+    scalar = M_arr.ndim == 0
+    M_flat = np.ascontiguousarray(M_arr).ravel()
+    e_flat = np.ascontiguousarray(e_arr).ravel()
+    if not (np.all(np.isfinite(M_flat)) and np.all(np.isfinite(e_flat))):
+        raise ValueError("solve_kepler: mean anomaly and eccentricity must be finite")
+    if e_flat.size and (e_flat.min() < 0.0 or e_flat.max() > E_MAX):
+        raise ValueError(f"solve_kepler: eccentricity must lie in [0, {E_MAX}]")
+    out = np.empty_like(M_flat)
+    for s in range(0, M_flat.size, _CHUNK):
+        m = M_flat[s:s + _CHUNK]
+        ee = e_flat[s:s + _CHUNK]
+        # Reduce to [-pi, pi), then use the odd symmetry E(-M) = -E(M) to work on [0, pi].
+        turns = np.floor((m + np.pi) / _TWO_PI)
+        mr = m - turns * _TWO_PI
+        ma = np.abs(mr)
+        np.minimum(ma, np.pi, out=ma)
+        big_e, res = _markley_block(ma, ee)
+        if check:
+            bad = ~(np.abs(res) <= RESIDUAL_TOL)
+            if bad.any():
+                fixed, still = _polish(ma[bad], ee[bad], big_e[bad])
+                if still.any():
+                    i = np.flatnonzero(bad)[np.flatnonzero(still)[0]]
+                    raise KeplerConvergenceError(
+                        f"Kepler's equation did not converge for M={ma[i]!r}, e={ee[i]!r}")
+                big_e[bad] = fixed
+        out[s:s + _CHUNK] = np.copysign(big_e, mr) + turns * _TWO_PI
+    out = out.reshape(M_arr.shape)
+    return float(out) if scalar else out
+
+
+def eccentric_to_true(E, e):
+    """True anomaly f (radians, same turn as E) from eccentric anomaly E and eccentricity e.
+
+    tan(f/2) = sqrt((1+e)/(1-e)) tan(E/2), evaluated with atan2 so that every quadrant is right.
+    """
+    E = np.asarray(E, dtype=float)
+    e = np.asarray(e, dtype=float)
+    half = 0.5 * E
+    f = 2.0 * np.arctan2(np.sqrt(1.0 + e) * np.sin(half), np.sqrt(1.0 - e) * np.cos(half))
+    # atan2 returns (-pi, pi]; restore the turn of E so that f and E stay within pi of each other.
+    return f + _TWO_PI * np.round((E - f) / _TWO_PI)
+
+
+def true_to_eccentric(f, e):
+    """Eccentric anomaly E (radians, same turn as f) from true anomaly f and eccentricity e."""
+    f = np.asarray(f, dtype=float)
+    e = np.asarray(e, dtype=float)
+    half = 0.5 * f
+    E = 2.0 * np.arctan2(np.sqrt(1.0 - e) * np.sin(half), np.sqrt(1.0 + e) * np.cos(half))
+    return E + _TWO_PI * np.round((f - E) / _TWO_PI)
+
+
+def eccentric_to_mean(E, e):
+    """Mean anomaly M = E - e sin E (radians)."""
+    E = np.asarray(E, dtype=float)
+    return E - np.asarray(e, dtype=float) * np.sin(E)
+
+
+def true_to_mean(f, e):
+    """Mean anomaly (radians, same turn as f) at true anomaly f."""
+    return eccentric_to_mean(true_to_eccentric(f, e), e)
+
+
+def true_anomaly(M, e):
+    """True anomaly f (radians) at mean anomaly M: solves Kepler's equation, then converts."""
+    return eccentric_to_true(solve_kepler(M, e), e)
+
+
+def mean_anomaly_at_transit(e, omega):
+    """Mean anomaly (radians, in (-pi, pi]) at mid-transit, f = pi/2 - omega (RV convention)."""
+    f = 0.5 * np.pi - np.asarray(omega, dtype=float)
+    f = np.angle(np.exp(1j * f))
+    return true_to_mean(f, e)
+
+
+def mean_anomaly_at_occultation(e, omega):
+    """Mean anomaly (radians, in (-pi, pi]) at mid-occultation, f = -pi/2 - omega."""
+    f = -0.5 * np.pi - np.asarray(omega, dtype=float)
+    f = np.angle(np.exp(1j * f))
+    return true_to_mean(f, e)
+
+
+def time_of_periastron(t_transit, period, e, omega):
+    """Time of periastron passage (days) preceding or at the transit at ``t_transit``.
+
+    Parameters
+    ----------
+    t_transit : mid-transit time, days (e.g. BJD_TDB)
+    period : orbital period, days
+    e, omega : eccentricity and argument of periastron (radians, RV convention)
+    """
+    m_tra = np.mod(mean_anomaly_at_transit(e, omega), _TWO_PI)
+    return np.asarray(t_transit, dtype=float) - np.asarray(period, dtype=float) * m_tra / _TWO_PI
+
+
+def time_of_true_anomaly(f, t_transit, period, e, omega):
+    """First time at or after ``t_transit`` (days) when the true anomaly equals ``f`` (radians).
+
+    Useful for conjunctions, nodes and periastron of an orbit pinned by its transit time.
+    """
+    m_f = true_to_mean(np.angle(np.exp(1j * np.asarray(f, dtype=float))), e)
+    m_tra = mean_anomaly_at_transit(e, omega)
+    dm = np.mod(m_f - m_tra, _TWO_PI)
+    return np.asarray(t_transit, dtype=float) + np.asarray(period, dtype=float) * dm / _TWO_PI
+
+
+def transit_to_occultation_time(period, e, omega):
+    """Exact time from mid-transit to the next mid-occultation (conjunctions), days, in [0, P).
+
+    The transit is at f = pi/2 - omega and the occultation at f = -pi/2 - omega; both are turned
+    into mean anomaly through the eccentric anomaly (Winn 2010, arXiv:1001.2010, sec. 2; standard
+    Kepler algebra), so no small-e expansion is involved. Light travel time is not included (see
+    :func:`rhofollow.physics.occultation.light_travel_delay`).
+
+    Parameters
+    ----------
+    period : float or ndarray, days
+    e : float or ndarray, eccentricity in [0, 1)
+    omega : float or ndarray, radians (RV convention)
+    """
+    dm = mean_anomaly_at_occultation(e, omega) - mean_anomaly_at_transit(e, omega)
+    dt = np.asarray(period, dtype=float) * np.mod(dm, _TWO_PI) / _TWO_PI
+    return dt
+
+
+def occultation_offset_first_order(period, e, omega, inc=0.5 * np.pi):
+    """First-order (in e) transit-to-occultation time, days: a cross-check only.
+
+    Delta t = P/2 + (P/pi) e cos(omega) (1 + csc^2 i) (Winn 2010, arXiv:1001.2010, eq. 33 -- value
+    from memory; Sterne 1940). Accurate only for small e.
+    """
+    period = np.asarray(period, dtype=float)
+    return 0.5 * period + period / np.pi * e * np.cos(omega) * (1.0 + 1.0 / np.sin(inc) ** 2)
