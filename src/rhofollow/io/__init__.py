@@ -1,0 +1,4 @@
+"""Input and output: catalogue reading and validation, ledger, exports, plots."""
+from .catalogue import CatalogueError, read_catalogue
+
+__all__ = ["CatalogueError", "read_catalogue"]

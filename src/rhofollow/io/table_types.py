@@ -88,7 +88,11 @@ class CatalogueResult:
 
     @property
     def n_failed(self) -> int:
-        return len({i.row for i in self.errors})
+        return len({i.row for i in self.errors if i.row > 0})  # row 0 = file/column level
+
+    @property
+    def warnings(self) -> list[RowIssue]:
+        return [i for i in self.issues if i.severity == "warning"]
 
     @property
     def ok(self) -> bool:

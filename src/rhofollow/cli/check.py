@@ -1,0 +1,130 @@
+"""``rhofollow check``: validate a catalogue (and optionally a site file) without computing anything.
+
+Exit status: 0 when every row passed, 1 when any row (or column) failed or the site file has
+problems, 2 when a file cannot be used at all.
+"""
+from __future__ import annotations
+
+from .common import UserError, add_json_option, console, err_console, write_json
+
+__all__ = ["register", "run", "report_dict"]
+
+
+def register(subparsers) -> None:
+    p = subparsers.add_parser(
+        "check",
+        help="validate a catalogue and/or a site file and list every problem",
+        description="Read a candidate catalogue (CSV, ECSV or VOTable), list every problem by row, "
+        "name and column, and compute nothing. Exit status 0: all rows valid; 1: some rows "
+        "failed; 2: a file could not be used.",
+    )
+    p.add_argument("catalog", nargs="?", metavar="CATALOG", help="catalogue file to validate")
+    p.add_argument("--site", metavar="FILE", help="also validate a site configuration (TOML)")
+    p.add_argument("--require-coords", action="store_true",
+                   help="treat missing ra_deg/dec_deg as errors (needed for planning)")
+    add_json_option(p)
+    p.set_defaults(func=run)
+
+
+def report_dict(result) -> dict:
+    """The machine-readable validation report of a :class:`CatalogueResult`."""
+    by_row: dict[int, dict] = {}
+    issues = []
+    for i in result.issues:
+        issues.append({"row": i.row, "name": i.name, "column": i.column, "reason": i.reason,
+                       "severity": i.severity})
+        if i.row > 0:
+            rec = by_row.setdefault(i.row, {"errors": [], "warnings": [], "name": i.name})
+            text = f"column '{i.column}': {i.reason}" if i.column else i.reason
+            rec["errors" if i.severity == "error" else "warnings"].append(text)
+    good = {t.row: t for t in result.targets}
+    targets = []
+    for row in range(1, result.n_rows + 1):
+        rec = by_row.get(row, {"errors": [], "warnings": [], "name": ""})
+        t = good.get(row)
+        name = t.name if t is not None else rec["name"]
+        targets.append({"row": row, "name": name, "ok": t is not None,
+                        "errors": rec["errors"], "warnings": rec["warnings"]})
+    return {
+        "source": result.source,
+        "ok": result.ok,
+        "n_rows": result.n_rows,
+        "n_failed": result.n_failed,
+        "n_warnings": len(result.warnings),
+        "issues": issues,
+        "targets": targets,
+    }
+
+
+def _render(result) -> None:
+    from rich.table import Table
+    from rich.text import Text
+
+    out = console()
+    if result.issues:
+        tab = Table(title=f"Problems in {result.source}", title_justify="left")
+        tab.add_column("row", justify="right")
+        tab.add_column("name")
+        tab.add_column("column")
+        tab.add_column("kind")
+        tab.add_column("reason", overflow="fold")
+        for i in sorted(result.issues, key=lambda i: (i.row, i.severity != "error")):
+            kind = Text("error", style="bold red") if i.severity == "error" \
+                else Text("warning", style="yellow")
+            tab.add_row(str(i.row) if i.row else "file", Text(i.name), Text(i.column), kind,
+                        Text(i.reason))
+        out.print(tab)
+    n_warn = len(result.warnings)
+    style = "green" if result.ok else "bold red"
+    out.print(Text(f"{result.source}: {result.n_rows} rows read, {result.n_failed} failed, "
+                   f"{n_warn} warning{'s' if n_warn != 1 else ''}", style=style), soft_wrap=True)
+
+
+def _check_site(path: str) -> tuple[int, dict]:
+    try:
+        from rhofollow.planning.site import check_site
+    except ImportError:
+        err_console().print(f"[bold red]error:[/] cannot check site file {path}: site support "
+                            "is not available in this installation", highlight=False)
+        return 2, {"path": path, "ok": False, "problems": ["site support not available"]}
+    try:
+        problems = list(check_site(path))
+    except (OSError, ValueError) as exc:
+        err_console().print(f"[bold red]error:[/] site file {path}: {exc}", highlight=False)
+        return 2, {"path": path, "ok": False, "problems": [str(exc)]}
+    from rich.text import Text
+
+    out = console()
+    for prob in problems:
+        out.print(Text(f"{path}: {prob}", style="red"))
+    out.print(Text(f"{path}: site file "
+                   + ("is valid" if not problems else f"has {len(problems)} problem(s)"),
+                   style="green" if not problems else "bold red"))
+    return (1 if problems else 0), {"path": path, "ok": not problems, "problems": problems}
+
+
+def run(args) -> int:
+    from rhofollow.io.catalogue import CatalogueError, read_catalogue
+
+    if not args.catalog and not args.site:
+        raise UserError("give a catalogue file to check, or --site FILE, or both")
+    status = 0
+    payload: dict = {}
+    if args.catalog:
+        try:
+            result = read_catalogue(args.catalog, require_coords=args.require_coords)
+        except CatalogueError as exc:
+            err_console().print(f"[bold red]error:[/] {exc}", highlight=False)
+            payload["catalogue"] = {"source": str(args.catalog), "ok": False,
+                                    "file_error": str(exc)}
+            status = 2
+        else:
+            _render(result)
+            payload["catalogue"] = report_dict(result)
+            status = 0 if result.ok else 1
+    if args.site:
+        site_status, payload["site"] = _check_site(args.site)
+        status = max(status, site_status)
+    if args.json:
+        write_json(args.json, payload)
+    return status
