@@ -421,7 +421,7 @@ def _expected(row):
     return vals
 
 
-@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(st.lists(valid_rows(), min_size=1, max_size=4, unique_by=lambda r: r["name"].casefold()))
 def test_valid_rows_survive_csv_and_ecsv_round_trip(rows):
     header = list(dict.fromkeys(k for r in rows for k in r))
@@ -470,3 +470,76 @@ def test_garbage_cells_never_raise_only_issues(cells):
     for t in res.targets:
         assert all(math.isfinite(m.value) and m.err_lo >= 0 and m.err_hi >= 0
                    for m in t.values.values())
+
+
+# --------------------------------------------------------------------------- more formats and columns
+
+def test_ecsv_garbage_cell_is_a_row_error_not_a_file_error(tmp_path):
+    p = tmp_path / "g.ecsv"
+    p.write_text(
+        "# %ECSV 1.0\n# ---\n# datatype:\n# - {name: name, datatype: string}\n"
+        "# - {name: period, unit: h, datatype: float64}\n# - {name: t0_bjd, datatype: float64}\n"
+        "# - {name: a_rs, datatype: float64}\n# - {name: rho_star_cgs, datatype: float64}\n"
+        "# schema: astropy-2.0\nname period t0_bjd a_rs rho_star_cgs\n"
+        "A 72.0 2460000.5 10 1.4\nB abc 2460000.5 10 1.4\n")
+    res = read_catalogue(p)
+    assert [t.name for t in res.targets] == ["A"]
+    assert res.targets[0].values["period_d"].value == pytest.approx(3.0)
+    (e,) = only_errors(res, 2)
+    assert e.column == "period" and "'abc' is not a number" in e.reason
+
+
+def test_ecsv_time_column_gives_t0(tmp_path):
+    from astropy.time import Time
+    t = Table()
+    t["name"] = ["A"]
+    t["period_d"] = [3.0]
+    t["t0"] = Time([2460000.25], format="jd", scale="tdb")
+    t["a_rs"] = [10.0]
+    t["rho_star_cgs"] = [1.4]
+    p = tmp_path / "t.ecsv"
+    t.write(p, format="ascii.ecsv")
+    res = read_catalogue(p)
+    assert res.ok and res.targets[0].values["t0_bjd"].value == 2460000.25
+
+
+def test_logg_plain_dex_is_cgs(tmp_path):
+    t = Table()
+    t["name"] = ["A"]
+    t["period_d"] = [3.0]
+    t["t0_bjd"] = [2460000.5]
+    t["a_rs"] = [10.0]
+    t["logg"] = [4.4] * u.dex
+    t["logg_err"] = [0.1] * u.dex
+    t["rstar_rsun"] = [1.0]
+    p = tmp_path / "l.ecsv"
+    t.write(p, format="ascii.ecsv")
+    res = read_catalogue(p)
+    assert res.ok, [str(i) for i in res.issues]
+    m = res.targets[0].values["logg_cgs"]
+    assert (m.value, m.err) == (4.4, 0.1)
+
+
+def test_error_without_value_is_warned(tmp_path):
+    res = read_rows(tmp_path, dict(GOOD, b_err="0.1", b=""), dict(OTHER, mstar_msun_err="0.1"))
+    assert res.ok and len(res.targets) == 2
+    file_w = [i for i in res.issues if i.row == 0]
+    assert len(file_w) == 1 and file_w[0].column == "mstar_msun_err"
+    assert any("no value" in w for w in res.targets[0].warnings)
+
+
+def test_error_column_with_unconvertible_unit(tmp_path):
+    from astropy.table import MaskedColumn
+    t = Table()
+    t["name"] = ["A", "B"]
+    t["period_d"] = [3.0, 4.0]
+    t["period_d_err"] = MaskedColumn([0.1, 0.0], mask=[False, True], unit="kg")
+    t["t0_bjd"] = [2460000.5, 2460001.5]
+    t["a_rs"] = [10.0, 10.0]
+    t["rho_star_cgs"] = [1.4, 1.4]
+    p = tmp_path / "e.ecsv"
+    t.write(p, format="ascii.ecsv")
+    res = read_catalogue(p)
+    assert [x.name for x in res.targets] == ["B"]   # B has no error cell, so it is unaffected
+    assert [e.column for e in res.errors] == ["period_d_err", "period_d_err"]
+    assert res.errors[0].row == 0 and res.errors[1].row == 1

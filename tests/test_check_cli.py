@@ -157,3 +157,11 @@ def test_site_support_missing_exit_2(monkeypatch, capsys):
     monkeypatch.setitem(sys.modules, "rhofollow.planning.site", None)
     assert main(["check", "--site", "s.toml"]) == 2
     assert "not available" in capsys.readouterr().err
+
+
+def test_bundled_demo_catalogue_is_valid(capsys):
+    demo = EXAMPLES / "hts_candidates.csv"
+    if not demo.exists():
+        pytest.skip("demo catalogue not written yet")
+    assert main(["check", str(demo), "--require-coords"]) == 0
+    assert " 0 failed" in flat(capsys.readouterr().out)

@@ -209,8 +209,10 @@ def _read_astropy(path: Path, source: str, fmt: str) -> _RawTable:
         try:
             t = Table.read(path, format=fmt)
         except Exception as exc:  # noqa: BLE001 - any reader failure is a file-level problem
-            msg = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-            raise CatalogueError(source, f"cannot be read as {label} ({msg})") from None
+            t = _ecsv_as_text(path) if fmt == "ascii.ecsv" else None
+            if t is None:
+                msg = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+                raise CatalogueError(source, f"cannot be read as {label} ({msg})") from None
     notes = []
     for w in caught:
         if issubclass(w.category, u.UnitsWarning):
@@ -246,6 +248,26 @@ def _read_astropy(path: Path, source: str, fmt: str) -> _RawTable:
             cells.append(v)
         cols.append(_RawColumn(header, unit, cells))
     return _RawTable(cols, n, file_notes=notes)
+
+
+_ECSV_NUMERIC = re.compile(r"datatype: *(float\d*|int\d*|uint\d*)\b")
+
+
+def _ecsv_as_text(path: Path):
+    """Re-read an ECSV whose numeric cells do not all parse, with those columns as text.
+
+    The header keeps the units; each bad cell then becomes a row-level issue instead of sinking
+    the whole file. Returns None when the file still cannot be read.
+    """
+    from astropy.table import Table
+
+    try:
+        lines = path.read_text(encoding="utf-8").split("\n")
+        fixed = [_ECSV_NUMERIC.sub("datatype: string", ln) if ln.startswith("# - {") else ln
+                 for ln in lines]
+        return Table.read("\n".join(fixed), format="ascii.ecsv")
+    except Exception:  # noqa: BLE001 - the caller reports the original failure
+        return None
 
 
 # ---------------------------------------------------------------------------------------------
