@@ -21,9 +21,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .scheduler import Schedule, schedule
-from .tasks import ValueModel, VisGrid, jd_to_iso, occultation_tasks, rv_task
+from .tasks import ValueModel, VisGrid, ecc_evidence, jd_to_iso, occultation_tasks, rv_task
 
-__all__ = ["NightPlan", "plan_night", "science_entry", "CAUTION"]
+__all__ = ["NightPlan", "plan_night", "science_entry", "science_from_records", "night_visibility",
+           "bjd_minus_jd", "CAUTION"]
 
 #: The caution every plan carries.
 CAUTION = ("Plans are advisory: Sun avoidance, weather and wind limits, dome rules and the site's "
@@ -66,6 +67,14 @@ class NightPlan:
                 "cautions": list(self.cautions)}
 
 
+def _what(task_name: str, target: str) -> str:
+    """'HTS-1 occ E12 w2' -> 'occultation E12 w2', 'HTS-1 rv' -> 'RV visit'."""
+    rest = task_name[len(target):].strip() if task_name.startswith(target) else task_name
+    if rest.startswith("occ"):
+        return "occultation" + rest[3:]
+    return "RV visit" if rest == "rv" else rest
+
+
 def plan_night(science: list[dict], vis: VisGrid, *, site: str, night_start_jd: float,
                night_end_jd: float, overhead_h: float = 0.0, model: ValueModel = ValueModel(),
                method: str = "auto", time_limit: float | None = 60.0) -> NightPlan:
@@ -97,7 +106,7 @@ def plan_night(science: list[dict], vis: VisGrid, *, site: str, night_start_jd: 
         if occ:
             t, sk = occultation_tasks(dict(occ, name=name), s["evidence"], vis, model)
             tasks += t
-            skipped += [{"name": name, "reason": f"{k.name}: {k.reason}"} for k in sk]
+            skipped += [{"name": name, "reason": f"{_what(k.name, name)}: {k.reason}"} for k in sk]
         rv = s.get("rv")
         if rv and np.isfinite(s.get("period_d", np.nan)) and np.isfinite(s.get("t0_bjd", np.nan)):
             t, sk = rv_task(dict(rv, name=name), s["evidence"], vis, s["t0_bjd"], s["period_d"],
@@ -105,7 +114,7 @@ def plan_night(science: list[dict], vis: VisGrid, *, site: str, night_start_jd: 
             if t is not None:
                 tasks.append(t)
             else:
-                skipped.append({"name": name, "reason": f"{sk.name}: {sk.reason}"})
+                skipped.append({"name": name, "reason": f"{_what(sk.name, name)}: {sk.reason}"})
         if len(tasks) == n_before and not any(k["name"] == name for k in skipped):
             skipped.append({"name": name, "reason": "no occultation window or RV visit tonight"})
     horizon = (float(vis.hours(night_start_jd)), float(vis.hours(night_end_jd)))
@@ -115,8 +124,9 @@ def plan_night(science: list[dict], vis: VisGrid, *, site: str, night_start_jd: 
     chosen = {b.task for b in sched.blocks}
     for i, t in enumerate(tasks):
         if i not in chosen:
-            skipped.append({"name": t.meta.get("target", t.name),
-                            "reason": f"{t.name}: conflicts with higher-value blocks"})
+            target = t.meta.get("target", t.name)
+            skipped.append({"name": target,
+                            "reason": f"{_what(t.name, target)}: overlaps blocks of higher total value"})
     blocks = []
     t_ref = vis.t_jd[0]
     for b in sched.blocks:
@@ -133,3 +143,115 @@ def plan_night(science: list[dict], vis: VisGrid, *, site: str, night_start_jd: 
             rec["phase"] = round(b.meta["phase_of"](b.start), 4)
         blocks.append(rec)
     return NightPlan(site, night_start_jd, night_end_jd, blocks, skipped, sched, overhead_h)
+
+
+# ------------------------------------------------------------------------------------------
+# glue from the upstream records (assessment, occultation, RV) to science dicts and visibility
+
+
+def _radec(a) -> tuple[float, float]:
+    t = getattr(a, "target", None)
+    ra = t.value("ra_deg") if t is not None else np.nan
+    dec = t.value("dec_deg") if t is not None else np.nan
+    s = getattr(a, "samples", None)
+    if (not np.isfinite(ra) or not np.isfinite(dec)) and s is not None:
+        ra, dec = float(s.meta.get("ra_deg", np.nan)), float(s.meta.get("dec_deg", np.nan))
+    return float(ra), float(dec)
+
+
+def science_from_records(assessments, occ_records: list[dict] | None, rv_records: list[dict] | None,
+                         e_min: float = 0.1, n_done: dict | None = None) -> tuple[list[dict], list[dict]]:
+    """Science dicts (with ``ra_deg``, ``dec_deg``) for the targets that can be planned.
+
+    Parameters
+    ----------
+    assessments : objects with ``name, ok, errors, samples, target, record``
+        (:func:`rhofollow.assess.assess_catalogue`).
+    occ_records : list of dict or None
+        ``targets`` of :func:`rhofollow.eclipses.predict_occultations`.
+    rv_records : list of dict or None
+        Records of :func:`rhofollow.rvplan.plan_rv`.
+    e_min : float
+        Eccentricity threshold of the evidence ``E`` (the assessment's ``p_ecc_gt_0p1`` is used
+        when ``e_min`` is 0.1, else the samples).
+    n_done : dict or None
+        Target name -> RV visits already obtained.
+
+    Returns
+    -------
+    entries, skipped
+        ``skipped`` holds ``{"name", "reason"}`` for targets without samples or coordinates.
+    """
+    occ = {r["name"]: r for r in (occ_records or [])}
+    rvs = {r["name"]: r for r in (rv_records or [])}
+    entries, skipped = [], []
+    for a in assessments:
+        s = a.samples
+        if not a.ok or s is None:
+            why = "; ".join(a.errors) or "no posterior samples"
+            skipped.append({"name": a.name, "reason": f"not assessed: {why}"})
+            continue
+        ra, dec = _radec(a)
+        if not (np.isfinite(ra) and np.isfinite(dec)):
+            skipped.append({"name": a.name, "reason": "ra_deg/dec_deg missing: cannot be scheduled"})
+            continue
+        rec = getattr(a, "record", None) or {}
+        ev = rec.get("p_ecc_gt_0p1") if e_min == 0.1 else None
+        ev = float(ev) if ev is not None else ecc_evidence(s.e, s.weights, e_min)
+        o = occ.get(a.name)
+        o = o if o and o.get("ok", True) and o.get("events") else None
+        r = rvs.get(a.name)
+        r = r if r and r.get("ok", True) else None
+        w = s.weights
+        e = science_entry(a.name, evidence=ev, occultation=o, rv=r,
+                          t0_bjd=float(np.sum(w * s.t0)), period_d=float(np.sum(w * s.period)),
+                          n_done=(n_done or {}).get(a.name, 0))
+        e["ra_deg"], e["dec_deg"] = ra, dec
+        entries.append(e)
+    return entries, skipped
+
+
+def bjd_minus_jd(ra_deg, dec_deg, jd_utc: float, location) -> np.ndarray:
+    """BJD_TDB - JD_UTC (days) for targets at one UTC time seen from ``location``.
+
+    The barycentric light-travel correction (astropy ``Time.light_travel_time``) plus TDB - UTC.
+    Over one night it changes by under a second, so one value per target and night is used.
+    """
+    import astropy.units as u
+    from astropy.coordinates import SkyCoord
+    from astropy.time import Time
+
+    from .offline import astropy_quietly, configure_offline
+
+    configure_offline()
+    ra = np.atleast_1d(np.asarray(ra_deg, dtype=float))
+    dec = np.atleast_1d(np.asarray(dec_deg, dtype=float))
+    with astropy_quietly():
+        t = Time(np.full(ra.shape, float(jd_utc)), format="jd", scale="utc", location=location)
+        ltt = t.light_travel_time(SkyCoord(ra * u.deg, dec * u.deg), kind="barycentric")
+        return (t.tdb.jd - t.utc.jd) + ltt.to_value(u.day)
+
+
+def night_visibility(engine, night, entries: list[dict], location=None) -> VisGrid:
+    """VisGrid of the targets on the night's grid (and ``bjd_minus_jd`` filled in the entries).
+
+    Parameters
+    ----------
+    engine : rhofollow.planning.visibility.VisibilityEngine
+    night : NightGrid of that engine (``times_jd`` from dusk to dawn, JD UTC)
+    entries : science dicts with ``ra_deg``, ``dec_deg``
+    location : astropy EarthLocation for the barycentric correction (default: the engine's site)
+    """
+    t = night.times_jd
+    names = [e["name"] for e in entries]
+    if not entries or t.size == 0:
+        return VisGrid(t, names, np.zeros((len(names), t.size), bool), np.full((len(names), t.size), np.inf))
+    ra = np.array([e["ra_deg"] for e in entries])
+    dec = np.array([e["dec_deg"] for e in entries])
+    obs = engine.observable_mask(ra, dec, t)
+    x = engine.airmass(ra, dec, t)
+    loc = location if location is not None else engine.site.location
+    corr = bjd_minus_jd(ra, dec, float(t[t.size // 2]), loc)
+    for e, c in zip(entries, corr):
+        e["bjd_minus_jd"] = float(c)
+    return VisGrid(t, names, obs, x)

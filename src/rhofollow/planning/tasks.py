@@ -13,7 +13,7 @@ fraction of the eccentricity samples above ``e_min``, default 0.1) and
 block (``kappa`` = 0.5 by default: A = 1 at the zenith, 0.61 at airmass 2).
 
 * Occultation window (fixed task): the block is the timing window widened by a baseline
-  ``B`` on each side, ``T_block = T_window + 2 B``.
+  ``B`` on each side and preceded by the instrument setup ``L``, ``T_block = T_window + 2 B + L``.
 
       V_occ = P_occ * w_k * E * A(X_max) * min(1, T_occ / T_block)
 
@@ -148,7 +148,10 @@ class ValueModel:
     phase_floor : float
         Phase weight far from every informative phase.
     baseline_h : float
-        Out-of-occultation baseline added on each side of an occultation window (hours).
+        Out-of-occultation baseline added on each side of an occultation window (hours); 0 when
+        the windows already include their baselines (as :mod:`rhofollow.eclipses` windows do).
+    lead_h : float
+        Instrument setup added before an occultation block (hours; the photometer's overhead).
     step_h : float
         Spacing of candidate RV start times (hours).
     """
@@ -158,6 +161,7 @@ class ValueModel:
     phase_sigma: float = 0.08
     phase_floor: float = 0.25
     baseline_h: float = 1.0
+    lead_h: float = 0.0
     step_h: float = 1.0 / 6.0
 
 
@@ -245,7 +249,7 @@ def occultation_tasks(record: dict, evidence: float, vis: VisGrid,
         wins = ev.get("window_utc") or []
         mass = ev.get("window_mass") or [1.0 / max(len(wins), 1)] * len(wins)
         for k, (w0, w1) in enumerate(wins):
-            j0, j1 = iso_to_jd(w0) - base_d, iso_to_jd(w1) + base_d
+            j0, j1 = iso_to_jd(w0) - base_d - model.lead_h / 24.0, iso_to_jd(w1) + base_d
             if j1 < lo or j0 > hi:
                 continue
             label = f"{name} occ E{ev.get('epoch', '?')}" + (f" w{k + 1}" if len(wins) > 1 else "")
