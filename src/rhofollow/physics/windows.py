@@ -102,8 +102,9 @@ def credible_region(xs, ws, prob, n_bins=200, merge_gap=0.0, min_gain=0.1):
     """Credible region of sorted weighted samples as a list of disjoint (lo, hi) intervals.
 
     The region is the highest-density set holding at least ``prob`` of the mass, from a
-    histogram of ``n_bins`` bins between the 0.05 % and 99.95 % quantiles; pieces closer than
-    ``merge_gap`` are joined. When that gives one piece, or the union is not at least
+    histogram between the 0.05 % and 99.95 % quantiles with at most ``n_bins`` bins and about 30
+    effective samples per bin (Kish ESS / 30, at least 8 bins), so that sampling noise does not
+    split the region; pieces closer than ``merge_gap`` or two bin widths are joined. When that gives one piece, or the union is not at least
     ``min_gain`` (fraction) shorter than the shortest single interval, the exact shortest single
     interval is returned instead (one piece). Two-humped distributions thus get two windows.
     """
@@ -116,7 +117,10 @@ def credible_region(xs, ws, prob, n_bins=200, merge_gap=0.0, min_gain=0.1):
     a, b = _interp_sorted([0.0005, 0.9995], cdf, xs)
     if not b > a:
         return [(lo1, hi1)]
+    ess = 1.0 / np.sum((ws / np.sum(ws)) ** 2)
+    n_bins = int(np.clip(ess / 30.0, 8, n_bins))
     edges = np.linspace(a, b, n_bins + 1)
+    merge_gap = max(merge_gap, 2.0 * (b - a) / n_bins)
     cw0 = np.concatenate(([0.0], cw))
     mass = np.diff(cw0[np.searchsorted(xs, edges, side="left")])
     order = np.argsort(-mass, kind="stable")
