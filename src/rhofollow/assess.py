@@ -113,6 +113,11 @@ def _ln_summary(x: np.ndarray) -> Obs:
     return Obs(float(q50), max(q50 - q16, 1e-6), max(q84 - q50, 1e-6))
 
 
+def _split_summary(x: np.ndarray) -> Obs:
+    q16, q50, q84 = np.quantile(x, [0.16, 0.5, 0.84])
+    return Obs(float(q50), max(q50 - q16, 1e-6), max(q84 - q50, 1e-6))
+
+
 def _radius_ratio(t: Target, warnings) -> Obs:
     if t.has("rp_rs"):
         return _obs(t, "rp_rs", warnings)
@@ -132,10 +137,14 @@ def _circular_density_routes(t: Target, period: Obs, k: Obs, rng, n, warnings) -
         t14 = _draw(rng, n, _obs(t, "t14_h", warnings, HOURS), lower=0)
         if t.has("t23_h"):
             t23 = _draw(rng, n, _obs(t, "t23_h", warnings, HOURS), lower=0)
-            _, a_rs = smo_invert(t14, t23, kk, p)
+            b_smo, a_rs = smo_invert(t14, t23, kk, p)
+            ok = np.isfinite(b_smo)
+            if ok.mean() > 0.5:
+                routes["_b"] = _split_summary(b_smo[ok])
             label = "durations (T14, T23, k; Seager & Mallen-Ornelas 2003)"
         else:
             b = np.abs(_draw(rng, n, _obs(t, "b", warnings)))
+            routes["_b"] = _split_summary(b)
             a_rs = ars_from_t14_b(t14, b, kk, p)
             label = "durations (T14, b, k; Seager & Mallen-Ornelas 2003)"
         good = np.isfinite(a_rs) & (a_rs > 1)
@@ -183,7 +192,9 @@ def _star_pool(t: Target, rng, n, warnings) -> tuple[StarPool, str, dict]:
     if route == "rho_star":
         rho = candidates["rho_star"]
         other = next((candidates[k] for k in ("mass_radius", "logg_radius", "torres2010") if k in candidates), None)
-        if other is not None:
+        if t.has("mstar_msun"):
+            mstar = _draw(rng, n, _obs(t, "mstar_msun", warnings), lower=0)
+        elif other is not None:
             # mass from the other route, radius consistent with the adopted density
             mstar = other[1]
         else:
@@ -245,6 +256,7 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses) -> 
     k = _radius_ratio(t, warnings)
     n_mc = max(4000, n // 4)
     routes = _circular_density_routes(t, period, k, rng, n_mc, warnings)
+    b_circ = routes.pop("_b", None)
     if not routes:
         raise _RowProblem("no transit-geometry route: give a_rs; or t14_h with t23_h or b; or rho_circ_cgs")
     _disagreement({r: _ln_summary(v[0]) for r, v in routes.items()}, "circular-density", warnings)
@@ -259,7 +271,8 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses) -> 
         bobs = _obs(t, "b", warnings, required=False) if t23 is None else None
         proxy = _ln_summary(routes["durations"][0]) if "durations" in routes else None
         obs = TransitObservables("durations", period, t0, k, t14=_obs(t, "t14_h", warnings, HOURS),
-                                 t23=t23, b=bobs, ln_rho_circ=proxy, dilution_known=1 / (1 - contam))
+                                 t23=t23, b=bobs, ln_rho_circ=proxy, dilution_known=1 / (1 - contam),
+                                 b_circ=b_circ)
     else:
         route = "density"
         best = min((r for r in routes), key=lambda r: _ln_summary(routes[r][0]).hi)

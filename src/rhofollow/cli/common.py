@@ -93,3 +93,70 @@ def write_json(path, obj) -> Path:
 
     text = json.dumps(_clean(json.loads(json.dumps(obj, default=json_default))), indent=2)
     return atomic_write_text(path, text + "\n")
+
+
+# --------------------------------------------------------------------------------------------
+# catalogue + assessment shared by every command that needs posterior samples
+
+def add_assess_options(p) -> None:
+    """Options of the assessment stage (shared by assess, eclipses, rv, night, campaign, plan)."""
+    from ..assess import DEFAULT_N_SAMPLES
+    from ..physics.priors import DEFAULT_PRIOR, PRIOR_NAMES
+
+    p.add_argument("--samples", type=int, default=DEFAULT_N_SAMPLES, metavar="N",
+                   help=f"posterior samples per target (default {DEFAULT_N_SAMPLES})")
+    p.add_argument("--ecc-prior", default=DEFAULT_PRIOR, metavar="NAME[:PARAMS]",
+                   help=f"eccentricity prior: {', '.join(PRIOR_NAMES)}, or beta:A,B, halfnormal:S, "
+                   f"rayleigh:S, uniform:EMAX (default {DEFAULT_PRIOR})")
+    p.add_argument("--no-transit-weight", action="store_true",
+                   help="do not weight the prior by the transit probability (1 + e sin w)/(1 - e^2)")
+    p.add_argument("--workers", type=int, default=1, metavar="N",
+                   help="processes for the per-target work (results identical to 1 worker)")
+    add_seed_option(p)
+
+
+def report_row_issues(result, quiet: bool = False) -> None:
+    """Print the catalogue's row problems to stderr (one line each) and a summary line."""
+    ec = err_console()
+    for issue in result.issues:
+        colour = "red" if issue.severity == "error" else "yellow"
+        if not quiet or issue.severity == "error":
+            ec.print(f"[{colour}]{issue.severity}:[/] {issue}", highlight=False, markup=True)
+    if result.n_failed:
+        ec.print(f"{result.n_rows} rows read, {result.n_failed} failed validation and were skipped; "
+                 f"{len(result.targets)} go on.", highlight=False)
+
+
+def load_catalogue(path, require_coords: bool = False):
+    """Read and validate a catalogue; file-level problems become a :class:`UserError`."""
+    from ..io.catalogue import CatalogueError, read_catalogue
+
+    try:
+        return read_catalogue(path, require_coords=require_coords)
+    except CatalogueError as exc:
+        raise UserError(str(exc)) from None
+    except FileNotFoundError:
+        raise UserError(f"{path}: no such file") from None
+
+
+def run_assessment(targets, args, label: str = "assessing"):
+    """Run the assessment with a progress bar on stderr; returns the list of Assessments."""
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    from ..parallel import assess_parallel
+    from ..physics.priors import parse_prior
+
+    try:
+        prior = parse_prior(args.ecc_prior)
+    except ValueError as exc:
+        raise UserError(f"--ecc-prior: {exc}") from None
+    if args.samples < 500:
+        raise UserError("--samples must be at least 500")
+    with Progress(TextColumn("[bold]{task.description}"), BarColumn(), MofNCompleteColumn(),
+                  TimeRemainingColumn(), console=err_console(), transient=True,
+                  disable=len(targets) < 5) as prog:
+        task = prog.add_task(label, total=len(targets))
+        return assess_parallel(targets, n_samples=args.samples, prior=prior, seed=args.seed,
+                               transit_prob=not args.no_transit_weight,
+                               workers=max(1, int(getattr(args, "workers", 1) or 1)),
+                               progress=lambda k=1: prog.advance(task, k))

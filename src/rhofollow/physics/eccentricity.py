@@ -35,7 +35,12 @@ import numpy as np
 from .priors import EccPrior
 from .sampling import (adaptive_importance_sample, split_normal_ppf, split_normal_logpdf,
                        ImportanceResult)
-from .transit import ars_from_rho, eccentric_durations, g_factor, inclination_from_b
+from scipy.special import ndtr, ndtri
+
+from .constants import RHO_SUN_CGS
+from .transit import ars_from_rho, eccentric_durations, g_factor, inclination_from_b, rho_from_ars
+
+_RHO_PER_ARS3 = float(rho_from_ars(1.0, 1.0))  # g/cm^3 per (a/R*)^3 at P = 1 d
 
 __all__ = ["Obs", "TransitObservables", "StarPool", "HYPOTHESES", "run_hypothesis",
            "BLEND_CONTAM_MAX", "OTHER_HOST_FLUX_RANGE"]
@@ -87,6 +92,7 @@ class TransitObservables:
     b: Obs | None = None
     ln_rho_circ: Obs | None = None
     dilution_known: float = 1.0
+    b_circ: Obs | None = None
 
 
 @dataclass
@@ -110,6 +116,26 @@ class StarPool:
     def take(self, u):
         idx = np.minimum((np.asarray(u) * len(self.rho)).astype(int), len(self.rho) - 1)
         return self.rho[idx], self.mstar[idx], self.rstar[idx], self.teff[idx]
+
+    def _fit(self):
+        if not hasattr(self, "_sn"):
+            q16, q50, q84 = np.quantile(np.log(self.rho), [0.15865, 0.5, 0.84135])
+            self._sn = (q50, max(q50 - q16, 1e-4), max(q84 - q50, 1e-4))
+        return self._sn
+
+    def log_density_ln(self, ln_rho):
+        """Log density of ln(rho) under the star's measurement: a split normal fitted to the draws'
+        16/50/84 % quantiles (smooth, with tails, so evidences of poor fits stay finite)."""
+        mu, lo, hi = self._fit()
+        return split_normal_logpdf(ln_rho, mu, lo, hi)
+
+    def at_density(self, rho):
+        """Mass, radius and Teff for given densities: the nearest draw's mass and Teff, the radius
+        that makes the density exact (R = (M / rho)^(1/3) in solar units)."""
+        i = np.clip(np.searchsorted(self.rho, rho), 0, len(self.rho) - 1)
+        mstar = self.mstar[i]
+        rstar = np.cbrt(mstar / (rho / RHO_SUN_CGS))
+        return mstar, rstar, self.teff[i]
 
 
 @dataclass
@@ -147,7 +173,7 @@ def _make_proxy(hyp, dims, obs, host, setup):
     """Cheap stand-in for the likelihood that shapes the sampler's first proposal.
 
     Compares log(rho_host g^3 D^(-3/4)) with the summary of the observed circular density, widened by
-    1.5x + 0.05 (natural-log units) for safety; b is left free.
+    1.5x + 0.05 (natural-log units) for safety, and b with the circular fit's b when known.
     """
     col = {name: i for i, name in enumerate(dims)}
     spread0 = 0.5 * (obs.ln_rho_circ.lo + obs.ln_rho_circ.hi)
@@ -180,7 +206,15 @@ def _make_proxy(hyp, dims, obs, host, setup):
             else:
                 dil = np.full(m, 1.0 / setup.companion_flux)
         ln_model = ln_rho + 3 * np.log(g_factor(e, w)) - 0.75 * np.log(dil)
-        return -0.5 * ((ln_model - obs.ln_rho_circ.value) / spread) ** 2 + log_prior
+        out = -0.5 * ((ln_model - obs.ln_rho_circ.value) / spread) ** 2 + log_prior
+        if "b" in col and obs.b_circ is not None:
+            # the light-curve shape fixes b whatever the orbit (Winn 2010), so a circular fit's b
+            # is a fair first guess of the true one
+            kq = obs.k.value
+            bb = (1 + kq) * u[:, col["b"]]
+            sb = 1.5 * 0.5 * (obs.b_circ.lo + obs.b_circ.hi) + 0.03
+            out = out - 0.5 * ((bb - obs.b_circ.value) / sb) ** 2
+        return out
 
     return proxy
 
@@ -189,6 +223,13 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
                    n: int, rng: np.random.Generator, ess_floor: float = 2000.0
                    ) -> ImportanceResult:
     """Importance-sample one hypothesis; returns weights, evidence and physical arrays in ``aux``.
+
+    The adaptive grid covers the hypothesis' own parameters ((e, w) for ``eccentric``, the
+    contaminating fraction for ``blend``, the flux fraction for ``other_host``). The host density and
+    b are drawn from conditional proposals: ln rho_host from the observed circular density moved by
+    -3 ln g + (3/4) ln D (the photo-eccentric and photo-blend relations), b about the circular fit's b.
+    Their prior/proposal density ratios enter the weights, so the result is exact importance sampling
+    of the full likelihood; the proposals only make it efficient.
 
     ``aux`` holds e, omega, b, k (true radius ratio of the host), period, t0, rho_star, mstar, rstar,
     a_rs, inc, teff, dilution.
@@ -199,23 +240,26 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
     if hyp == "eccentric":
         dims = ["e", "w"]
     elif hyp == "blend":
-        dims = ["rho", "c"]
-    elif hyp == "other_host":
-        dims = ["rho"] + (["f"] if setup.companion_flux is None else [])
+        dims = ["c"]
+    elif hyp == "other_host" and setup.companion_flux is None:
+        dims = ["f"]
     else:
-        dims = ["rho"]
-    if dur:
-        dims.append("b")
+        dims = ["z"]  # no free parameter of its own: a dummy axis
     d = len(dims)
     col = {name: i for i, name in enumerate(dims)}
     host = setup.companion if hyp == "other_host" else star
+    rc = obs.ln_rho_circ
+    if dur:
+        t14_mu = obs.t14.value
+        t14_sd = 1.2 * 0.5 * (obs.t14.lo + obs.t14.hi)
+    if dur and obs.b_circ is not None:
+        b_mu = obs.b_circ.value
+        b_sd = 1.5 * 0.5 * (obs.b_circ.lo + obs.b_circ.hi) + 0.03
+    else:
+        b_mu, b_sd = None, None
 
     def model(u, rng_):
         m = u.shape[0]
-        if "rho" in col:
-            rho, mstar, rstar, teff = host.take(u[:, col["rho"]])
-        else:
-            rho, mstar, rstar, teff = host.take(rng_.random(m))
         period = obs.period.draw(rng_, m)
         t0 = obs.t0.draw(rng_, m)
         k_obs = np.abs(obs.k.draw(rng_, m))
@@ -233,8 +277,7 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
             w = np.full(m, np.pi / 2)
         dilution = np.full(m, obs.dilution_known)
         if hyp == "blend":
-            c = BLEND_CONTAM_MAX * u[:, col["c"]]
-            dilution = dilution / (1 - c)
+            dilution = dilution / (1 - BLEND_CONTAM_MAX * u[:, col["c"]])
         elif hyp == "other_host":
             if setup.companion_flux is not None:
                 f = np.full(m, setup.companion_flux)
@@ -243,19 +286,54 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
                 f = lo + (hi - lo) * u[:, col["f"]]
             dilution = 1.0 / f
         k_true = k_obs * np.sqrt(dilution)
-        if dur:
-            b = (1 + k_true) * u[:, col["b"]]
+        # impact parameter: prior U(0, 1 + k); proposal about the circular fit's b when known
+        bmax = 1 + k_true
+        if dur and b_mu is not None:
+            lo_c = ndtr((0 - b_mu) / b_sd)
+            hi_c = ndtr((bmax - b_mu) / b_sd)
+            mix = rng_.random(m) < 0.2
+            b = np.where(mix, bmax * rng_.random(m),
+                         b_mu + b_sd * ndtri(np.clip(lo_c + (hi_c - lo_c) * rng_.random(m), 1e-300, 1 - 1e-16)))
+            b = np.clip(b, 0, np.nextafter(bmax, 0))
+            z = (b - b_mu) / b_sd
+            q_norm = np.exp(-0.5 * z * z) / (np.sqrt(2 * np.pi) * b_sd * np.maximum(hi_c - lo_c, 1e-300))
+            log_pq_b = -np.log(bmax) - np.log(0.2 / bmax + 0.8 * q_norm)
+        elif dur:
+            b = bmax * rng_.random(m)
+            log_pq_b = np.zeros(m)
         else:
             b = np.full(m, np.nan)
-        ll = _log_like_transit(obs, rho, period, k_true, b, e, w, dilution) + log_prior
+            log_pq_b = np.zeros(m)
+        ln_g3 = 3 * np.log(g_factor(e, w))
+        if dur:
+            # host density: the circular a/R* that a T14 drawn about its measurement implies at this b
+            # and k (exact circular relation, SMO 2003), moved by the photo-eccentric factor g^3
+            tdraw = t14_mu + t14_sd * rng_.standard_normal(m)
+            tdraw = np.clip(tdraw, 1e-6 * period, 0.499 * period)
+            x = np.pi * tdraw / period
+            sx = np.sin(x)
+            chord2 = np.clip((1 + k_true) ** 2 - b * b, 1e-12, None)
+            a2 = b * b + chord2 / (sx * sx)
+            ln_rc = np.log(_RHO_PER_ARS3 * a2 ** 1.5 / period**2)
+            dln_dt = 1.5 * (-2 * chord2 * np.cos(x) / sx**3 * np.pi / period) / a2
+            log_q_rho = (-0.5 * ((tdraw - t14_mu) / t14_sd) ** 2 - np.log(np.sqrt(2 * np.pi) * t14_sd)
+                         - np.log(np.abs(dln_dt)))
+            ln_rho = ln_rc - ln_g3
+        else:
+            ln_rc = split_normal_ppf(rng_.random(m), rc.value, rc.lo, rc.hi)
+            log_q_rho = split_normal_logpdf(ln_rc, rc.value, rc.lo, rc.hi)
+            ln_rho = ln_rc - ln_g3 + 0.75 * np.log(dilution)
+        log_p_rho = host.log_density_ln(ln_rho)
+        rho = np.exp(ln_rho)
+        mstar, rstar, teff = host.at_density(rho)
+        ll = _log_like_transit(obs, rho, period, k_true, b, e, w, dilution)
+        log_w = ll + log_prior + log_p_rho - log_q_rho + log_pq_b
         a_rs = ars_from_rho(rho, period)
-        if not dur:
-            b = np.full(m, np.nan)
         aux = dict(e=e, omega=np.mod(w, 2 * np.pi), b=b, k=k_true, period=period, t0=t0,
                    rho_star=rho, mstar=mstar, rstar=rstar, a_rs=a_rs, teff=teff, dilution=dilution)
-        return np.where(np.isfinite(ll), ll, -np.inf), aux
+        return np.where(np.isfinite(log_w), log_w, -np.inf), aux
 
-    proxy = _make_proxy(hyp, dims, obs, host, setup) if obs.ln_rho_circ is not None else None
+    proxy = _make_proxy(hyp, dims, obs, host, setup) if hyp == "eccentric" else None
     res = adaptive_importance_sample(model, d, n, rng, ess_floor=ess_floor, proxy=proxy,
                                      pool=(hyp == "eccentric"))
     aux = res.aux

@@ -1,0 +1,131 @@
+"""``rhofollow assess``: density mismatch -> eccentricity posterior and competing explanations."""
+from __future__ import annotations
+
+from pathlib import Path
+
+from rich.table import Table
+
+from .common import (add_assess_options, add_json_option, console, load_catalogue, report_row_issues,
+                     run_assessment, write_json, atomic_write_text)
+
+__all__ = ["register", "run", "summary_table", "assessment_table"]
+
+CAUTION = ("Advisory only: the eccentricity posterior assumes the transit parameters and the stellar "
+           "density are unbiased; blends, spots and wrong-host cases can mimic eccentricity.")
+
+
+def register(subparsers) -> None:
+    p = subparsers.add_parser(
+        "assess", help="eccentricity posterior from the stellar-density mismatch of each candidate",
+        description="Compare the circular-orbit density implied by each transit with the star's "
+        "independent density; sample the eccentricity posterior (importance sampling) and weigh the "
+        "explanations: circular orbit, eccentric orbit, blend, other host star.")
+    p.add_argument("catalog", metavar="CATALOG", help="candidate catalogue (CSV, ECSV or VOTable)")
+    add_json_option(p)
+    p.add_argument("--ecsv", metavar="PATH", help="write the per-target summary table as ECSV")
+    p.add_argument("--samples-out", metavar="DIR",
+                   help="write each target's weighted posterior samples as DIR/<name>.ecsv")
+    add_assess_options(p)
+    p.set_defaults(func=run)
+
+
+def _fmt(x, nd=2):
+    return "—" if x is None else f"{x:.{nd}g}" if abs(x) < 1e-2 or abs(x) >= 1e3 else f"{x:.{nd}f}"
+
+
+def summary_table(records: list[dict]) -> Table:
+    """Rich table, one row per target (densities in g/cm^3)."""
+    tab = Table(title="Density mismatch and eccentricity (densities in g/cm³)", header_style="bold",
+                caption="mismatch: |ln(ρ_circ/ρ★)| in units of its spread; e: median [2.5–97.5 %]; "
+                "2lnB: log Bayes factor of the favoured explanation over the next best "
+                "(Kass & Raftery 1995: >2 positive, >6 strong, >10 very strong)", caption_justify="left")
+    tab.add_column("target", no_wrap=True)
+    for col in ("ρ_circ", "ρ★", "ratio", "mismatch", "e_min", "e", "P(e>0.1)"):
+        tab.add_column(col, justify="right", no_wrap=True)
+    tab.add_column("favoured", no_wrap=True)
+    tab.add_column("2lnB", justify="right", no_wrap=True)
+    for r in records:
+        if not r.get("ok"):
+            tab.add_row(r["name"], *["—"] * 7, "[red]not assessed[/]", "—")
+            continue
+        e = r["ecc"]
+        fav = r["favoured"].replace("_", " ")
+        lnb = r.get("ln_bayes_factor")
+        style = {"eccentric": "bold", "circular": "", "blend": "italic", "other host": "italic"}.get(fav, "")
+        tab.add_row(
+            r["name"], _fmt(r["rho_circ_cgs"]["q50"]), _fmt(r["rho_star_cgs"]["q50"]),
+            _fmt(r["density_ratio"]["q50"]), f"{r['density_ratio_sigma']:.1f}σ", f"{r['ecc_min']:.2f}",
+            f"{e['q50']:.2f} [{e['q025']:.2f}–{e['q975']:.2f}]", f"{r['p_ecc_gt_0p1']:.2f}",
+            f"[{style}]{fav}[/]" if style else fav, "—" if lnb is None else f"{min(2 * lnb, 999):.1f}")
+    return tab
+
+
+def assessment_table(records: list[dict]):
+    """Astropy table of the per-target summary (for ECSV/CSV export)."""
+    from astropy.table import Table as ATable
+    import astropy.units as u
+
+    rows = [r for r in records if r.get("ok")]
+    t = ATable()
+    t["name"] = [r["name"] for r in rows]
+    for key, unit in [("rho_circ_cgs", u.g / u.cm**3), ("rho_star_cgs", u.g / u.cm**3),
+                      ("density_ratio", None), ("ecc", None), ("omega_deg", u.deg)]:
+        for q in ("q16", "q50", "q84"):
+            vals = [r[key][q] for r in rows]
+            t[f"{key}_{q}"] = vals * unit if unit is not None else vals
+    t["density_ratio_sigma"] = [r["density_ratio_sigma"] for r in rows]
+    t["ecc_min"] = [r["ecc_min"] for r in rows]
+    t["p_ecc_gt_0p1"] = [r["p_ecc_gt_0p1"] for r in rows]
+    t["ess"] = [r["ess"] for r in rows]
+    for h in ("circular", "eccentric", "blend", "other_host"):
+        t[f"log_evidence_{h}"] = [r["log_evidence"].get(h) if r["log_evidence"].get(h) is not None
+                                  else float("nan") for r in rows]
+    t["favoured"] = [r["favoured"] for r in rows]
+    return t
+
+
+def write_samples(assessments, directory) -> int:
+    """Write each target's samples to DIR/<name>.ecsv atomically; returns how many were written."""
+    d = Path(directory)
+    d.mkdir(parents=True, exist_ok=True)
+    n = 0
+    for a in assessments:
+        if a.samples is None:
+            continue
+        safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in a.name)
+        tab = a.samples.to_table()
+        import io as _io
+        buf = _io.StringIO()
+        tab.write(buf, format="ascii.ecsv")
+        atomic_write_text(d / f"{safe}.ecsv", buf.getvalue())
+        n += 1
+    return n
+
+
+def run(args) -> int:
+    result = load_catalogue(args.catalog)
+    report_row_issues(result, quiet=True)
+    assessments = run_assessment(result.targets, args)
+    records = [a.record for a in assessments]
+    con = console()
+    con.print(summary_table(records))
+    for a in assessments:
+        for w in a.warnings:
+            con.print(f"[yellow]{a.name}:[/] {w}", highlight=False)
+        for e in a.errors:
+            con.print(f"[red]{a.name}:[/] {e}", highlight=False)
+    con.print(f"[dim]{CAUTION}[/]")
+    n_bad = result.n_failed + sum(not a.ok for a in assessments)
+    payload = {"source": str(args.catalog), "prior": args.ecc_prior, "seed": args.seed,
+               "n_rows": result.n_rows, "n_failed": n_bad, "targets": records,
+               "row_errors": [str(i) for i in result.errors]}
+    if args.json:
+        write_json(args.json, payload)
+    if args.ecsv:
+        import io as _io
+        buf = _io.StringIO()
+        assessment_table(records).write(buf, format="ascii.ecsv")
+        atomic_write_text(args.ecsv, buf.getvalue())
+    if args.samples_out:
+        write_samples(assessments, args.samples_out)
+    return 1 if n_bad else 0
