@@ -132,28 +132,52 @@ def _fake_site(monkeypatch, problems=None, exc=None):
     monkeypatch.setitem(sys.modules, "rhofollow.planning.site", mod)
 
 
-def test_site_ok_and_catalogue(monkeypatch, good_csv, tmp_path, capsys):
+@pytest.fixture
+def site_file(tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "s.toml").write_text("# a site\n")
+    return "s.toml"
+
+
+def test_site_ok_and_catalogue(monkeypatch, good_csv, tmp_path, site_file, capsys):
     _fake_site(monkeypatch, problems=[])
     js = tmp_path / "r.json"
-    assert main(["check", str(good_csv), "--site", "s.toml", "--json", str(js)]) == 0
+    assert main(["check", str(good_csv), "--site", site_file, "--json", str(js)]) == 0
     rep = json.loads(js.read_text())
     assert rep["site"] == {"path": "s.toml", "ok": True, "problems": []}
     assert rep["catalogue"]["ok"] is True
 
 
-def test_site_problems_exit_1(monkeypatch, capsys):
+def test_site_problems_exit_1(monkeypatch, site_file, capsys):
     _fake_site(monkeypatch, problems=["latitude 95 is outside [-90, 90]"])
     assert main(["check", "--site", "s.toml"]) == 1
     assert "latitude 95" in capsys.readouterr().out
 
 
-def test_site_unreadable_exit_2(monkeypatch, capsys):
-    _fake_site(monkeypatch, exc=FileNotFoundError("no such file: s.toml"))
+def test_site_unreadable_exit_2(monkeypatch, site_file, capsys):
+    _fake_site(monkeypatch, exc=PermissionError("permission denied: s.toml"))
     assert main(["check", "--site", "s.toml"]) == 2
     assert "s.toml" in capsys.readouterr().err
 
 
-def test_site_support_missing_exit_2(monkeypatch, capsys):
+def test_site_missing_file_exit_2(monkeypatch, tmp_path, capsys):
+    _fake_site(monkeypatch, problems=[])
+    assert main(["check", "--site", str(tmp_path / "none.toml")]) == 2
+    assert "not found" in flat(capsys.readouterr().err)
+
+
+def test_real_demo_site_if_present(capsys):
+    site = Path(__file__).resolve().parents[1] / "site_configs" / "alto_quemado.toml"
+    try:
+        from rhofollow.planning.site import check_site  # noqa: F401
+    except ImportError:
+        pytest.skip("site support not written yet")
+    if not site.exists():
+        pytest.skip("demo site not written yet")
+    assert main(["check", "--site", str(site)]) == 0
+
+
+def test_site_support_missing_exit_2(monkeypatch, site_file, capsys):
     monkeypatch.setitem(sys.modules, "rhofollow.planning.site", None)
     assert main(["check", "--site", "s.toml"]) == 2
     assert "not available" in capsys.readouterr().err
@@ -165,3 +189,9 @@ def test_bundled_demo_catalogue_is_valid(capsys):
         pytest.skip("demo catalogue not written yet")
     assert main(["check", str(demo), "--require-coords"]) == 0
     assert " 0 failed" in flat(capsys.readouterr().out)
+
+
+def test_brackets_in_a_path_are_not_markup(tmp_path, capsys):
+    p = tmp_path / "cat[bold].csv"
+    assert main(["check", str(p)]) == 2
+    assert "cat[bold].csv" in flat(capsys.readouterr().err)

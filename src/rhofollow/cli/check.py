@@ -1,4 +1,4 @@
-"""``rhofollow check``: validate a catalogue (and optionally a site file) without computing anything.
+"""``rhofollow check``: validate a catalogue and/or a site file without computing anything.
 
 Exit status: 0 when every row passed, 1 when any row (or column) failed or the site file has
 problems, 2 when a file cannot be used at all.
@@ -77,26 +77,43 @@ def _render(result) -> None:
     n_warn = len(result.warnings)
     style = "green" if result.ok else "bold red"
     out.print(Text(f"{result.source}: {result.n_rows} rows read, {result.n_failed} failed, "
-                   f"{n_warn} warning{'s' if n_warn != 1 else ''}", style=style), soft_wrap=True)
+                   f"{n_warn} warning{'s' if n_warn != 1 else ''}", style=style),
+              soft_wrap=True)
+
+
+def _error(sentence: str) -> None:
+    """Print one error sentence on stderr (text taken literally, never as markup)."""
+    from rich.markup import escape
+
+    err_console().print(f"[bold red]error:[/] {escape(sentence)}", highlight=False,
+                        soft_wrap=True)
 
 
 def _check_site(path: str) -> tuple[int, dict]:
     try:
         from rhofollow.planning.site import check_site
     except ImportError:
-        err_console().print(f"[bold red]error:[/] cannot check site file {path}: site support "
-                            "is not available in this installation", highlight=False)
+        _error(f"cannot check site file {path}: site support is not available in this "
+               "installation")
         return 2, {"path": path, "ok": False, "problems": ["site support not available"]}
+    from pathlib import Path
+
+    if not Path(path).is_file():
+        what = "is a directory" if Path(path).is_dir() else "not found"
+        _error(f"site file {path}: {what}")
+        return 2, {"path": path, "ok": False, "problems": [f"{path}: {what}"]}
     try:
         problems = list(check_site(path))
     except (OSError, ValueError) as exc:
-        err_console().print(f"[bold red]error:[/] site file {path}: {exc}", highlight=False)
+        _error(f"site file {path}: {exc}")
         return 2, {"path": path, "ok": False, "problems": [str(exc)]}
     from rich.text import Text
 
     out = console()
     for prob in problems:
-        out.print(Text(f"{path}: {prob}", style="red"))
+        prob = str(prob)
+        out.print(Text(prob if prob.startswith(str(path)) else f"{path}: {prob}", style="red"),
+                  soft_wrap=True)
     out.print(Text(f"{path}: site file "
                    + ("is valid" if not problems else f"has {len(problems)} problem(s)"),
                    style="green" if not problems else "bold red"))
@@ -114,7 +131,7 @@ def run(args) -> int:
         try:
             result = read_catalogue(args.catalog, require_coords=args.require_coords)
         except CatalogueError as exc:
-            err_console().print(f"[bold red]error:[/] {exc}", highlight=False)
+            _error(str(exc))
             payload["catalogue"] = {"source": str(args.catalog), "ok": False,
                                     "file_error": str(exc)}
             status = 2
