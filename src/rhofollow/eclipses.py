@@ -233,9 +233,10 @@ def _target_record(s: SampleSet, target, opts, start_bjd, end_bjd, lam, resp):
                                  "occultation")
     wsub = wi[sub]
     ok14 = np.isfinite(t14)
-    if not ok14.all():
-        warn.append(f"{100 * (1 - wsub[ok14].sum() / wsub.sum()):.1f}% of the occulting samples "
-                    "have orbits that graze the star at periastron: no duration for them")
+    bad_frac = 1.0 - wsub[ok14].sum() / wsub.sum()
+    if bad_frac >= 0.001:
+        warn.append(f"{100 * bad_frac:.1f}% of the occulting samples have orbits that graze the "
+                    "star at periastron: no duration for them")
     rec["occ_phase"] = quantile_dict((dt + ltt) / per, wi)
     rec["occ_offset_d"] = quantile_dict(dt + ltt, wi)
     rec["occ_duration_h"] = quantile_dict(t14[ok14], wsub[ok14], _DAY_H)

@@ -1,0 +1,172 @@
+"""``rhofollow eclipses``: when each occultation will happen, whether it happens, how long and
+how deep it is, and the observing windows of every event in a date range."""
+from __future__ import annotations
+
+import numpy as np
+from rich.table import Table
+
+from .common import (UserError, add_assess_options, add_json_option, console, err_console,
+                     load_catalogue, report_row_issues, run_assessment, write_json)
+
+__all__ = ["register", "run", "parse_band", "read_filter_curve", "events_table"]
+
+
+def register(subparsers) -> None:
+    p = subparsers.add_parser(
+        "eclipses", help="occultation (secondary-eclipse) timing, depth and observing windows",
+        description="Predict each candidate's occultation from its eccentricity posterior: phase, "
+        "probability that it happens, duration, depth in a band, and the observing window of "
+        "every event between two dates (UTC and BJD_TDB).")
+    p.add_argument("catalog", metavar="CATALOG", help="candidate catalogue (CSV, ECSV or VOTable)")
+    p.add_argument("--start", required=True, metavar="DATE", help="first date (UTC, ISO 8601)")
+    p.add_argument("--end", required=True, metavar="DATE", help="last date (UTC, ISO 8601)")
+    p.add_argument("--coverage", type=float, default=0.9, metavar="P",
+                   help="probability each event's window must hold (default 0.9)")
+    band = p.add_mutually_exclusive_group()
+    band.add_argument("--band", metavar="MICRONS:WIDTH",
+                      help="top-hat band for the depth, centre and width in microns "
+                      "(default 2.15:0.32)")
+    band.add_argument("--filter", metavar="FILE",
+                      help="filter curve: two columns, wavelength [micron] and response")
+    p.add_argument("--baseline", type=float, default=None, metavar="HOURS",
+                   help="out-of-eclipse baseline before and after each window (default: the "
+                   "occultation duration, at least 1 h)")
+    p.add_argument("--location", metavar="LAT,LON[,HEIGHT_M]",
+                   help="observer's geodetic site for the UTC times (default: the geocentre)")
+    p.add_argument("--ics", metavar="PATH", help="write the windows as an iCalendar file")
+    add_json_option(p)
+    add_assess_options(p)
+    p.set_defaults(func=run)
+
+
+def parse_band(text: str) -> tuple[float, float]:
+    """'4.5:1.0' -> (4.5, 1.0); a UserError names the option on bad input."""
+    try:
+        c, w = (float(v) for v in text.split(":"))
+    except ValueError:
+        raise UserError(f"--band '{text}' must be CENTRE:WIDTH in microns, e.g. 4.5:1.0") from None
+    return c, w
+
+
+def read_filter_curve(path: str):
+    """Two-column filter file (wavelength in microns, response); '#' starts a comment.
+
+    Errors name the file and line.
+    """
+    lam, resp = [], []
+    try:
+        with open(path, encoding="utf-8") as fh:
+            lines = fh.readlines()
+    except OSError as exc:
+        raise UserError(f"{path}: cannot read the filter file ({exc.strerror})") from None
+    for i, line in enumerate(lines, start=1):
+        text = line.split("#", 1)[0].replace(",", " ").strip()
+        if not text:
+            continue
+        parts = text.split()
+        try:
+            if len(parts) != 2:
+                raise ValueError
+            lam.append(float(parts[0]))
+            resp.append(float(parts[1]))
+        except ValueError:
+            raise UserError(f"{path}, line {i}: expected two numbers (wavelength in microns, "
+                            f"response), got '{line.strip()}'") from None
+    if len(lam) < 2:
+        raise UserError(f"{path}: the filter curve needs at least two rows")
+    return np.array(lam), np.array(resp)
+
+
+def _location(text):
+    if not text:
+        return None
+    import astropy.units as u
+    from astropy.coordinates import EarthLocation
+
+    try:
+        vals = [float(v) for v in text.split(",")]
+        if len(vals) not in (2, 3) or not (-90 <= vals[0] <= 90):
+            raise ValueError
+    except ValueError:
+        raise UserError(f"--location '{text}' must be LAT,LON[,HEIGHT_M] in degrees and metres"
+                        ) from None
+    h = vals[2] if len(vals) == 3 else 0.0
+    return EarthLocation.from_geodetic(vals[1] * u.deg, vals[0] * u.deg, h * u.m)
+
+
+def _q(d, nd=2, scale=1.0):
+    if not d or d.get("q50") is None:
+        return "—"
+    return (f"{d['q50'] * scale:.{nd}f} [{d['q16'] * scale:.{nd}f}, "
+            f"{d['q84'] * scale:.{nd}f}]")
+
+
+def events_table(result: dict) -> Table:
+    """Rich table: one row per target, with its first events."""
+    tab = Table(title="Occultations", header_style="bold")
+    for col, just in [("target", "left"), ("phase\nmedian [68%]", "right"),
+                      ("P(occ)", "right"), ("duration [h]\nmedian [68%]", "right"),
+                      ("depth [ppm]\nmedian [68%]", "right"), ("events", "right"),
+                      ("next window (UTC)", "left")]:
+        tab.add_column(col, justify=just)
+    for r in result["targets"]:
+        if not r.get("ok"):
+            tab.add_row(r["name"], "—", "—", "—", "—", "—", "[red]not assessed (see errors)[/]")
+            continue
+        evs = r.get("events", [])
+        nxt = "—"
+        if evs:
+            w = evs[0].get("window_utc")
+            if w:
+                nxt = "; ".join(f"{a[:16].replace('T', ' ')} → {b[:16].replace('T', ' ')}"
+                                for a, b in w)
+            else:
+                nxt = "; ".join(f"BJD {a:.3f} → {b:.3f}" for a, b in evs[0]["window_bjd_tdb"])
+        tab.add_row(r["name"], _q(r.get("occ_phase"), 3), f"{r.get('p_occultation', 0):.2f}",
+                    _q(r.get("occ_duration_h"), 2), _q(r.get("depth_ppm"), 0), str(len(evs)),
+                    nxt)
+    return tab
+
+
+def run(args) -> int:
+    from ..eclipses import EclipseInputError, EclipseOptions, predict_occultations
+
+    opts = EclipseOptions(coverage=args.coverage, baseline_h=args.baseline,
+                          location=_location(args.location))
+    if args.band:
+        opts.band = parse_band(args.band)
+    if args.filter:
+        opts.filter_curve = read_filter_curve(args.filter)
+    if args.baseline is not None and not args.baseline >= 0:
+        raise UserError("--baseline must be zero or a positive number of hours")
+    # Check the cheap options before the expensive assessment.
+    try:
+        predict_occultations([], args.start, args.end, opts)
+    except EclipseInputError as exc:
+        raise UserError(f"{exc}") from None
+
+    cat = load_catalogue(args.catalog)
+    report_row_issues(cat)
+    assessments = run_assessment(cat.targets, args, label="assessing")
+    result = predict_occultations(assessments, args.start, args.end, opts)
+    result["catalog"] = str(args.catalog)
+    result["seed"] = args.seed
+
+    console().print(events_table(result))
+    ec = err_console()
+    for r in result["targets"]:
+        for msg in r.get("errors", []):
+            ec.print(f"[red]error:[/] {r['name']}: {msg}", highlight=False)
+        for msg in r.get("warnings", []):
+            ec.print(f"[yellow]warning:[/] {r['name']}: {msg}", highlight=False)
+    for msg in result.get("notices", []):
+        ec.print(f"[yellow]notice:[/] {msg}", highlight=False)
+    console().print(f"[italic]{result['caution']}[/]", highlight=False)
+    if args.json:
+        write_json(args.json, result)
+    if args.ics:
+        from ..io.calendar import write_ics
+
+        write_ics(args.ics, result)
+    n_ok = sum(1 for r in result["targets"] if r.get("ok"))
+    return 0 if n_ok or not result["targets"] else 1
