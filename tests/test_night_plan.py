@@ -76,3 +76,81 @@ def test_night_respects_unobservable_time():
     t = JD0 + np.arange(97) * 5.0 / 1440.0
     assert iso_to_jd(b["start_utc"]) >= t[40] - 1e-6 and iso_to_jd(b["end_utc"]) <= t[59] + 1e-6
     assert b["kind"] == "rv" and 0 <= b["phase"] < 1
+
+
+# ---------------------------------------------------------------- real site, independent astropy check
+
+SITE = "site_configs/alto_quemado.toml"
+DATE = "2026-06-20"  # southern winter: a long night at the demo site
+
+
+@pytest.fixture(scope="module")
+def real_plan():
+    from rhofollow.planning.night import night_visibility
+    from rhofollow.planning.site import load_site
+    from rhofollow.planning.visibility import VisibilityEngine
+
+    site = load_site(SITE)
+    eng = VisibilityEngine(site)
+    night = eng.night(DATE)
+    s, e = night.start_jd, night.end_jd
+    # invented targets spread in RA; occultation windows placed inside the night by hand
+    targets = [("HTS-301", 200.0, -35.0), ("HTS-302", 250.0, -50.0), ("HTS-303", 280.0, -20.0),
+               ("HTS-304", 160.0, -60.0), ("HTS-305", 310.0, -5.0), ("HTS-306", 20.0, -30.0)]
+    sci = []
+    for k, (name, ra, dec) in enumerate(targets):
+        w0 = s + (0.5 + 1.3 * k) / 24
+        occ = {"p_occultation": 0.95, "occ_duration_h": 1.6,
+               "events": [{"epoch": 40 + k, "window_utc": [[jd_to_iso(w0), jd_to_iso(w0 + 2.5 / 24)]]}]}
+        rv = {"n_epochs_confirm_ecc": 5 + k, "hours_confirm_ecc": 0.4 * (5 + k), "best_phases": [0.3, 0.7]}
+        entry = science_entry(name, evidence=0.5 + 0.08 * k, occultation=occ, rv=rv,
+                              t0_bjd=s - 0.37 * k, period_d=1.5 + 0.9 * k)
+        entry["ra_deg"], entry["dec_deg"] = ra, dec
+        sci.append(entry)
+    vis = night_visibility(eng, night, sci)
+    plan = plan_night(sci, vis, site=site.name, night_start_jd=s, night_end_jd=e,
+                      overhead_h=(site.slew_minutes + site.setup_minutes) / 60)
+    return site, night, sci, plan.to_dict()
+
+
+def test_real_night_has_both_kinds(real_plan):
+    _, _, _, d = real_plan
+    kinds = {b["kind"] for b in d["blocks"]}
+    assert kinds == {"occultation", "rv"}
+    assert d["solver_status"] == "optimal"
+
+
+def test_every_block_observable_astropy(real_plan):
+    """Independent check with astropy (AltAz, get_sun, get_body) and astroplan's moon_illumination:
+    throughout each block (1-minute samples) the Sun is below the site's twilight limit, the target
+    is above the altitude limit and the horizon mask, and the Moon is far enough (or below the
+    horizon, as the site allows). Tolerance 0.05 deg: the visibility engine's stated accuracy."""
+    import astropy.units as u
+    from astroplan import moon_illumination
+    from astropy.coordinates import AltAz, SkyCoord, get_body, get_sun
+    from astropy.time import Time
+
+    site, night, sci, d = real_plan
+    c = site.constraints
+    loc = site.location
+    by_name = {s["name"]: s for s in sci}
+    assert d["blocks"]
+    for b in d["blocks"]:
+        t = Time(np.arange(b["start_jd"], b["end_jd"] + 1e-9, 1 / 1440), format="jd", scale="utc")
+        assert night.start_jd - 1e-6 <= t.jd[0] and t.jd[-1] <= night.end_jd + 1e-6
+        frame = AltAz(obstime=t, location=loc)  # no pressure: geometric, like the engine
+        tgt = SkyCoord(by_name[b["name"]]["ra_deg"] * u.deg, by_name[b["name"]]["dec_deg"] * u.deg)
+        alt = tgt.transform_to(frame)
+        sun_alt = get_sun(t).transform_to(frame).alt.deg
+        assert np.all(sun_alt < c.sun_altitude_limit_deg + 0.05), b
+        need = c.required_altitude_deg(alt.az.deg)
+        assert np.all(alt.alt.deg >= need - 0.05), b
+        moon = get_body("moon", t, loc).transform_to(frame)
+        sep = moon.separation(alt).deg
+        req = c.required_moon_separation_deg(moon_illumination(t))
+        ok = sep >= req - 0.05
+        if c.moon_ignore_below_horizon:
+            ok |= moon.alt.deg < 0.05
+        assert np.all(ok), b
+        # the reported airmass bound holds too (sec z from astropy)
+        assert np.max(alt.secz.value) <= b["airmass_max"] + 0.01

@@ -85,7 +85,7 @@ def test_occultation_skips_unobservable_and_outside():
     # a window running past the end of the night
     rec = _occ_record(JD0 + 7.5 / 24, JD0 + 9 / 24)
     tasks, skipped = occultation_tasks(rec, 0.9, vis)
-    assert tasks == [] and "past the night" in skipped[0].reason
+    assert tasks == [] and "does not fit inside the night" in skipped[0].reason
 
 
 def test_two_windows_split_probability():

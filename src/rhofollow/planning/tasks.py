@@ -117,11 +117,17 @@ class VisGrid:
         return self._row[name]
 
     def fraction_observable(self, name: str, jd0: float, jd1: float) -> float:
-        """Fraction of the grid points in [jd0, jd1] where the target is observable (0 if none)."""
-        m = (self.t_jd >= jd0 - 1e-9) & (self.t_jd <= jd1 + 1e-9)
-        if not m.any():
+        """Fraction of the grid points bracketing [jd0, jd1] where the target is observable.
+
+        The grid points used run from the last one at or before ``jd0`` to the first one at or
+        after ``jd1`` (conservative: both ends of the interval are bracketed); 0 outside the grid.
+        """
+        t = self.t_jd
+        if t.size == 0 or jd1 < t[0] - 1e-9 or jd0 > t[-1] + 1e-9:
             return 0.0
-        return float(self.observable[self.row(name), m].mean())
+        i0 = max(int(np.searchsorted(t, jd0 + 1e-9, side="right")) - 1, 0)
+        i1 = min(int(np.searchsorted(t, jd1 - 1e-9, side="left")), t.size - 1)
+        return float(self.observable[self.row(name), i0:i1 + 1].mean())
 
     def airmass_max(self, name: str, jd0, jd1, n: int = 9) -> np.ndarray:
         """Highest airmass over [jd0, jd1] (arrays broadcast), by interpolation at ``n`` points."""
@@ -254,7 +260,8 @@ def occultation_tasks(record: dict, evidence: float, vis: VisGrid,
                 continue
             label = f"{name} occ E{ev.get('epoch', '?')}" + (f" w{k + 1}" if len(wins) > 1 else "")
             if j0 < lo - 1e-9 or j1 > hi + 1e-9:
-                skipped.append(Skip(label, "window with baselines runs past the night"))
+                skipped.append(Skip(label, f"the {(j1 - j0) * 24:.1f} h block (window, baselines and setup) "
+                                           "does not fit inside the night"))
                 continue
             frac = vis.fraction_observable(name, j0, j1)
             if frac < 1.0:

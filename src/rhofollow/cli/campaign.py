@@ -1,0 +1,111 @@
+"""``rhofollow campaign``: every observable occultation window and the RV visits of a semester,
+with the hours to request per instrument."""
+from __future__ import annotations
+
+from .common import UserError, add_json_option, add_seed_option, atomic_write_text, console, err_console, \
+    write_json
+
+__all__ = ["register", "run"]
+
+#: Longest campaign accepted (nights): one visibility grid per night is kept in memory.
+MAX_NIGHTS = 400
+
+
+def register(subparsers):
+    p = subparsers.add_parser(
+        "campaign", help="occultation windows, RV visits and hours per instrument over a date range",
+        description="For each target: every occultation window observable from the site, the RV visits "
+        "needed to confirm the eccentricity placed on feasible nights at informative orbital phases, "
+        "and the hours per instrument including overheads (the table a proposal needs).")
+    p.add_argument("catalog", metavar="CATALOG", help="target catalogue (CSV, ECSV or VOTable)")
+    p.add_argument("--site", metavar="FILE", required=True, help="site file (TOML)")
+    p.add_argument("--start", metavar="YYYY-MM-DD", required=True, help="local date of the first evening")
+    p.add_argument("--end", metavar="YYYY-MM-DD", required=True, help="local date of the last evening")
+    p.add_argument("--ics", metavar="PATH", help="write the windows and visits as an iCalendar file")
+    p.add_argument("--table", choices=["md", "latex", "csv"],
+                   help="print the hours table in this format instead of the terminal table")
+    p.add_argument("--samples", type=int, default=20000,
+                   help="posterior samples per target in the assessment (default 20000)")
+    add_json_option(p)
+    add_seed_option(p)
+    p.set_defaults(func=run)
+
+
+def _date(s: str, opt: str):
+    import datetime as dt
+
+    try:
+        return dt.date.fromisoformat(s)
+    except ValueError:
+        raise UserError(f"{opt} must be YYYY-MM-DD, got {s!r}") from None
+
+
+def run(args) -> int:
+    from rich.progress import Progress
+    from rich.table import Table
+
+    from ..planning.campaign import NightVis, hours_table, plan_campaign, to_ical
+    from ..planning.night import CAUTION, night_visibility
+    from ..planning.tasks import jd_to_iso
+    from ..planning.visibility import VisibilityEngine
+    from .night import load_site_arg, prepare
+
+    start, end = _date(args.start, "--start"), _date(args.end, "--end")
+    if end < start:
+        raise UserError(f"--end {end} is before --start {start}")
+    n_nights = (end - start).days + 1
+    if n_nights > MAX_NIGHTS:
+        raise UserError(f"{n_nights} nights requested; at most {MAX_NIGHTS} (split the campaign)")
+    if args.samples < 200:
+        raise UserError(f"--samples must be at least 200, got {args.samples}")
+    site = load_site_arg(args.site)
+    eng = VisibilityEngine(site)
+    grids = [g for g in eng.nights(start, end) if g.kind != "no_night"]
+    if not grids:
+        raise UserError(f"no dark time at {site.name} between {start} and {end}")
+    prep = prepare(args, site, jd_to_iso(grids[0].start_jd - 0.5), jd_to_iso(grids[-1].end_jd + 0.5))
+    nights = []
+    with Progress(console=err_console(), transient=True) as prog:
+        task = prog.add_task("visibility", total=len(grids))
+        for g in grids:
+            nights.append(NightVis(str(g.date), night_visibility(eng, g, prep.science), g.start_jd, g.end_jd))
+            prog.advance(task)
+    plan = plan_campaign(prep.science, nights, site=site.name, overhead_h=prep.overhead_h,
+                         instruments=prep.instruments, model=prep.model)
+    doc = plan.to_dict()
+    doc["start"], doc["end"] = str(start), str(end)
+    doc["skipped"] = prep.skipped
+    doc["notices"] = prep.notices
+    doc.update({"seed": args.seed, "samples": args.samples, "timezone": site.timezone,
+                "overhead_h": prep.overhead_h})
+
+    con = console()
+    if args.table:
+        con.print(hours_table(plan, args.table), end="", highlight=False, markup=False, soft_wrap=True)
+    else:
+        insts = list(dict.fromkeys(plan.instruments.values()))
+        tab = Table(title=f"{site.name}: campaign {start} to {end} ({len(nights)} nights with dark time)")
+        for col in ["target", "occultation windows", "RV visits"] + [f"{i} h" for i in insts] + ["notes"]:
+            tab.add_column(col, justify="left" if col in ("target", "notes") else "right")
+        for t in doc["targets"]:
+            clash = sum(x["clash"] for x in t["occultation_windows"] + t["rv_visits"])
+            notes = "; ".join(t["notes"] + ([f"{clash} clash with other targets"] if clash else []))
+            tab.add_row(t["name"], str(len(t["occultation_windows"])), str(len(t["rv_visits"])),
+                        *[f"{t['hours'].get(i, 0.0):.2f}" for i in insts], notes)
+        tab.add_row("total", "", "", *[f"{doc['hours_total'].get(i, 0.0):.2f}" for i in insts], "",
+                    style="bold")
+        con.print(tab)
+        con.print(f"Hours include {prep.overhead_h * 60:.0f} min slew + setup per block and the "
+                  "instrument overheads. " + CAUTION, highlight=False)
+    ec = err_console()
+    for n in prep.notices:
+        ec.print(f"[yellow]notice:[/] {n}", highlight=False)
+    for s in prep.skipped:
+        ec.print(f"[dim]skipped:[/] {s['name']}: {s['reason']}", highlight=False)
+    if args.json:
+        write_json(args.json, doc)
+        ec.print(f"wrote {args.json}", highlight=False)
+    if args.ics:
+        atomic_write_text(args.ics, to_ical(plan).decode("utf-8"))
+        ec.print(f"wrote {args.ics}", highlight=False)
+    return 0
