@@ -39,10 +39,15 @@ def register(subparsers):
     p.set_defaults(func=run)
 
 
-def _fmt(q, digits=1):
+def _num(x, digits=3):
+    return f"{x:.0f}" if abs(x) >= 100 else f"{x:.{digits}g}"
+
+
+def _fmt(q, digits=3):
+    """Median and the 68 % interval, compactly: 139 (26-724)."""
     if not q:
         return "-"
-    return f"{q['q50']:.{digits}f} [{q['q16']:.{digits}f}, {q['q84']:.{digits}f}]"
+    return f"{_num(q['q50'], digits)} ({_num(q['q16'], 2)}-{_num(q['q84'], 2)})"
 
 
 def run(args) -> int:
@@ -52,6 +57,7 @@ def run(args) -> int:
     from ..io.catalogue import read_catalogue
     from ..io.instruments import InstrumentError, Spectrograph, read_instruments
     from ..io.rvdata import RVDataError, read_rv_data
+    from ..physics.rvconfirm import N_LADDER
     from ..rvplan import CAUTION, plan_rv
 
     if not 0 < args.fap < 1:
@@ -102,30 +108,36 @@ def run(args) -> int:
 
     with_data = any("ecc_confirmed" in r for r in records)
     tab = Table(title=f"RV follow-up on {plan_inst.name} (FAP {args.fap:g}, power {args.power:.0%})")
-    for col in ("target", "K m/s", "Mp M⊕", "σ/epoch m/s", "N det K", "N conf e", "hours", "phases"):
-        tab.add_column(col, justify="left" if col in ("target", "phases") else "right")
-    if with_data:
-        tab.add_column("e updated", justify="right")
-        tab.add_column("e > 0?", justify="center")
+    for col in ("target", "K m/s", "Mp M⊕", "σ m/s", "N K", "N e", "hours", "phases"):
+        tab.add_column(col, justify="left" if col in ("target", "phases") else "right",
+                       no_wrap=col in ("target", "K m/s"))
     for r in records:
         if not r["ok"]:
-            row = [r["name"], "[red]" + "; ".join(r["errors"])[:60] + "[/]"] + [""] * 6
-        else:
-            n = r["n_epochs_confirm_ecc"]
-            row = [r["name"], _fmt(r["k_ms"]), _fmt(r["mp_mearth"]), f"{r['sigma_rv_ms']:.2f}",
-                   str(r["n_epochs_detect_k"] or "-"), str(n) if n else f"> {400}",
-                   f"{r['hours_confirm_ecc']:.1f}" if r["hours_confirm_ecc"] else "-",
-                   ", ".join(f"{p:.2f}" for p in r["best_phases"][:3])]
-        if with_data:
-            if "ecc_confirmed" in r:
-                row += [_fmt(r.get("ecc_updated"), 3), "yes" if r["ecc_confirmed"] else "no"]
-            else:
-                row += ["", ""]
-        tab.add_row(*row)
+            tab.add_row(r["name"], "[red]" + "; ".join(r["errors"])[:70] + "[/]", *[""] * 6)
+            continue
+        n = r["n_epochs_confirm_ecc"]
+        tab.add_row(r["name"], _fmt(r["k_ms"]), _num(r["mp_mearth"]["q50"]), f"{r['sigma_rv_ms']:.2f}",
+                    str(r["n_epochs_detect_k"] or "-"), str(n) if n else f">{N_LADDER[-1]}",
+                    f"{r['hours_confirm_ecc']:.1f}" if r["hours_confirm_ecc"] else "-",
+                    " ".join(f"{p:.2f}" for p in r["best_phases"][:2]))
+    upd = None
+    if with_data:
+        upd = Table(title=f"Update from measured RVs (eccentric if LRT p < {args.fap:g})")
+        for col in ("target", "RVs", "e", "ω deg", "K m/s", "LRT p", "e > 0"):
+            upd.add_column(col, justify="left" if col == "target" else "right", no_wrap=True)
+        for r in records:
+            if "ecc_confirmed" in r and r.get("ecc_updated"):
+                upd.add_row(r["name"], str(r["n_rv"]), _fmt(r["ecc_updated"], 2),
+                            _num(r["omega_updated_deg"]["q50"]), _num(r["k_updated_ms"]["q50"]),
+                            f"{r['lrt_p_value']:.3g}", "[green]yes[/]" if r["ecc_confirmed"] else "no")
     con = console()
     con.print(tab)
-    con.print("Phases: orbital phase from mid-transit (0..1) where eccentric and circular orbits differ "
-              "most. " + CAUTION, highlight=False)
+    if upd is not None:
+        con.print(upd)
+    con.print("K, Mp: median (68 % interval). N K / N e: epochs to detect K / to confirm e > 0; hours for "
+              "N e. Phases: orbital phases from mid-transit (0..1) where eccentric and circular orbits "
+              "differ most.", highlight=False)
+    con.print(f"[bold]Caution:[/] {CAUTION}", highlight=False)
     for r in records:
         for w in r.get("warnings", []):
             ec.print(f"[yellow]warning:[/] {r['name']}: {w}", highlight=False)
