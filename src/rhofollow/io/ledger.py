@@ -702,7 +702,7 @@ class Ledger:
                         depth_limit_ppm: float | None = None, band_um: float | None = None,
                         instrument: str = "") -> IngestReport:
         """Record one occultation timing or non-detection (validated like a CSV row)."""
-        r = {k: ("" if v is None else repr(float(v)) if isinstance(v, (int, float)) else str(v))
+        r = {k: ("" if v is None else str(v) if isinstance(v, str) else repr(float(v)))
              for k, v in dict(kind=kind, mid_bjd_tdb=mid_bjd_tdb, mid_err_min=mid_err_min,
                               window_start_bjd_tdb=window_start_bjd_tdb,
                               window_end_bjd_tdb=window_end_bjd_tdb,

@@ -1,0 +1,233 @@
+"""Learn from the ledger: re-weight a target's posterior samples with its measured RVs and its
+occultation timings and non-detections, and store the new posterior version.
+
+The density-based samples (from :mod:`rhofollow.assess`) are the prior; each measurement adds a
+log-likelihood per sample:
+
+* RVs: :func:`rhofollow.physics.rvupdate.rv_log_likelihood` (per-instrument offsets and K > 0
+  marginalised analytically, jitter in quadrature);
+* a measured occultation mid-time: :func:`rhofollow.physics.occultation_timing.timing_log_like`;
+* a non-detection over a window: :func:`rhofollow.physics.occultation_timing.non_detection_log_like`
+  with each sample's predicted depth in the observation's band.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .io.ledger import Ledger, OccultationTiming, RVMeasurement
+from .io.table_types import Measurement, Target
+from .physics import occultation_timing as ot
+from .samples import SampleSet, quantile_dict
+
+__all__ = ["LedgerUpdate", "LedgerUpdateError", "DEFAULT_BAND_UM", "rv_log_like",
+           "occultation_log_like", "posterior_summary", "update_from_ledger",
+           "target_from_catalogue_row", "update_targets", "MIN_ESS_WARNING", "CONFLICT_SIGMA"]
+
+#: Band assumed for a non-detection recorded without one (microns); each use is a warning.
+DEFAULT_BAND_UM = 4.5
+#: A measured occultation time further than this (in its own sigmas) from every sample warns.
+CONFLICT_SIGMA = 5.0
+#: Below this effective sample size an update warns that more samples are needed.
+MIN_ESS_WARNING = 200.0
+
+
+class LedgerUpdateError(ValueError):
+    """The measurements cannot be reconciled with any sample (all weights vanish)."""
+
+
+@dataclass
+class LedgerUpdate:
+    """The result of re-weighting one target with its ledger data."""
+
+    target: str
+    samples: SampleSet
+    prior_ess: float
+    n_rv: int
+    n_detections: int
+    n_non_detections: int
+    source_hash: str
+    summary: dict
+    log_like: dict[str, np.ndarray] = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)
+    stored: bool = False
+
+    @property
+    def ess(self) -> float:
+        return self.samples.ess
+
+    def record(self) -> dict:
+        """JSON record (name, ok, errors, warnings, and the posterior summary)."""
+        return {"name": self.target, "ok": True, "errors": [], "warnings": list(self.warnings),
+                "prior_ess": self.prior_ess, "n_rv": self.n_rv,
+                "n_occ_detections": self.n_detections,
+                "n_occ_non_detections": self.n_non_detections, "source_hash": self.source_hash,
+                "stored_new_version": self.stored, **self.summary}
+
+
+def rv_log_like(samples: SampleSet, rvs: list[RVMeasurement], *, jitter_ms: float = 0.0
+                ) -> np.ndarray:
+    """RV log-likelihood per sample (zeros without RVs)."""
+    if not rvs:
+        return np.zeros(samples.n)
+    from .physics.rvupdate import rv_log_likelihood
+
+    insts = sorted({r.instrument for r in rvs})
+    groups = np.array([insts.index(r.instrument) for r in rvs])
+    t = np.array([r.bjd_tdb for r in rvs])
+    y = np.array([r.rv_ms for r in rvs])
+    err = np.array([r.rv_err_ms for r in rvs])
+    return rv_log_likelihood(t, y, err, groups, samples.period, samples.t0, samples.e,
+                             samples.omega, jitter_ms=jitter_ms)
+
+
+def occultation_log_like(samples: SampleSet, timings: list[OccultationTiming], *,
+                         threshold_sigma: float = 3.0, depth_kw: dict | None = None
+                         ) -> tuple[np.ndarray, np.ndarray, list[str]]:
+    """Log-likelihoods per sample of the detections and of the non-detections, and warnings."""
+    s = samples
+    geom = dict(a_rs=s.a_rs, rstar=s.rstar, inc=s.inc, k=s.k)
+    ll_det = np.zeros(s.n)
+    ll_non = np.zeros(s.n)
+    warnings: list[str] = []
+    for o in timings:
+        if o.kind == "detection":
+            ll = ot.timing_log_like(s.t0, s.period, s.e, s.omega, o.mid_bjd_tdb, o.mid_err_d,
+                                    **geom)
+            best = np.max(np.where(s.weights > 0, ll, -np.inf))
+            if best < -0.5 * CONFLICT_SIGMA**2:
+                warnings.append(f"no posterior sample predicts the occultation at "
+                                f"{o.mid_bjd_tdb} BJD_TDB within {CONFLICT_SIGMA:.0f} sigma; the "
+                                "timing conflicts with the posterior (check the ephemeris)")
+            ll_det += ll
+            continue
+        band = o.band_um
+        if band is None:
+            band = DEFAULT_BAND_UM
+            warnings.append(f"non-detection {o.window_start_bjd_tdb}-{o.window_end_bjd_tdb} has no "
+                            f"band; its depth was predicted at {DEFAULT_BAND_UM} micron")
+        depth = ot.predicted_depth_ppm(s.k, s.a_rs, s.e, s.omega, s.teff, band,
+                                       **(depth_kw or {}))
+        if not np.any(np.isfinite(depth)):
+            warnings.append(f"non-detection {o.window_start_bjd_tdb}-{o.window_end_bjd_tdb} "
+                            "ignored: the stellar Teff is unknown, so no depth can be predicted")
+            continue
+        ll_non += ot.non_detection_log_like(s.t0, s.period, s.e, s.omega, o.window_start_bjd_tdb,
+                                            o.window_end_bjd_tdb, depth, o.depth_limit_ppm,
+                                            threshold_sigma=threshold_sigma, **geom)
+    return ll_det, ll_non, warnings
+
+
+def posterior_summary(samples: SampleSet) -> dict:
+    """Quantiles of e, e cos omega, e sin omega, P(e < 0.05), N and ESS of a sample set."""
+    s = samples
+    w = s.weights
+    return {"n_samples": int(s.n), "ess": float(s.ess),
+            "ecc": quantile_dict(s.e, w),
+            "ecosw": quantile_dict(s.e * np.cos(s.omega), w),
+            "esinw": quantile_dict(s.e * np.sin(s.omega), w),
+            "p_ecc_below_0p05": float(np.sum(w[s.e < 0.05]))}
+
+
+def _source_hash(samples: SampleSet, rvs, timings, settings: dict) -> str:
+    h = hashlib.sha256()
+    for c in ("e", "omega", "period", "t0", "a_rs", "inc", "k", "rstar", "teff", "weights"):
+        h.update(np.ascontiguousarray(getattr(samples, c), dtype=float).tobytes())
+    h.update(json.dumps([[r.bjd_tdb, r.rv_ms, r.rv_err_ms, r.instrument] for r in rvs]).encode())
+    h.update(json.dumps([list(o.__dict__.values()) for o in timings]).encode())
+    h.update(json.dumps(settings, sort_keys=True).encode())
+    return h.hexdigest()
+
+
+def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float = 0.0,
+                       threshold_sigma: float = 3.0, store: bool = True) -> LedgerUpdate:
+    """Re-weight ``samples`` with everything the ledger holds for ``samples.name``.
+
+    With ``store`` the summary is written as a posterior version (the same inputs twice add
+    nothing: the version is keyed by a hash of the samples, the data and the settings).
+    """
+    name = samples.name
+    rvs = ledger.rv_measurements(name)
+    timings = ledger.occultation_timings(name)
+    ll_rv = rv_log_like(samples, rvs, jitter_ms=jitter_ms)
+    ll_det, ll_non, warnings = occultation_log_like(samples, timings,
+                                                    threshold_sigma=threshold_sigma)
+    total = ll_rv + ll_det + ll_non
+    if not np.any(np.isfinite(total) & (samples.weights > 0)):
+        raise LedgerUpdateError(f"{name}: the ledger's measurements exclude every posterior "
+                                "sample; check the data or draw more samples")
+    new = samples.reweighted(total)
+    if new.ess < MIN_ESS_WARNING:
+        warnings.append(f"effective sample size fell to {new.ess:.0f} of {new.n}; the updated "
+                        "posterior is noisy (draw more samples)")
+    settings = {"jitter_ms": jitter_ms, "threshold_sigma": threshold_sigma}
+    src = _source_hash(samples, rvs, timings, settings)
+    summary = posterior_summary(new)
+    res = LedgerUpdate(target=name, samples=new, prior_ess=samples.ess, n_rv=len(rvs),
+                       n_detections=sum(o.kind == "detection" for o in timings),
+                       n_non_detections=sum(o.kind == "non_detection" for o in timings),
+                       source_hash=src, summary=summary,
+                       log_like={"rv": ll_rv, "occultation_timing": ll_det,
+                                 "occultation_non_detection": ll_non},
+                       warnings=warnings)
+    if store:
+        rep = ledger.add_posterior_version(name, source_hash=src, n_samples=new.n, ess=new.ess,
+                                           summary=dict(summary, n_rv=res.n_rv,
+                                                        n_occ_detections=res.n_detections,
+                                                        n_occ_non_detections=res.n_non_detections,
+                                                        **settings))
+        res.stored = bool(rep.counts.get("posterior_versions"))
+    return res
+
+
+def target_from_catalogue_row(name: str, row: dict) -> Target:
+    """Rebuild the catalogue :class:`Target` stored in the ledger (inverse of the ledger's JSON)."""
+    def f(x):
+        return math.nan if x is None else float(x)
+    values = {k: Measurement(f(v[0]), f(v[1]), f(v[2])) for k, v in row["values"].items()}
+    return Target(name=name, row=int(row.get("row", 0)), source=str(row.get("source", "")),
+                  values=values)
+
+
+def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples: int = 20000,
+                   prior=None, seed: int = 0, jitter_ms: float = 0.0, store: bool = True
+                   ) -> list[dict]:
+    """Assess each ledger target from its stored catalogue row, then re-weight with its data.
+
+    Returns one JSON record per target (``name``, ``ok``, ``errors``, ``warnings`` and the
+    summary); targets without a catalogue row are reported, not updated.
+    """
+    from .assess import assess_catalogue
+
+    out = []
+    names = ledger.targets() if names is None else names
+    todo = []
+    for n in names:
+        row = ledger.catalogue_row(n)
+        if row is None:
+            why = ("not in the ledger" if n not in ledger.targets() else
+                   "no catalogue row in the ledger (add it with 'rhofollow log targets CATALOGUE')")
+            out.append({"name": n, "ok": False, "errors": [why], "warnings": []})
+        else:
+            todo.append(target_from_catalogue_row(n, row))
+    kw = {} if prior is None else {"prior": prior}
+    for a in assess_catalogue(todo, n_samples=n_samples, seed=seed, **kw):
+        if not a.ok or a.samples is None:
+            out.append({"name": a.name, "ok": False, "errors": list(a.errors),
+                        "warnings": list(a.warnings)})
+            continue
+        try:
+            res = update_from_ledger(ledger, a.samples, jitter_ms=jitter_ms, store=store)
+        except LedgerUpdateError as exc:
+            out.append({"name": a.name, "ok": False, "errors": [str(exc)],
+                        "warnings": list(a.warnings)})
+            continue
+        rec = res.record()
+        rec["warnings"] = list(a.warnings) + rec["warnings"]
+        out.append(rec)
+    order = {n: i for i, n in enumerate(names)}
+    return sorted(out, key=lambda r: order.get(r["name"], len(order)))
