@@ -241,3 +241,22 @@ def test_update_command_on_the_demo_catalogue(tmp_path, capsys):
     assert set(r["ecc"]) == {"q025", "q16", "q50", "q84", "q975"}
     with Ledger(db) as lg:
         assert len(lg.posterior_versions("HTS-103")) == 1
+
+
+def test_apply_to_assessments_replaces_samples_of_targets_with_data(tmp_path):
+    from rhofollow.assess import Assessment
+    from rhofollow.ledger_update import apply_to_assessments
+
+    with_data = Assessment("HTS-194", None, True, samples=density_only_samples("HTS-194", 5000, 51))
+    without = Assessment("HTS-195", None, True, samples=density_only_samples("HTS-195", 5000, 52))
+    failed = Assessment("HTS-196", None, False, errors=["bad row"])
+    untouched = without.samples
+    _, occ = simulated_files(tmp_path, "HTS-194", seed=53)
+    with Ledger(tmp_path / "l.sqlite") as lg:
+        lg.ingest_occultation_file(occ)
+        ups = apply_to_assessments(lg, [with_data, without, failed])
+        assert list(ups) == ["HTS-194"]
+        assert with_data.samples is ups["HTS-194"].samples
+        assert with_data.samples.ess < 0.5 * density_only_samples("HTS-194", 5000, 51).ess
+        assert without.samples is untouched
+        assert lg.posterior_versions("HTS-194") == []  # planners do not store by default

@@ -26,7 +26,7 @@ from .samples import SampleSet, quantile_dict
 
 __all__ = ["LedgerUpdate", "LedgerUpdateError", "DEFAULT_BAND_UM", "rv_log_like",
            "occultation_log_like", "posterior_summary", "update_from_ledger",
-           "target_from_catalogue_row", "update_targets", "MIN_ESS_WARNING", "CONFLICT_SIGMA"]
+           "target_from_catalogue_row", "update_targets", "apply_to_assessments", "MIN_ESS_WARNING", "CONFLICT_SIGMA"]
 
 #: Band assumed for a non-detection recorded without one (microns); each use is a warning.
 DEFAULT_BAND_UM = 4.5
@@ -231,3 +231,29 @@ def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples:
         out.append(rec)
     order = {n: i for i, n in enumerate(names)}
     return sorted(out, key=lambda r: order.get(r["name"], len(order)))
+
+
+def apply_to_assessments(ledger: Ledger, assessments, *, jitter_ms: float = 0.0,
+                         store: bool = False) -> dict[str, LedgerUpdate]:
+    """For the planners: replace, in place, the samples of each assessment that has RVs or
+    occultation data in the ledger by the re-weighted samples, and add the update's warnings.
+
+    Assessments that failed, or whose target has no measurements in the ledger, are left as they
+    are. A target whose data exclude every sample keeps its samples and gets a warning. Returns
+    the updates by target name.
+    """
+    out = {}
+    for a in assessments:
+        if not a.ok or a.samples is None:
+            continue
+        if not ledger.rv_measurements(a.name) and not ledger.occultation_timings(a.name):
+            continue
+        try:
+            res = update_from_ledger(ledger, a.samples, jitter_ms=jitter_ms, store=store)
+        except LedgerUpdateError as exc:
+            a.warnings.append(f"ledger data not applied: {exc}")
+            continue
+        a.samples = res.samples
+        a.warnings.extend(res.warnings)
+        out[a.name] = res
+    return out
