@@ -14,7 +14,7 @@ import numpy as np
 
 from .io.table_types import Measurement, Target
 from .physics import stars as st
-from .physics.eccentricity import (HYPOTHESES, HypothesisSetup, Obs, StarPool, TransitObservables,
+from .physics.eccentricity import (HYPOTHESES, best_possible_loglike, HypothesisSetup, Obs, StarPool, TransitObservables,
                                    run_hypothesis)
 from .physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior
 from .physics.sampling import draw_split_normal
@@ -25,6 +25,9 @@ __all__ = ["Assessment", "assess_target", "assess_catalogue", "target_seed", "RE
            "evidence_strength", "DEFAULT_N_SAMPLES", "ESS_FLOOR"]
 
 DEFAULT_N_SAMPLES = 20000
+#: A target whose best sample misses the transit measurements by more than this chi^2 is reported as
+#: impossible rather than given a posterior (about 5 sigma for one or two measurements).
+CHI2_REJECT = 30.0
 ESS_FLOOR = 2000.0
 HOURS = 1.0 / 24.0
 
@@ -307,9 +310,12 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses) -> 
 
     ecc_res = results["eccentric"]
     lw = ecc_res.log_w
-    if not np.any(np.isfinite(lw)):
-        raise _RowProblem("no orbit reproduces the transit with this star (all weights are zero); "
-                          "check the durations, radius ratio and stellar parameters")
+    best_ll = max(float(np.max(r.aux["loglike"])) for r in results.values())
+    chi2 = 2 * (best_possible_loglike(obs) - best_ll)
+    if not np.any(np.isfinite(lw)) or not chi2 < CHI2_REJECT:
+        raise _RowProblem("no orbit, blend or host star reproduces the transit with this star "
+                          f"(best chi^2 = {chi2:.0f} against the transit measurements); check the "
+                          "durations, radius ratio, period and stellar parameters")
     w = np.exp(lw - np.max(lw))
     w = w / w.sum()
     aux = ecc_res.aux

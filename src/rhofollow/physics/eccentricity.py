@@ -42,7 +42,7 @@ from .transit import ars_from_rho, eccentric_durations, g_factor, inclination_fr
 
 _RHO_PER_ARS3 = float(rho_from_ars(1.0, 1.0))  # g/cm^3 per (a/R*)^3 at P = 1 d
 
-__all__ = ["Obs", "TransitObservables", "StarPool", "HYPOTHESES", "run_hypothesis",
+__all__ = ["Obs", "TransitObservables", "StarPool", "HYPOTHESES", "run_hypothesis", "best_possible_loglike",
            "BLEND_CONTAM_MAX", "OTHER_HOST_FLUX_RANGE"]
 
 HYPOTHESES = ("circular", "eccentric", "blend", "other_host")
@@ -150,6 +150,18 @@ class HypothesisSetup:
     extra: dict = field(default_factory=dict)
 
 
+def best_possible_loglike(obs: TransitObservables) -> float:
+    """Log-likelihood of a model that reproduces every transit observable exactly (chi^2 = 0)."""
+    if obs.route == "durations":
+        ll = float(obs.t14.logpdf(obs.t14.value))
+        if obs.t23 is not None:
+            ll += float(obs.t23.logpdf(obs.t23.value))
+        elif obs.b is not None:
+            ll += float(obs.b.logpdf(obs.b.value))
+        return ll
+    return float(obs.ln_rho_circ.logpdf(obs.ln_rho_circ.value))
+
+
 def _log_like_transit(obs: TransitObservables, rho_host, period, k_true, b, e, w, dilution):
     """Log-likelihood of the transit observables for arrays of physical parameters."""
     if obs.route == "durations":
@@ -249,6 +261,10 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
     col = {name: i for i, name in enumerate(dims)}
     host = setup.companion if hyp == "other_host" else star
     rc = obs.ln_rho_circ
+    star_mu, star_lo, star_hi = host._fit()
+    # propose the host density from whichever constraint is sharper: the star's own measurement, or
+    # the transit (circular density moved by g^3)
+    from_star = rc is None or 0.5 * (star_lo + star_hi) < 0.5 * (rc.lo + rc.hi)
     if dur:
         t14_mu = obs.t14.value
         t14_sd = 1.2 * 0.5 * (obs.t14.lo + obs.t14.hi)
@@ -305,7 +321,10 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
             b = np.full(m, np.nan)
             log_pq_b = np.zeros(m)
         ln_g3 = 3 * np.log(g_factor(e, w))
-        if dur:
+        if from_star:
+            # the star is the sharper constraint: draw its density directly (prior = proposal)
+            ln_rho = np.log(host.take(rng_.random(m))[0])
+        elif dur:
             # host density: the circular a/R* that a T14 drawn about its measurement implies at this b
             # and k (exact circular relation, SMO 2003), moved by the photo-eccentric factor g^3
             tdraw = t14_mu + t14_sd * rng_.standard_normal(m)
@@ -325,12 +344,15 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
             ln_rho = ln_rc - ln_g3 + 0.75 * np.log(dilution)
         log_p_rho = host.log_density_ln(ln_rho)
         rho = np.exp(ln_rho)
+        if from_star:
+            log_q_rho = log_p_rho  # drawn from the star: prior and proposal cancel
         mstar, rstar, teff = host.at_density(rho)
         ll = _log_like_transit(obs, rho, period, k_true, b, e, w, dilution)
         log_w = ll + log_prior + log_p_rho - log_q_rho + log_pq_b
         a_rs = ars_from_rho(rho, period)
         aux = dict(e=e, omega=np.mod(w, 2 * np.pi), b=b, k=k_true, period=period, t0=t0,
-                   rho_star=rho, mstar=mstar, rstar=rstar, a_rs=a_rs, teff=teff, dilution=dilution)
+                   rho_star=rho, mstar=mstar, rstar=rstar, a_rs=a_rs, teff=teff, dilution=dilution,
+                   loglike=np.where(np.isfinite(ll), ll, -np.inf))
         return np.where(np.isfinite(log_w), log_w, -np.inf), aux
 
     proxy = _make_proxy(hyp, dims, obs, host, setup) if hyp == "eccentric" else None

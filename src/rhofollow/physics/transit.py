@@ -71,7 +71,7 @@ def smo_invert(t14, t23, k, period):
     r = s23 / s14
     with np.errstate(invalid="ignore", divide="ignore"):
         b2 = ((1 - k) ** 2 - r * (1 + k) ** 2) / (1 - r)
-        b = np.where(b2 >= 0, np.sqrt(np.abs(b2)), np.nan)
+        b = np.where(b2 >= -1e-9, np.sqrt(np.clip(b2, 0.0, None)), np.nan)  # rounding at b = 0
         a2 = ((1 + k) ** 2 - b2 * (1 - s14)) / s14
         a_rs = np.where(a2 > 0, np.sqrt(np.abs(a2)), np.nan)
     return b, a_rs
