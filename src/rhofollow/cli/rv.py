@@ -34,6 +34,9 @@ def register(subparsers):
                    help="planet mass-radius relation when no mass is known (default auto)")
     p.add_argument("--k-mode", default="marginal", choices=["marginal", "mass"],
                    help="RV update: marginalise K analytically, or take K from the mass draws")
+    p.add_argument("--sims", type=int, default=2000,
+                   help="simulated data sets under the circular null per test (default 2000; the "
+                   "false-alarm threshold needs several per FAP^-1)")
     add_json_option(p)
     add_seed_option(p)
     p.set_defaults(func=run)
@@ -64,6 +67,8 @@ def run(args) -> int:
         raise UserError(f"--fap must lie between 0 and 1, got {args.fap}")
     if not 0 < args.power < 1:
         raise UserError(f"--power must lie between 0 and 1, got {args.power}")
+    if args.sims < 100:
+        raise UserError(f"--sims must be at least 100, got {args.sims}")
     if args.samples < 200:
         raise UserError(f"--samples must be at least 200, got {args.samples}")
     try:
@@ -104,7 +109,8 @@ def run(args) -> int:
                                        progress=lambda: prog.advance(task))
         task2 = prog.add_task("RV planning", total=len(assessments))
         records = plan_rv(assessments, plan_inst, rv_data, fap=args.fap, power=args.power, seed=args.seed,
-                          relation=args.relation, k_mode=args.k_mode, progress=lambda: prog.advance(task2))
+                          relation=args.relation, k_mode=args.k_mode, n_null=args.sims,
+                          n_alt=min(400, args.sims), progress=lambda: prog.advance(task2))
 
     with_data = any("ecc_confirmed" in r for r in records)
     tab = Table(title=f"RV follow-up on {plan_inst.name} (FAP {args.fap:g}, power {args.power:.0%})")
