@@ -23,7 +23,8 @@ linear algebra:
   az = atan2(u . E, u . N): one (targets x 3) @ (3 x times) product per quantity.
 
 Neglected: polar motion (< 0.5 arcsec) and diurnal aberration (0.3 arcsec). Night boundaries come
-from vectorised bisection on the interpolated Sun altitude (bracketed on a 5-min grid).
+from vectorised bisection on the interpolated Sun altitude (bracketed on a 5-min grid), then moved
+1 s into the dark side so the grid ends pass any sub-arcsecond-different check.
 
 Caching: each night's coarse ephemeris and boundaries live in a bounded LRU cache owned by the
 :class:`VisibilityEngine` instance, keyed by the local date of the evening. No module-level state.
@@ -51,6 +52,7 @@ _UNIX_EPOCH_JD = 2440587.5
 _DEG = math.pi / 180.0
 _N_COARSE = 56          # coarse points per night: noon - 1 h ... noon + 26.5 h at 30 min
 _SEARCH_STEP_MIN = 5.0  # bracketing grid for the Sun events
+_EDGE_MARGIN = 1.0 / 86400.0   # night boundaries are moved 1 s into the dark side
 _C_AU_PER_DAY = 299792.458 * 86400.0 / 149597870.700   # speed of light (exact) in au/day
 
 
@@ -308,7 +310,8 @@ class VisibilityEngine:
         """
         c = self.site.constraints
         st = self._state(ra_deg, dec_deg, times_jd, want_az=bool(c.horizon_mask),
-                         want_moon=c.min_moon_separation_deg > 0, want_sun=True)
+                         want_moon=c.min_moon_separation_deg > 0, want_sun=True,
+                         want_alt=bool(c.horizon_mask))
         return self._combine(st)
 
     def _combine(self, st) -> np.ndarray:
@@ -451,7 +454,7 @@ class VisibilityEngine:
         ri, di = erfa.atciq(np.radians(ra_deg), np.radians(dec_deg), 0.0, 0.0, 0.0, 0.0, e.astrom)
         return _radec_to_unit(ri, di)
 
-    def _state(self, ra_deg, dec_deg, times_jd, *, want_az, want_moon, want_sun=False):
+    def _state(self, ra_deg, dec_deg, times_jd, *, want_az, want_moon, want_sun=False, want_alt=True):
         """Quantities on the (N targets x T times) outer grid."""
         ra = np.atleast_1d(np.asarray(ra_deg, dtype=float)).ravel()
         dec = np.atleast_1d(np.asarray(dec_deg, dtype=float)).ravel()
@@ -485,7 +488,8 @@ class VisibilityEngine:
                 out["cos_moon_sep"][:, idx] = u @ mu.T
                 out["moon_alt"][idx] = np.degrees(np.arcsin(np.clip(np.sum(mu * z, -1), -1, 1)))
                 out["moon_illum"][idx] = _interp_rows(e.t0, e.step, e.illum, tt)
-        out["alt"] = np.degrees(np.arcsin(np.clip(out["sin_alt"], -1.0, 1.0)))
+        if want_alt:
+            out["alt"] = np.degrees(np.arcsin(np.clip(out["sin_alt"], -1.0, 1.0)))
         return out
 
     def _pairs(self, ra, dec, times):
@@ -555,11 +559,16 @@ class VisibilityEngine:
             c2i = erfa.c2i06a(tmt.jd1, tmt.jd2)                                 # (n, 3, 3)
             astrom, _eo = erfa.apci13(tmt.jd1, tmt.jd2)
             tt = grid + tt_minus_utc[:, None]
-            pvh, pvb = erfa.epv00(tt, 0.0)                                      # au, au/d (BCRS ~ GCRS axes)
+            # the Sun moves 0.25 deg in 6 h: evaluate the (costly) Earth ephemeris every ~6 h only
+            sub = np.unique(np.r_[np.arange(0, k, max(1, round(360 / self.ephemeris_step_minutes))), k - 1])
+            pvh, pvb = erfa.epv00(tt[:, sub], 0.0)                              # au, au/d (BCRS ~ GCRS axes)
             moon_pv = erfa.moon98(tt, 0.0)
         r_h = pvh["p"]
         # apparent Sun: geometric direction plus annual aberration (v/c), Sun at rest heliocentrically
-        sun = -r_h + np.linalg.norm(r_h, axis=-1, keepdims=True) * pvb["v"] / _C_AU_PER_DAY
+        sun_sub = -r_h + np.linalg.norm(r_h, axis=-1, keepdims=True) * pvb["v"] / _C_AU_PER_DAY
+        x = np.arange(k)
+        sun = np.stack([np.stack([np.interp(x, sub, sun_sub[i, :, c]) for c in range(3)], -1)
+                        for i in range(n)])
         moon = moon_pv["p"]
         # Moon's illuminated fraction from the Sun-Moon-Earth phase angle i (geocentric)
         to_sun, to_earth = sun - moon, -moon
@@ -623,7 +632,10 @@ class VisibilityEngine:
                     move_lo = a == falling
                     lo = np.where(move_lo, mid, lo)
                     hi = np.where(move_lo, hi, mid)
-                val = np.where(has, 0.5 * (lo + hi), np.nan)
+                # step 1 s to the dark side of the crossing (the Sun moves ~10 arcsec/s there), so
+                # the night's first and last grid times are dark by this engine's test and by
+                # astropy's too (they agree to ~1 arcsec)
+                val = np.where(has, hi + _EDGE_MARGIN if falling else lo - _EDGE_MARGIN, np.nan)
                 for i in range(n):
                     res[i][key] = float(val[i])
             if ev == "dusk":
