@@ -39,7 +39,9 @@ def write(tmp_path, text, name="site.toml", with_instruments=True):
     p.write_text(text)
     if with_instruments:
         (tmp_path / "inst").mkdir(exist_ok=True)
-        (tmp_path / "inst" / "spec.toml").write_text("# stub\n")
+        (tmp_path / "inst" / "spec.toml").write_text(
+            'kind = "spectrograph"\nname = "TestSpec"\nprecision_ref_ms = 2.0\nvmag_ref = 10.0\n'
+            'exposure_ref_s = 900\nfloor_ms = 1.0\noverhead_min = 5\n')
     return p
 
 
@@ -203,3 +205,14 @@ def test_airmass_to_altitude():
 def test_site_is_a_plain_value():
     s = Site(name="x", latitude_deg=1.0, longitude_deg=2.0, elevation_m=3.0, timezone="UTC")
     assert s.constraints.twilight == "astronomical" and s.instruments == ()
+
+
+def test_check_site_also_validates_instrument_files(tmp_path):
+    p = write(tmp_path, GOOD)
+    (tmp_path / "inst" / "spec.toml").write_text('kind = "telescope"\nname = "x"\n')
+    probs = check_site(p)
+    assert len(probs) == 1 and "spec.toml" in probs[0] and "kind" in probs[0]
+
+
+def test_demo_site_and_its_instruments_are_valid():
+    assert check_site(DEMO) == []

@@ -410,6 +410,23 @@ def check_site(path, *, check_files: bool = True) -> list[str]:
     """Problems in a site file as sentences naming the file and key; empty list if it is valid."""
     path = Path(path)
     doc, problems = _read(path)
+    site = None
     if not problems:
-        _, problems = _validate(doc, path.parent, check_files, path)
-    return [f"{path}: {p}" for p in problems]
+        site, problems = _validate(doc, path.parent, check_files, path)
+    out = [f"{path}: {p}" for p in problems]
+    if site is not None and check_files and site.instruments:
+        out.extend(_instrument_problems(site.instruments))
+    return out
+
+
+def _instrument_problems(paths) -> list[str]:
+    """Problems of the instrument files themselves (via ``rhofollow.io.instruments``, if present)."""
+    try:
+        from rhofollow.io.instruments import read_instruments
+    except ImportError:     # the instrument loader is optional for site checks
+        return []
+    try:
+        read_instruments(paths)
+    except ValueError as exc:   # InstrumentError names the instrument file and key
+        return [str(exc)]
+    return []
