@@ -115,3 +115,44 @@ def test_tables_and_ical():
     ics = to_ical(plan).decode()
     n_items = sum(len(t["occultation_windows"]) + len(t["rv_visits"]) for t in plan.targets)
     assert ics.count("BEGIN:VEVENT") == n_items and "HTS-101 occultation" in ics
+
+
+# ---------------------------------------------------------------- the command
+
+def test_campaign_command(tmp_path, capsys):
+    import json
+
+    from rhofollow.cli import main
+
+    lines = [ln for ln in open("examples/hts_candidates.csv", encoding="utf-8") if not ln.startswith("#")]
+    cat = tmp_path / "cat.csv"
+    cat.write_text(lines[0] + lines[15] + lines[19], encoding="utf-8")
+    out, ics = tmp_path / "camp.json", tmp_path / "camp.ics"
+    rc = main(["campaign", str(cat), "--site", "site_configs/alto_quemado.toml", "--start", "2026-12-10",
+               "--end", "2026-12-13", "--samples", "300", "--json", str(out), "--ics", str(ics),
+               "--table", "csv"])
+    assert rc == 0
+    printed = capsys.readouterr().out
+    rows = list(csv.reader(io.StringIO(printed)))
+    assert rows[0][0] == "Target" and rows[-1][0] == "Total"
+    d = json.loads(out.read_text())
+    assert [t["name"] for t in d["targets"]] == ["HTS-115", "HTS-119"]
+    assert set(d["hours_total"]) == {"AQ-CAM", "AQ-VEL"} and d["cautions"]
+    for t in d["targets"]:
+        assert {"name", "occultation_windows", "rv_visits", "hours"} <= set(t)
+        assert len({v["night"] for v in t["rv_visits"]}) == len(t["rv_visits"]) <= 4
+        for v in t["rv_visits"]:
+            assert "2026-12-10" <= v["night"] <= "2026-12-13"
+    n_items = sum(len(t["occultation_windows"]) + len(t["rv_visits"]) for t in d["targets"])
+    assert ics.read_text().count("BEGIN:VEVENT") == n_items > 0
+
+
+def test_campaign_command_bad_dates(capsys):
+    from rhofollow.cli import main
+
+    assert main(["campaign", "x.csv", "--site", "site_configs/alto_quemado.toml", "--start", "2026-12-10",
+                 "--end", "2026-12-01"]) == 2
+    assert "before --start" in capsys.readouterr().err
+    assert main(["campaign", "x.csv", "--site", "site_configs/alto_quemado.toml", "--start", "2026-01-01",
+                 "--end", "2027-06-01"]) == 2
+    assert "at most" in capsys.readouterr().err

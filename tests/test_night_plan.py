@@ -154,3 +154,45 @@ def test_every_block_observable_astropy(real_plan):
         assert np.all(ok), b
         # the reported airmass bound holds too (sec z from astropy)
         assert np.max(alt.secz.value) <= b["airmass_max"] + 0.01
+
+
+# ---------------------------------------------------------------- the command
+
+def _small_catalogue(tmp_path, rows=(1, 3)):
+    lines = [ln for ln in open("examples/hts_candidates.csv", encoding="utf-8") if not ln.startswith("#")]
+    path = tmp_path / "cat.csv"
+    path.write_text("".join([lines[0]] + [lines[i] for i in rows]), encoding="utf-8")
+    return path
+
+
+def test_night_command_json_and_plot(tmp_path):
+    import json
+
+    from rhofollow.cli import main
+
+    cat = _small_catalogue(tmp_path, rows=(15, 19))  # HTS-115 and HTS-119: RV visits that night
+    out, png = tmp_path / "night.json", tmp_path / "night.png"
+    rc = main(["night", str(cat), "--site", SITE, "--date", "2026-12-10", "--samples", "300",
+               "--seed", "3", "--json", str(out), "--plot", str(png)])
+    assert rc == 0
+    d = json.loads(out.read_text())
+    assert d["site"] == "Alto Quemado Observatory" and d["date"] == "2026-12-10"
+    assert d["night_start_utc"] < d["night_end_utc"]
+    assert {"blocks", "skipped", "cautions"} <= set(d)
+    for b in d["blocks"]:
+        assert {"name", "kind", "start_utc", "end_utc", "value", "airmass_max"} <= set(b)
+        assert d["night_start_utc"] <= b["start_utc"] < b["end_utc"] <= d["night_end_utc"]
+    assert {b["name"] for b in d["blocks"]} | {s["name"] for s in d["skipped"]} == {"HTS-115", "HTS-119"}
+    assert png.stat().st_size > 10_000 and png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_night_command_errors(tmp_path, capsys):
+    from rhofollow.cli import main
+
+    cat = _small_catalogue(tmp_path)
+    assert main(["night", str(cat), "--site", SITE, "--date", "2026-13-01"]) == 2
+    assert "--date must be YYYY-MM-DD" in capsys.readouterr().err
+    assert main(["night", str(cat), "--site", str(tmp_path / "none.toml"), "--date", "2026-12-10"]) == 2
+    assert main(["night", str(tmp_path / "none.csv"), "--site", SITE, "--date", "2026-12-10",
+                 "--samples", "300"]) == 2
+    assert "catalogue file not found" in capsys.readouterr().err
