@@ -85,3 +85,16 @@ def test_depth_properties(teff, a_rs, lam_c):
 def test_band_outside_range_refused(c, w):
     with pytest.raises(ValueError, match="micron"):
         tophat_band(c, w)
+
+
+def test_fast_band_ratio_matches_direct():
+    # The grid-interpolated band integral equals the direct one (self-consistency, no source).
+    from rhofollow.physics.thermal import band_flux_ratio_fast
+
+    rng = np.random.default_rng(11)
+    tp = rng.uniform(300.0, 3000.0, 5000)
+    ts = np.full(5000, 5600.0)
+    for c, w in [(0.6, 0.2), (2.15, 0.32), (4.5, 1.0), (15.0, 5.0)]:
+        lam, resp = tophat_band(c, w)
+        np.testing.assert_allclose(band_flux_ratio_fast(tp, ts, lam, resp),
+                                   band_flux_ratio(tp, ts, lam, resp), rtol=1e-5)

@@ -108,12 +108,14 @@ def _check_filter(curve) -> tuple:
     return lam, resp
 
 
-def bjd_tdb_to_utc(bjd_tdb, ra_deg, dec_deg, location=None):
+def bjd_tdb_to_utc(bjd_tdb, ra_deg, dec_deg, location=None, as_iso=True):
     """Convert barycentric BJD_TDB event times to UTC at the observer.
 
-    Solves t_obs + ltt(t_obs) = BJD_TDB for the observer's time (two fixed-point steps, the
-    barycentric correction ltt from astropy's ``Time.light_travel_time``), then converts TDB to
-    UTC. Runs offline: IERS auto-download is off; stale or missing Earth-orientation data and
+    Solves t_obs + ltt(t_obs) = BJD_TDB for the observer's time (two fixed-point steps). The
+    barycentric correction ltt is the geometry of astropy's ``Time.light_travel_time``
+    (astropy's barycentric Earth position plus the site's GCRS position, projected on the
+    target direction, over c), evaluated without frame objects for speed and tested against
+    it. Then TDB is converted to UTC. Runs offline: IERS auto-download is off; stale or missing Earth-orientation data and
     dubious-year leap-second lookups (dates beyond the installed tables) are not fatal (they
     change the result by microseconds) and are summarised in one notice.
 
@@ -125,11 +127,12 @@ def bjd_tdb_to_utc(bjd_tdb, ra_deg, dec_deg, location=None):
     Returns
     -------
     (iso_utc, notice) : ndarray of ISO 8601 strings ("YYYY-MM-DDTHH:MM:SSZ") and a notice
-    string (empty when nothing was degraded).
+    string (empty when nothing was degraded). With ``as_iso=False`` the first item is the
+    observer's time as a float JD in TDB instead.
     """
     import astropy.units as u
-    from astropy.coordinates import EarthLocation, SkyCoord
-    from astropy.time import Time, TimeDelta
+    from astropy.coordinates import get_body_barycentric
+    from astropy.time import Time
     from astropy.utils import iers
 
     bjd, ra, dec = np.broadcast_arrays(np.asarray(bjd_tdb, dtype=float),
@@ -137,26 +140,37 @@ def bjd_tdb_to_utc(bjd_tdb, ra_deg, dec_deg, location=None):
                                        np.asarray(dec_deg, dtype=float))
     if bjd.size == 0:
         return np.array([], dtype=str), ""
-    if location is None:
-        location = EarthLocation.from_geocentric(0.0, 0.0, 0.0, unit=u.m)
+    ra_r, dec_r = np.radians(ra.ravel()), np.radians(dec.ravel())
+    n_hat = np.array([np.cos(dec_r) * np.cos(ra_r), np.cos(dec_r) * np.sin(ra_r), np.sin(dec_r)])
+    c_km_d = 299792.458 * 86400.0
     with iers.conf.set_temp("auto_download", False), \
             iers.conf.set_temp("auto_max_age", None), \
             iers.conf.set_temp("iers_degraded_accuracy", "warn"), \
             warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        coord = SkyCoord(ra.ravel() * u.deg, dec.ravel() * u.deg)
-        bary = Time(bjd.ravel(), format="jd", scale="tdb")
-        t_obs = Time(bjd.ravel(), format="jd", scale="tdb", location=location)
+        bary = bjd.ravel()
+        t_obs = bary.copy()
         for _ in range(2):
-            ltt = t_obs.light_travel_time(coord, kind="barycentric")
-            t_obs = Time(bary - TimeDelta(ltt), location=location)
-        iso = np.char.add(t_obs.utc.strftime("%Y-%m-%dT%H:%M:%S").astype(str), "Z")
-    notice = ""
-    if caught:
-        notice = ("some times lie beyond the installed Earth-orientation or leap-second tables "
-                  "(no download attempted); UTC is extrapolated and may be off by a leap second")
-    return iso.reshape(bjd.shape), notice
+            # Same geometry as astropy's Time.light_travel_time(kind="barycentric"): the
+            # observer's barycentric position (Earth + site in GCRS axes) projected on the
+            # target direction, divided by c. Done without frame objects for speed.
+            t = Time(t_obs, format="jd", scale="tdb")
+            pos = get_body_barycentric("earth", t).xyz.to_value(u.km)
+            if location is not None:
+                pos = pos + location.get_gcrs_posvel(t)[0].xyz.to_value(u.km)
+            t_obs = bary - np.sum(pos * n_hat, axis=0) / c_km_d
+        if not as_iso:
+            return t_obs.reshape(bjd.shape), _notice(caught)
+        t_utc = Time(t_obs, format="jd", scale="tdb").utc
+        iso = np.char.add(t_utc.strftime("%Y-%m-%dT%H:%M:%S").astype(str), "Z")
+    return iso.reshape(bjd.shape), _notice(caught)
 
+
+def _notice(caught) -> str:
+    if not caught:
+        return ""
+    return ("some times lie beyond the installed Earth-orientation or leap-second tables "
+            "(no download attempted); UTC is extrapolated and may be off by a leap second")
 
 def _as_items(items):
     """Normalise assessments / SampleSets to (name, ok, errors, warnings, samples, target)."""

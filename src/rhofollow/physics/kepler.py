@@ -37,7 +37,7 @@ E_MAX = 0.999
 RESIDUAL_TOL = 1e-12
 
 _TWO_PI = 2.0 * np.pi
-_CHUNK = 1 << 15  # elements per block: the temporaries of one block stay in the CPU cache
+_CHUNK = 1 << 14  # elements per block: the temporaries of one block stay in the CPU cache
 
 
 class KeplerConvergenceError(ArithmeticError):
