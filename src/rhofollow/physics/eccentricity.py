@@ -129,13 +129,42 @@ class StarPool:
         mu, lo, hi = self._fit()
         return split_normal_logpdf(ln_rho, mu, lo, hi)
 
-    def at_density(self, rho):
-        """Mass, radius and Teff for given densities: the nearest draw's mass and Teff, the radius
-        that makes the density exact (R = (M / rho)^(1/3) in solar units)."""
-        i = np.clip(np.searchsorted(self.rho, rho), 0, len(self.rho) - 1)
-        mstar = self.mstar[i]
+    def _bins(self):
+        if not hasattr(self, "_b"):
+            ln = np.log(self.rho)
+            nb = 48
+            lo, hi = ln[0], ln[-1] + 1e-9
+            idx = np.minimum(((ln - lo) / (hi - lo) * nb).astype(int), nb - 1)
+            cnt = np.maximum(np.bincount(idx, minlength=nb), 1)
+            lnm = np.log(self.mstar)
+            mean_m = np.bincount(idx, weights=lnm, minlength=nb) / cnt
+            sd_m = np.sqrt(np.maximum(np.bincount(idx, weights=lnm**2, minlength=nb) / cnt - mean_m**2, 0))
+            tf = np.nan_to_num(self.teff, nan=0.0)
+            mean_t = np.bincount(idx, weights=tf, minlength=nb) / cnt
+            empty = np.bincount(idx, minlength=nb) == 0
+            for arr in (mean_m, sd_m, mean_t):  # empty bins borrow the nearest filled bin
+                filled = np.flatnonzero(~empty)
+                arr[empty] = arr[filled[np.abs(filled[:, None] - np.flatnonzero(empty)[None, :]).argmin(0)]] \
+                    if empty.any() else arr[empty]
+            self._b = (lo, (hi - lo) / nb, nb, mean_m, sd_m, mean_t, bool(np.isnan(self.teff).all()))
+        return self._b
+
+    def at_density(self, rho, rng=None):
+        """Mass, radius and Teff for given densities (g/cm^3).
+
+        The mass follows the star's joint draws: its log-mean and spread in the density bin of each
+        sample (48 bins over the pool's range; O(1) per sample). The radius then makes the density
+        exact: R = (M / (rho/rho_sun))^(1/3) in solar units.
+        """
+        lo, width, nb, mean_m, sd_m, mean_t, no_teff = self._bins()
+        i = np.clip(((np.log(rho) - lo) / width).astype(int), 0, nb - 1)
+        lnm = mean_m[i]
+        if rng is not None:
+            lnm = lnm + sd_m[i] * rng.standard_normal(len(i))
+        mstar = np.exp(lnm)
         rstar = np.cbrt(mstar / (rho / RHO_SUN_CGS))
-        return mstar, rstar, self.teff[i]
+        teff = np.full(len(i), np.nan) if no_teff else mean_t[i]
+        return mstar, rstar, teff
 
 
 @dataclass
@@ -346,7 +375,7 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
         rho = np.exp(ln_rho)
         if from_star:
             log_q_rho = log_p_rho  # drawn from the star: prior and proposal cancel
-        mstar, rstar, teff = host.at_density(rho)
+        mstar, rstar, teff = host.at_density(rho, rng_)
         ll = _log_like_transit(obs, rho, period, k_true, b, e, w, dilution)
         log_w = ll + log_prior + log_p_rho - log_q_rho + log_pq_b
         a_rs = ars_from_rho(rho, period)

@@ -60,8 +60,24 @@ class EccPrior:
     description: str = ""
 
     def ppf(self, u):
-        """Eccentricity at prior quantile u in [0, 1] (vectorised inverse CDF)."""
-        return np.interp(u, self.cdf, self.e_grid)
+        """Eccentricity at prior quantile u in [0, 1] (vectorised inverse CDF).
+
+        Uses a table of e on a uniform grid of u (built once), so each call is arithmetic indexing and
+        a linear interpolation, with no search.
+        """
+        table = self._ppf_table()
+        n = len(table) - 1
+        x = np.clip(np.asarray(u, dtype=float), 0.0, 1.0) * n
+        i = np.minimum(x.astype(int), n - 1)
+        f = x - i
+        return table[i] * (1 - f) + table[i + 1] * f
+
+    def _ppf_table(self):
+        t = self.__dict__.get("_table")
+        if t is None:
+            t = np.interp(np.linspace(0, 1, 65537), self.cdf, self.e_grid)
+            object.__setattr__(self, "_table", t)
+        return t
 
     def mean(self) -> float:
         pdf_mass = np.diff(self.cdf)
