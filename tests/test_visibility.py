@@ -363,3 +363,38 @@ def test_bad_inputs_raise_value_errors():
         eng.night("2027-13-01")
     with pytest.raises(ValueError):
         VisibilityEngine(demo_site(), step_minutes=0)
+
+
+def test_no_network_is_touched(monkeypatch):
+    import socket
+
+    def refuse(*a, **k):
+        raise AssertionError("network access attempted")
+
+    monkeypatch.setattr(socket.socket, "connect", refuse)
+    monkeypatch.setattr(socket, "create_connection", refuse)
+    eng = VisibilityEngine(demo_site())
+    offline.reset_notice()
+    far = jd_to_datetime_utc(offline.iers_table_end_jd() + 100).date()
+    with pytest.warns(offline.OfflineTablesWarning):
+        g = eng.night(far)
+    assert g.kind == "normal"
+    assert eng.observable_mask([30.0], [-40.0], g.times_jd).shape == (1, g.times_jd.size)
+    offline.reset_notice()
+
+
+def test_nights_link_across_a_daylight_saving_change():
+    # America/Santiago leaves summer time in early April (IANA tzdata); noon-to-noon windows
+    # must still tile the time line, one of them 25 h long (common practice, no source)
+    eng = engine()
+    nights = eng.nights("2027-03-28", "2027-04-12")
+    lengths = [round((g.next_noon_jd - g.noon_jd) * 24, 6) for g in nights]
+    assert all(a.next_noon_jd == b.noon_jd for a, b in zip(nights, nights[1:]))
+    assert lengths.count(25.0) == 1 and lengths.count(24.0) == len(nights) - 1
+    for g in nights:
+        noon = eng.local_time(g.noon_jd)
+        assert abs(noon - noon.replace(hour=12, minute=0, second=0, microsecond=0)) < dt.timedelta(milliseconds=1)
+    # a time exactly at local noon belongs to the night that starts that evening
+    assert eng.sun_altitude([nights[3].noon_jd]).shape == (1,)
+    assert eng._night_date_of(nights[3].noon_jd) == nights[3].date
+    assert eng._night_date_of(nights[3].noon_jd - 1e-6) == nights[2].date

@@ -398,9 +398,8 @@ class VisibilityEngine:
     # ------------------------------------------------------------------ internals
     def _night_date_of(self, jd: float) -> _dt.date:
         """Local date D such that local noon of D <= jd < local noon of D+1."""
-        local = self.local_time(jd)
-        d = local.date()
-        if local.hour < 12:
+        d = self.local_time(jd).date()
+        if jd < self._noon_jd(d):     # compare JDs, not rounded clock readings
             d -= _dt.timedelta(days=1)
         return d
 
@@ -438,6 +437,7 @@ class VisibilityEngine:
         d0 = self._night_date_of(float(t.min()))
         d1 = self._night_date_of(float(t.max()))
         dates = [d0 + _dt.timedelta(days=i) for i in range((d1 - d0).days + 1)]
+        done = 0
         for i in range(0, len(dates), self.cache_nights):
             chunk = dates[i:i + self.cache_nights]
             ephs = self._ephems(chunk)
@@ -446,7 +446,10 @@ class VisibilityEngine:
             for j, e in enumerate(ephs):
                 idx = np.flatnonzero(k == j)
                 if idx.size:
+                    done += idx.size
                     yield e, idx
+        if done != t.size:   # every time must belong to exactly one night
+            raise RuntimeError(f"internal error: {t.size - done} times not assigned to a night")
 
     def _targets_cirs(self, ra_deg, dec_deg, e: _NightEphem):
         import erfa
