@@ -76,53 +76,91 @@ def sorted_weighted_quantiles(xs, ws, q):
     return out if np.ndim(q) else float(out[0])
 
 
-def shortest_interval(xs, ws, prob, cw=None):
+class _WeightState:
+    """Everything about sorted weights that does not depend on the sample values.
+
+    Between epochs the sample order usually does not change (only the period spread moves
+    samples past each other), so cumulative weights, the CDF, the ESS and the candidate
+    (left, right) index pairs of the shortest interval are computed once and reused.
+    """
+
+    def __init__(self, ws, prob):
+        ws = np.asarray(ws, dtype=float)
+        self.ws = ws
+        self.cw, self.cdf = _cdf(ws)
+        self.cw0 = np.concatenate(([0.0], self.cw))
+        self.ess = 1.0 / np.sum((ws / np.sum(ws)) ** 2)
+        before = self.cw - ws / np.sum(ws)
+        n_left = int(np.searchsorted(before, 1.0 - prob, side="right"))
+        i = np.arange(max(n_left, 1))
+        j = np.searchsorted(self.cw, before[i] + prob * (1.0 - 1e-12), side="left")
+        valid = j < ws.size
+        self.i, self.j = i[valid], j[valid]
+        # Interpolation positions of the fixed probability levels used on every epoch.
+        self.q_idx, self.q_t = self._interp_pos(np.concatenate((QUANTILE_PROBS, [0.0005, 0.9995])))
+
+    def _interp_pos(self, q):
+        cdf = self.cdf
+        n = cdf.size
+        if n == 1:
+            return np.zeros(q.size, dtype=int), np.zeros(q.size)
+        j = np.clip(np.searchsorted(cdf, q, side="right"), 1, n - 1)
+        c0, c1 = cdf[j - 1], cdf[j]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            t = np.clip(np.where(c1 > c0, (q - c0) / (c1 - c0), 0.0), 0.0, 1.0)
+        t = np.where(q <= cdf[0], 0.0, t)
+        j = np.where(q <= cdf[0], 1, j)
+        t = np.where(q >= cdf[-1], 1.0, t)
+        j = np.where(q >= cdf[-1], n - 1, j)
+        return j, t
+
+    def levels(self, xs):
+        """Values at QUANTILE_PROBS followed by the 0.05 % and 99.95 % quantiles."""
+        if xs.size == 1:
+            return np.full(self.q_idx.size, xs[0])
+        j, t = self.q_idx, self.q_t
+        return xs[j - 1] + t * (xs[j] - xs[j - 1])
+
+    def shortest(self, xs):
+        if self.i.size == 0:
+            return float(xs[0]), float(xs[-1])
+        k = np.argmin(xs[self.j] - xs[self.i])
+        return float(xs[self.i[k]]), float(xs[self.j[k]])
+
+
+def shortest_interval(xs, ws, prob):
     """Shortest interval [lo, hi] of sorted weighted samples holding at least ``prob`` mass.
 
     Exact over the sample set: every sample that can be a left edge (mass below it at most
     1 - prob) is tried; the matching right edge is found by binary search on the cumulative
-    weights. ``cw`` (normalised cumulative weights) may be passed to avoid recomputing it.
+    weights.
     """
-    if cw is None:
-        cw, _ = _cdf(np.asarray(ws, dtype=float))
-    before = cw - ws / np.sum(ws)
-    n_left = int(np.searchsorted(before, 1.0 - prob, side="right"))
-    i = np.arange(max(n_left, 1))
-    j = np.searchsorted(cw, before[i] + prob * (1.0 - 1e-12), side="left")
-    valid = j < xs.size
-    if not valid.any():
-        return float(xs[0]), float(xs[-1])
-    i = i[valid]
-    j = j[valid]
-    k = np.argmin(xs[j] - xs[i])
-    return float(xs[i[k]]), float(xs[j[k]])
+    return _WeightState(ws, prob).shortest(np.asarray(xs, dtype=float))
 
 
-def credible_region(xs, ws, prob, n_bins=200, merge_gap=0.0, min_gain=0.1):
+def credible_region(xs, ws, prob, n_bins=200, merge_gap=0.0, min_gain=0.1, _state=None):
     """Credible region of sorted weighted samples as a list of disjoint (lo, hi) intervals.
 
     The region is the highest-density set holding at least ``prob`` of the mass, from a
-    histogram between the 0.05 % and 99.95 % quantiles with at most ``n_bins`` bins and about 30
-    effective samples per bin (Kish ESS / 30, at least 8 bins), so that sampling noise does not
-    split the region; pieces closer than ``merge_gap`` or two bin widths are joined. When that gives one piece, or the union is not at least
-    ``min_gain`` (fraction) shorter than the shortest single interval, the exact shortest single
-    interval is returned instead (one piece). Two-humped distributions thus get two windows.
+    histogram between the 0.05 % and 99.95 % quantiles with at most ``n_bins`` bins and about
+    30 effective samples per bin (Kish ESS / 30, at least 8 bins), so that sampling noise does
+    not split the region; pieces closer than ``merge_gap`` or two bin widths are joined. When
+    that gives one piece, or the union is not at least ``min_gain`` (fraction) shorter than the
+    shortest single interval, the exact shortest single interval is returned instead (one
+    piece). Two-humped distributions thus get two windows.
     """
     xs = np.asarray(xs, dtype=float)
-    ws = np.asarray(ws, dtype=float)
-    cw, cdf = _cdf(ws)
-    lo1, hi1 = shortest_interval(xs, ws, prob, cw=cw)
+    st = _state if _state is not None else _WeightState(ws, prob)
+    lo1, hi1 = st.shortest(xs)
     if hi1 <= lo1:
         return [(lo1, hi1)]
-    a, b = _interp_sorted([0.0005, 0.9995], cdf, xs)
+    a, b = st.levels(xs)[-2:]
     if not b > a:
         return [(lo1, hi1)]
-    ess = 1.0 / np.sum((ws / np.sum(ws)) ** 2)
-    n_bins = int(np.clip(ess / 30.0, 8, n_bins))
+    n_bins = int(np.clip(st.ess / 30.0, 8, n_bins))
     edges = np.linspace(a, b, n_bins + 1)
     merge_gap = max(merge_gap, 2.0 * (b - a) / n_bins)
-    cw0 = np.concatenate(([0.0], cw))
-    mass = np.diff(cw0[np.searchsorted(xs, edges, side="left")])
+    mass = np.diff(st.cw0[np.searchsorted(xs, edges, side="left")])
     order = np.argsort(-mass, kind="stable")
     cm = np.cumsum(mass[order])
     nsel = min(int(np.searchsorted(cm, prob, side="left")) + 1, n_bins)
@@ -220,19 +258,22 @@ def summarise_events(t_ref, period, weights, start, end, prob=0.9, pad=0.0, merg
     epochs = candidate_epochs(t_ref, period, start, end, pad)
     if epochs.size == 0:
         return out
-    perm = np.argsort(t_ref + epochs[0] * period, kind="stable")
+    order = np.argsort(t_ref + epochs[0] * period, kind="stable")
+    tr_s, p_s, w_s = t_ref[order], period[order], w[order]
+    state = None
     for n in epochs:
-        x = t_ref[perm] + n * period[perm]
-        o = np.argsort(x, kind="stable")
-        perm = perm[o]
-        xs = x[o]
-        ws = w[perm]
+        xs = tr_s + n * p_s
+        if state is None or np.any(xs[1:] < xs[:-1]):
+            o = np.argsort(xs, kind="stable")  # nearly sorted: close to linear time
+            tr_s, p_s, w_s, xs = tr_s[o], p_s[o], w_s[o], xs[o]
+            state = _WeightState(w_s, prob)
         if xs[-1] + pad < start or xs[0] - pad > end:
             continue
-        region = credible_region(xs, ws, prob, n_bins=n_bins, merge_gap=merge_gap)
+        region = credible_region(xs, w_s, prob, n_bins=n_bins, merge_gap=merge_gap,
+                                 _state=state)
         window = widen(region, pad)
         if window[-1][1] < start or window[0][0] > end:
             continue
-        q = sorted_weighted_quantiles(xs, ws, QUANTILE_PROBS)
+        q = state.levels(xs)[:QUANTILE_PROBS.size]
         out.append(EventSummary(epoch=int(n), quantiles=q, region=region, window=window))
     return out
