@@ -19,7 +19,8 @@ def _inc(e, w):
 
 
 # REFERENCE.md sec. 2.5: "computed from the exact numerical solution (Kepler orbit, sky separation
-# root-found at 1 +- k)", COMPUTED; Winn and Kipping columns from their formulas (value from memory).
+# root-found at 1 +- k)", COMPUTED; Winn and Kipping columns from their formulas (value from
+# memory).
 TABLE = [
     # e, omega, T14 exact, Winn, Kipping, T23 exact, T14 occ exact (hours)
     (0.0, 90, 4.04475, 4.04475, 4.04475, 3.24248, 4.04475),

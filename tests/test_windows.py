@@ -76,7 +76,8 @@ def test_events_in_range_and_epochs():
 
 
 @settings(max_examples=40, deadline=None)
-@given(st.floats(-500, 500), st.floats(0.3, 40), st.floats(0, 3), st.floats(0, 30), st.floats(0.1, 60))
+@given(st.floats(-500, 500), st.floats(0.3, 40), st.floats(0, 3), st.floats(0, 30),
+       st.floats(0.1, 60))
 def test_candidate_epochs_complete(t_c, p, spread, start, length):
     # Every epoch with some sample time inside the range is a candidate (brute force check).
     rng = np.random.default_rng(1)

@@ -115,9 +115,10 @@ def bjd_tdb_to_utc(bjd_tdb, ra_deg, dec_deg, location=None, as_iso=True):
     barycentric correction ltt is the geometry of astropy's ``Time.light_travel_time``
     (astropy's barycentric Earth position plus the site's GCRS position, projected on the
     target direction, over c), evaluated without frame objects for speed and tested against
-    it. Then TDB is converted to UTC. Runs offline: IERS auto-download is off; stale or missing Earth-orientation data and
-    dubious-year leap-second lookups (dates beyond the installed tables) are not fatal (they
-    change the result by microseconds) and are summarised in one notice.
+    it. Then TDB is converted to UTC. Runs offline: IERS auto-download is off; stale or missing
+    Earth-orientation data and dubious-year leap-second lookups (dates beyond the installed
+    tables) are not fatal (microseconds, or at most a future leap second) and are summarised
+    in one notice.
 
     Parameters
     ----------

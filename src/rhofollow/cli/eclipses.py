@@ -111,7 +111,7 @@ def events_table(result: dict) -> Table:
         tab.add_column(col, justify=just)
     for r in result["targets"]:
         if not r.get("ok"):
-            tab.add_row(r["name"], "—", "—", "—", "—", "—", "[red]not assessed (see errors)[/]")
+            tab.add_row(r["name"], *["—"] * 5, "[red]not assessed (see errors)[/]")
             continue
         evs = r.get("events", [])
         nxt = "—"

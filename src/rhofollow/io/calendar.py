@@ -43,7 +43,8 @@ def windows_to_ics(result: dict) -> bytes:
                 e.add("dtstamp", stamp)
                 e.add("dtstart", _dt(a))
                 e.add("dtend", _dt(b))
-                part = f" (part {j + 1} of {len(ev['window_utc'])})" if len(ev["window_utc"]) > 1 else ""
+                n_parts = len(ev["window_utc"])
+                part = f" (part {j + 1} of {n_parts})" if n_parts > 1 else ""
                 e.add("summary", f"{rec['name']} occultation window, epoch {ev['epoch']}{part}")
                 lines = [
                     f"Target: {rec['name']}",
