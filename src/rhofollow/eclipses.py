@@ -298,7 +298,12 @@ def predict_occultations(items, start, end, options: EclipseOptions | None = Non
     dict with ``targets`` (one record per item: ``name, ok, errors, warnings, p_occultation,
     occ_phase, occ_duration_h, depth_ppm, events``; quantile objects q025..q975; every event
     has ``epoch, mid_bjd_tdb, mid_utc, window_utc, window_bjd_tdb``), the range, the options
-    used, the caution text and ``notices`` (run-level messages).
+    used, the caution text and ``notices`` (run-level messages). ``occ_phase`` is the observed
+    transit-to-occultation time over the period (phase 0 = transit), light-travel delay
+    included; timing, duration and depth are conditional on the occultation happening
+    (probability ``p_occultation``). Extra keys: ``occ_offset_d``, ``occ_full_duration_h``,
+    ``b_occ``, ``light_travel_s``, ``window_pad_h``, ``n_samples``, ``ess`` and per event
+    ``region_bjd_tdb`` (the credible region before widening).
 
     Raises
     ------
