@@ -63,7 +63,7 @@ def test_night_exact_beats_greedy():
     exact = plan_night(_science(), _vis(names), **kw)
     greedy = plan_night(_science(), _vis(names), method="greedy", **kw)
     assert exact.schedule.method == "milp"
-    assert exact.schedule.value >= greedy.schedule.value - 1e-9
+    assert exact.schedule.value >= greedy.schedule.value * (1 - 1e-7)  # solver tolerance
 
 
 def test_night_respects_unobservable_time():

@@ -63,7 +63,8 @@ class NightPlan:
                 "night_end_utc": jd_to_iso(self.night_end_jd),
                 "blocks": self.blocks, "skipped": self.skipped,
                 "total_value": self.schedule.value, "method": self.schedule.method,
-                "solver_status": self.schedule.status, "overhead_h": self.overhead_h,
+                "solver_status": self.schedule.status, "solver_note": self.schedule.note,
+                "overhead_h": self.overhead_h,
                 "cautions": list(self.cautions)}
 
 

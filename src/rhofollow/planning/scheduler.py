@@ -12,8 +12,8 @@ Task model
   (an occultation window with its baselines). Value is a float.
 * :class:`FlexibleTask` — a block of length ``duration`` whose start may lie anywhere in one of
   the ``windows`` ``[(earliest, latest), ...]`` (an RV visit while the target is up). The start is
-  discretised on a grid of step ``step`` from each window's ``earliest`` (``latest`` is always a
-  candidate as well). ``value`` is a float or a vectorised function ``value(starts) -> values``
+  discretised on the common grid ``k * step`` (k integer; the planning layer puts 0 at the start
+  of the night). ``value`` is a float or a vectorised function ``value(starts) -> values``
   (the planning layer makes it depend on orbital phase).
 
 Consecutive blocks are separated by at least ``overhead`` (setup / slew). Folding the overhead into
@@ -29,7 +29,9 @@ Solvers
   :func:`scipy.optimize.milp` (HiGHS): one binary per (task, start) candidate, at most one start per
   task, and one clique constraint per distinct candidate start time (the intervals that contain a
   given time form a clique; for intervals, checking every left end point is enough, because two
-  half-open intervals intersect exactly when one contains the other's start).
+  half-open intervals intersect exactly when one contains the other's start). The LP relaxation
+  is solved first; when its optimum is integral it is returned (it is then the integer optimum),
+  otherwise HiGHS branch and cut runs.
 * :func:`solve_greedy` — baseline for tests and the benchmark only (highest value first).
 * :func:`solve_brute_force` — exhaustive search for tiny instances (tests only).
 
@@ -129,14 +131,18 @@ class FlexibleTask:
         object.__setattr__(self, "windows", wins)
 
     def starts(self) -> np.ndarray:
-        """Candidate start times: each window sampled from ``earliest`` every ``step``, plus ``latest``."""
+        """Candidate start times: the points ``k * step`` (k integer) inside each window.
+
+        All flexible tasks share this grid (origin 0), which keeps the number of distinct start
+        times, hence of clique constraints, small. A window holding no grid point contributes
+        its ``earliest``.
+        """
         out = []
         for a, b in self.windows:
-            n = int(np.floor((b - a) / self.step + EPS))
-            s = a + self.step * np.arange(n + 1)
-            if b - s[-1] > EPS:
-                s = np.append(s, b)
-            out.append(s)
+            k0 = int(np.ceil(a / self.step - EPS))
+            k1 = int(np.floor(b / self.step + EPS))
+            s = self.step * np.arange(k0, k1 + 1) if k1 >= k0 else np.array([a])
+            out.append(np.clip(s, a, b))
         if not out:
             return np.empty(0)
         return np.unique(np.concatenate(out))
@@ -185,6 +191,7 @@ class Schedule:
     method: str
     overhead: float
     status: str = "optimal"
+    note: str = ""
 
     @property
     def names(self) -> list:
@@ -398,12 +405,20 @@ def solve_milp(tasks: Sequence[Task], overhead: float = 0.0, horizon: tuple | No
     opts = {"mip_rel_gap": mip_rel_gap, "disp": False}
     if time_limit is not None:
         opts["time_limit"] = float(time_limit)
-    res = milp(c=-va, constraints=constraints, integrality=np.ones(n), bounds=(0, 1), options=opts)
+    # LP relaxation first: when its optimum is already integral it is the MILP optimum (the
+    # clique rows of an interval graph make this common), and the LP is much faster to solve.
+    lp_opts = {k: v for k, v in opts.items() if k != "mip_rel_gap"}
+    res = milp(c=-va, constraints=constraints, integrality=np.zeros(n), bounds=(0, 1), options=lp_opts)
+    note = "LP relaxation integral"
+    if not (res.x is not None and res.status == 0 and np.all(np.minimum(res.x, 1 - res.x) < 1e-7)):
+        note = "branch and cut"
+        res = milp(c=-va, constraints=constraints, integrality=np.ones(n), bounds=(0, 1), options=opts)
     if res.x is None:
-        raise ScheduleError(f"MILP solver failed: {res.message}")
+        raise ScheduleError(f"MILP solver found no schedule: {res.message}")
     status = "optimal" if res.status == 0 else ("time limit" if res.status == 1 else str(res.message))
     chosen = [cands[k] for k in np.nonzero(res.x > 0.5)[0]]
     sched = _to_schedule(tasks, chosen, "milp", overhead, status)
+    sched.note = note
     validate_schedule(sched, tasks, horizon)
     return sched
 
