@@ -398,3 +398,33 @@ def test_nights_link_across_a_daylight_saving_change():
     assert eng.sun_altitude([nights[3].noon_jd]).shape == (1,)
     assert eng._night_date_of(nights[3].noon_jd) == nights[3].date
     assert eng._night_date_of(nights[3].noon_jd - 1e-6) == nights[2].date
+
+
+def test_window_fraction_agrees_with_observable_mask():
+    # the per-window path and the targets x times path must apply the same constraints
+    eng = prop_engine()   # demo site: horizon mask, airmass, scaled Moon limit ignored when Moon down
+    ra, dec = random_targets(25, seed=31)
+    rng = np.random.default_rng(32)
+    starts = JD0 + 40 + rng.uniform(0, 3, ra.size)
+    windows = np.stack([starts, starts + 1 / 24], axis=1)
+    res = eng.window_observability(ra, dec, windows, step_minutes=5)
+    w = np.ones(13)
+    w[[0, -1]] = 0.5
+    for i in range(ra.size):
+        t = np.linspace(windows[i, 0], windows[i, 1], 13)
+        ok = eng.observable_mask([ra[i]], [dec[i]], t)[0]
+        assert res.fraction[i] == pytest.approx(np.sum(ok * w) / w.sum())
+        assert res.min_altitude_deg[i] == pytest.approx(eng.altitude([ra[i]], [dec[i]], t).min())
+    assert 0 < np.mean(res.fraction) < 1
+
+
+@settings(max_examples=30, deadline=None)
+@given(ra=st.floats(0, 360), dec=st.floats(-90, 90), start=st.floats(0, 200), hours=st.floats(0, 30))
+def test_property_window_fraction_bounds(ra, dec, start, hours):
+    # a fraction is in [0, 1]; a window that is not inside one night cannot be fully observable
+    eng = prop_engine()
+    t0 = JD0 + start
+    res = eng.window_observability([ra], [dec], [[t0, t0 + hours / 24]])
+    assert 0.0 <= res.fraction[0] <= 1.0
+    if hours > 14:   # longer than any night at latitude -30 (common practice, no source)
+        assert not res.in_one_night[0] and not res.fully_observable[0]

@@ -9,11 +9,13 @@ Times are plain floats: **JD in the UTC scale** everywhere in this module (input
 The heavy geometry is done with astropy/ERFA once per night on a coarse grid, and the rest is
 linear algebra:
 
-* Sun and Moon: apparent topocentric directions in the CIRS (celestial intermediate system, the
-  equator and CIO of date) every ``ephemeris_step_minutes`` (30 min) from ``astropy.coordinates
-  .get_body`` (geocentric, minus the site's GCRS position, rotated by ERFA ``c2i06a``), linearly
-  interpolated (the Moon's diurnal parallax makes a 30-min chord err by < 0.01 deg). The Moon's
-  illuminated fraction is (1 + cos i) / 2 with i the Sun-Moon-Earth phase angle.
+* Sun and Moon: apparent geocentric positions from ERFA (``moon98`` for the Moon every
+  ``ephemeris_step_minutes``, default 60; ``epv00`` for the Earth about every 6 h, with annual
+  aberration added to the Sun's direction), rotated once per night into the CIRS (celestial
+  intermediate system: equator and CIO of date) with ERFA ``c2i06a``, and linearly interpolated
+  in time. The site's geocentric position is subtracted at each requested time (exact diurnal
+  parallax, about 1 deg for the Moon). The Moon's illuminated fraction is (1 + cos i) / 2 with i
+  the Sun-Moon-Earth phase angle (as astroplan's ``moon_illumination``).
 * Targets: ICRS (ra, dec) -> CIRS once per night with ERFA ``apci13`` + ``atciq`` (precession,
   nutation, frame bias, annual aberration, light deflection), evaluated at the night's middle
   (the change over a night is < 0.1 arcsec).
@@ -189,7 +191,8 @@ class VisibilityEngine:
     sunset_altitude_deg : float
         Sun-centre altitude of sunset/sunrise (default -0.8333 deg; use 0 for astroplan's default).
     ephemeris_step_minutes : float
-        Coarse grid of the Sun and Moon positions (interpolated in between); <= 30 keeps 0.01 deg.
+        Coarse grid of the geocentric Moon (and Sun) positions, linearly interpolated in between;
+        at 60 min the Moon's direction is good to ~1 arcsec (the topocentric part is exact).
     cache_nights : int
         How many nights of coarse ephemeris to keep (least recently used are dropped).
 
