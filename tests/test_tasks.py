@@ -150,3 +150,32 @@ def test_rv_task_scales_with_remaining_epochs_and_skips():
 def test_visgrid_shape_check():
     with pytest.raises(ValueError, match="shape"):
         VisGrid(np.arange(3.0), ["a", "b"], np.ones((1, 3), bool), np.ones((1, 3)))
+
+
+def _long_event(mid_jd, sig_d, offset=0.0008):
+    """A 12-hour window around mid_jd (UTC) with mid-time quantiles of a normal of width sig_d."""
+    z = {"q025": -1.96, "q16": -1.0, "q50": 0.0, "q84": 1.0, "q975": 1.96}
+    w0, w1 = mid_jd - 0.25, mid_jd + 0.25
+    return {"epoch": 5, "window_utc": [[jd_to_iso(w0), jd_to_iso(w1)]],
+            "window_bjd_tdb": [[w0 + offset, w1 + offset]],
+            "mid_bjd_tdb": {k: mid_jd + offset + v * sig_d for k, v in z.items()}}
+
+
+def test_partial_block_for_window_longer_than_night():
+    vis = _vis()  # 8 h night from JD0
+    mid = JD0 + 4 / 24
+    rec = {"name": "HTS-101", "p_occultation": 1.0, "occ_duration_h": 2.0, "events": [_long_event(mid, 2 / 24)]}
+    model = ValueModel(baseline_h=0.0, partial_baseline_h=1.0)
+    tasks, skipped = occultation_tasks(rec, 1.0, vis, model)
+    assert not skipped and len(tasks) == 1
+    t = tasks[0]
+    assert t.name.endswith("partial") and t.meta["partial"]
+    assert (t.start, t.end) == (pytest.approx(0.0), pytest.approx(8.0))
+    # the mid-time must fall in [JD0 + 2 h, JD0 + 6 h]: +-1 sigma of the invented normal -> 0.68
+    assert t.meta["p_catch"] == pytest.approx(0.68, abs=1e-3)
+    expected = 0.68 * math.exp(-0.5 * 0.2) * (2.0 / 8.0)
+    assert t.value == pytest.approx(expected, rel=1e-3)
+    # a mid-time posterior far outside the night: nothing to catch, the window is skipped
+    rec["events"] = [_long_event(JD0 + 0.5, 1 / 24)]
+    tasks, skipped = occultation_tasks(rec, 1.0, vis, model)
+    assert tasks == [] and "does not fit inside the night" in skipped[0].reason

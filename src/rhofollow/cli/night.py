@@ -104,7 +104,8 @@ def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
         else:
             notices.append("the site lists no spectrograph: no RV visits planned")
     science, skipped = science_from_records(assessments, occ["targets"], rv)
-    model = ValueModel(baseline_h=0.0, lead_h=(phot.overhead_min / 60.0) if phot else 0.0)
+    model = ValueModel(baseline_h=0.0, lead_h=(phot.overhead_min / 60.0) if phot else 0.0,
+                       partial_baseline_h=phot.baseline_h if phot else 1.0)
     names = {"occultation": phot.name if phot else "photometer", "rv": spec.name if spec else "spectrograph"}
     return Prepared(site, VisibilityEngine(site), science, skipped,
                     (site.slew_minutes + site.setup_minutes) / 60.0, model, names, notices)
@@ -165,6 +166,8 @@ def run(args) -> int:
     for b in doc["blocks"]:
         if b["kind"] == "occultation":
             what = f"occultation E{b['epoch']} · {prep.instruments['occultation']}"
+            if b.get("partial"):
+                what += f" (part, {100 * b['p_catch']:.0f}% catch)"
         else:
             what = f"RV phase {b.get('phase', 0):.2f} · {prep.instruments['rv']}"
         tab.add_row(f"{_local(eng, b['start_jd'])}-{_local(eng, b['end_jd'])}",

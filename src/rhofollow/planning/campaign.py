@@ -132,7 +132,10 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
                     w = {"night": night.date, "epoch": t.meta["epoch"], "start_utc": jd_to_iso(j0),
                          "end_utc": jd_to_iso(j1), "window_utc": t.meta["window_utc"],
                          "baseline_h": t.meta["baseline_h"], "value": round(t.value, 6),
-                         "airmass_max": round(t.meta["airmass_max"], 4), "clash": False}
+                         "airmass_max": round(t.meta["airmass_max"], 4), "clash": False,
+                         "partial": bool(t.meta.get("partial", False))}
+                    if t.meta.get("partial"):
+                        w["p_catch"] = t.meta["p_catch"]
                     rec["occultation_windows"].append(w)
                     per_night.setdefault(ni, []).append((w, j0, j1, t.value))
                     occ_h += (j1 - j0) * 24.0 + overhead_h

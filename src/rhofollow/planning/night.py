@@ -140,6 +140,9 @@ def plan_night(science: list[dict], vis: VisGrid, *, site: str, night_start_jd: 
         if b.kind == "occultation":
             rec["epoch"] = b.meta.get("epoch")
             rec["window_utc"] = b.meta.get("window_utc")
+            if b.meta.get("partial"):
+                rec["partial"] = True
+                rec["p_catch"] = b.meta["p_catch"]
         elif "phase_of" in b.meta:
             rec["phase"] = round(b.meta["phase_of"](b.start), 4)
         blocks.append(rec)

@@ -24,6 +24,15 @@ block (``kappa`` = 0.5 by default: A = 1 at the zenith, 0.61 at airmass 2).
   normalised by the eclipse's own length: a tightly predicted occultation is worth more than
   the same event buried in a long window.
 
+  When the whole block does not fit in the night (or is not observable throughout), the longest
+  observable stretch ``[r0, r1]`` of the window is offered instead, with ``T_block = r1 - r0``
+  and one more factor, the chance of catching the complete occultation with baselines ``B'``:
+
+      p_catch = F(r1 - B' - T_occ/2) - F(r0 + L + B' + T_occ/2)
+
+  where ``F`` is the mid-time CDF interpolated linearly between the event's mid-time quantiles
+  (q025 ... q975, BJD_TDB); offered only if ``p_catch >= 0.1``.
+
 * RV visit (flexible task, start on a grid inside the target's visible slots):
 
       V_rv(t) = E * W(phi(t)) * A(X_max(t)) / N_rem
@@ -158,6 +167,11 @@ class ValueModel:
         the windows already include their baselines (as :mod:`rhofollow.eclipses` windows do).
     lead_h : float
         Instrument setup added before an occultation block (hours; the photometer's overhead).
+    partial_baseline_h : float
+        Baseline wanted on each side of the occultation itself when only part of a window can be
+        observed (hours).
+    min_catch : float
+        Smallest chance of catching the whole occultation for which a partial block is offered.
     step_h : float
         Spacing of candidate RV start times (hours).
     """
@@ -168,6 +182,8 @@ class ValueModel:
     phase_floor: float = 0.25
     baseline_h: float = 1.0
     lead_h: float = 0.0
+    partial_baseline_h: float = 1.0
+    min_catch: float = 0.1
     step_h: float = 1.0 / 6.0
 
 
@@ -259,13 +275,18 @@ def occultation_tasks(record: dict, evidence: float, vis: VisGrid,
             if j1 < lo or j0 > hi:
                 continue
             label = f"{name} occ E{ev.get('epoch', '?')}" + (f" w{k + 1}" if len(wins) > 1 else "")
-            if j0 < lo - 1e-9 or j1 > hi + 1e-9:
-                skipped.append(Skip(label, f"the {(j1 - j0) * 24:.1f} h block (window, baselines and setup) "
-                                           "does not fit inside the night"))
-                continue
-            frac = vis.fraction_observable(name, j0, j1)
-            if frac < 1.0:
-                skipped.append(Skip(label, f"window observable only {100 * frac:.0f}% of the time"))
+            fits = j0 >= lo - 1e-9 and j1 <= hi + 1e-9
+            frac = vis.fraction_observable(name, j0, j1) if fits else 0.0
+            if not fits or frac < 1.0:
+                why = (f"the {(j1 - j0) * 24:.1f} h block (window, baselines and setup) does not fit "
+                       "inside the night" if not fits else
+                       f"window observable only {100 * frac:.0f}% of the time")
+                part = _partial_task(record, ev, k, label, evidence, vis, model, t_occ, p_occ,
+                                     float(mass[k]), (w0, w1))
+                if part is None:
+                    skipped.append(Skip(label, why))
+                else:
+                    tasks.append(part)
                 continue
             xmax = float(vis.airmass_max(name, j0, j1))
             t_block = (j1 - j0) * 24.0
@@ -280,6 +301,67 @@ def occultation_tasks(record: dict, evidence: float, vis: VisGrid,
                                          "window_utc": [jd_to_iso(iso_to_jd(w0)), jd_to_iso(iso_to_jd(w1))],
                                          "baseline_h": model.baseline_h}))
     return tasks, skipped
+
+
+def _mid_cdf(ev: dict, x_bjd) -> np.ndarray:
+    """Piecewise-linear CDF of the event's mid-time from its quantiles (tails clamped)."""
+    q = ev.get("mid_bjd_tdb") or {}
+    keys = ["q025", "q16", "q50", "q84", "q975"]
+    xs = np.array([_num(q.get(k)) for k in keys])
+    if not np.all(np.isfinite(xs)) or np.any(np.diff(xs) < 0):
+        return np.full(np.shape(x_bjd), np.nan)
+    return np.interp(x_bjd, xs, [0.025, 0.16, 0.5, 0.84, 0.975], left=0.0, right=1.0)
+
+
+def _partial_task(record, ev, k, label, evidence, vis, model, t_occ, p_occ, mass, win):
+    """A block on the longest observable stretch of a window that does not fit whole, or None.
+
+    The chance of catching the whole occultation with baselines is the posterior probability that
+    the mid-time lies in ``[r0 + L + B + T/2, r1 - B - T/2]`` (stretch ``[r0, r1]``, setup ``L``,
+    baseline ``B`` = ``model.partial_baseline_h``, duration ``T``), read off the event's
+    mid-time quantiles. Offered only when that chance is at least ``model.min_catch``.
+    """
+    if not (np.isfinite(t_occ) and t_occ > 0) or not ev.get("window_bjd_tdb"):
+        return None
+    try:
+        offset = float(ev["window_bjd_tdb"][k][0]) - iso_to_jd(win[0])  # BJD_TDB - JD_UTC
+    except (IndexError, KeyError, TypeError, ValueError):
+        return None
+    w0, w1 = iso_to_jd(win[0]), iso_to_jd(win[1])
+    obs = vis.observable[vis.row(record["name"])]
+    inside = obs & (vis.t_jd >= w0 - 1e-9) & (vis.t_jd <= w1 + 1e-9)
+    best = None
+    for a, b in _runs(inside):
+        if best is None or b - a > best[1] - best[0]:
+            best = (a, b)
+    if best is None:
+        return None
+    r0, r1 = vis.t_jd[best[0]], vis.t_jd[best[1]]
+    need = (model.lead_h + 2 * model.partial_baseline_h + t_occ) / 24.0
+    if r1 - r0 < need:
+        return None
+    m_lo = r0 + (model.lead_h + model.partial_baseline_h + 0.5 * t_occ) / 24.0
+    m_hi = r1 - (model.partial_baseline_h + 0.5 * t_occ) / 24.0
+    p_catch = float(np.diff(_mid_cdf(ev, np.array([m_lo, m_hi]) + offset))[0])
+    if not (np.isfinite(p_catch) and p_catch >= model.min_catch):
+        return None
+    xmax = float(vis.airmass_max(record["name"], r0, r1))
+    eff = min(1.0, t_occ / ((r1 - r0) * 24.0))
+    value = p_occ * mass * p_catch * evidence * float(airmass_factor(xmax, model.kappa)) * eff
+    if not value > 0:
+        return None
+    return FixedTask(label + " partial", float(vis.hours(r0)), float(vis.hours(r1)), value,
+                     kind="occultation",
+                     meta={"target": record["name"], "epoch": ev.get("epoch"), "airmass_max": xmax,
+                           "window_utc": [jd_to_iso(w0), jd_to_iso(w1)], "baseline_h": model.partial_baseline_h,
+                           "p_catch": round(p_catch, 4), "partial": True})
+
+
+def _runs(mask):
+    """(first, last) index pairs of the True runs of a boolean array."""
+    m = np.concatenate([[False], np.asarray(mask, bool), [False]])
+    d = np.diff(m.astype(np.int8))
+    return list(zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1) - 1))
 
 
 def visible_windows(observable: np.ndarray, t_h: np.ndarray, duration_h: float) -> list[tuple]:
