@@ -70,18 +70,23 @@ def night_figure(engine, night, science: list[dict], plan: dict, max_targets: in
     order = list(dict.fromkeys(b["name"] for b in blocks))
     by_name = {s["name"]: s for s in science}
     shown = [n for n in order if n in by_name][:max_targets]
-    cmap = plt.get_cmap("tab10")
+    tab = plt.get_cmap("tab10")
+    palette = [tab(i) for i in (0, 1, 2, 3, 4, 5, 6, 8, 9)]  # no grey: the Moon is grey
+
+    def cmap(i):
+        return palette[i % len(palette)]
+
     if shown:
         ra = np.array([by_name[n]["ra_deg"] for n in shown])
         dec = np.array([by_name[n]["dec_deg"] for n in shown])
         alt = engine.altitude(ra, dec, t)
         for i, n in enumerate(shown):
-            ax.plot(x, alt[i], color=cmap(i % 10), lw=1.2, alpha=0.85, zorder=3, label=n)
+            ax.plot(x, alt[i], color=cmap(i), lw=1.2, alpha=0.85, zorder=3, label=n)
             for b in (b for b in blocks if b["name"] == n):
                 m = (t >= b["start_jd"]) & (t <= b["end_jd"])
-                ax.plot(x[m], alt[i][m], color=cmap(i % 10), lw=4.5, solid_capstyle="butt", zorder=4)
+                ax.plot(x[m], alt[i][m], color=cmap(i), lw=4.5, solid_capstyle="butt", zorder=4)
     # the blocks: a band in the target's colour along the top, labelled with target and kind
-    color_of = {n: cmap(i % 10) for i, n in enumerate(shown)}
+    color_of = {n: cmap(i) for i, n in enumerate(shown)}
     for b in blocks:
         xs, xe = (b["start_jd"] - jd_mid0) * 24.0, (b["end_jd"] - jd_mid0) * 24.0
         c = color_of.get(b["name"], "0.4")
