@@ -156,3 +156,17 @@ def test_campaign_command_bad_dates(capsys):
     assert main(["campaign", "x.csv", "--site", "site_configs/alto_quemado.toml", "--start", "2026-01-01",
                  "--end", "2027-06-01"]) == 2
     assert "at most" in capsys.readouterr().err
+
+
+def test_campaign_retimes_visits_that_want_the_same_time():
+    # two invented targets with identical ephemerides both want phase 0.2 on the same single night:
+    # the exact night schedule moves one of them instead of reporting a clash
+    rv = {"n_epochs_confirm_ecc": 1, "hours_confirm_ecc": 0.5, "best_phases": [0.2]}
+    sci = [science_entry(n, evidence=0.8, rv=rv, t0_bjd=JD0 - 1.0, period_d=2.5) for n in NAMES]
+    plan = plan_campaign(sci, _nights(1), site="x", overhead_h=0.1)
+    (a,), (b,) = (t["rv_visits"] for t in plan.targets)
+    assert not a["clash"] and not b["clash"]
+    (s0, e0), (s1, e1) = sorted([(iso_to_jd(a["start_utc"]), iso_to_jd(a["end_utc"])),
+                                 (iso_to_jd(b["start_utc"]), iso_to_jd(b["end_utc"]))])
+    assert s1 >= e0 + 0.1 / 24 - 2e-5
+    assert "_target" not in a and "_target" not in b

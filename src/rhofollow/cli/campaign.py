@@ -85,18 +85,22 @@ def run(args) -> int:
     else:
         insts = list(dict.fromkeys(plan.instruments.values()))
         tab = Table(title=f"{site.name}: campaign {start} to {end} ({len(nights)} nights with dark time)")
-        for col in ["target", "occultation windows", "RV visits"] + [f"{i} h" for i in insts] + ["notes"]:
-            tab.add_column(col, justify="left" if col in ("target", "notes") else "right")
+        for col in ["target", "occ. windows", "RV visits placed/needed"] + [f"{i} h" for i in insts] + ["clashes"]:
+            tab.add_column(col, justify="left" if col == "target" else "right")
         for t in doc["targets"]:
             clash = sum(x["clash"] for x in t["occultation_windows"] + t["rv_visits"])
-            notes = "; ".join(t["notes"] + ([f"{clash} clash with other targets"] if clash else []))
-            tab.add_row(t["name"], str(len(t["occultation_windows"])), str(len(t["rv_visits"])),
-                        *[f"{t['hours'].get(i, 0.0):.2f}" for i in insts], notes)
-        tab.add_row("total", "", "", *[f"{doc['hours_total'].get(i, 0.0):.2f}" for i in insts], "",
-                    style="bold")
+            need = t.get("rv_visits_needed")
+            rv = f"{len(t['rv_visits'])}/{need}" if need is not None else "no RV route"
+            tab.add_row(t["name"], str(len(t["occultation_windows"])), rv,
+                        *[f"{t['hours'].get(i, 0.0):.2f}" for i in insts], str(clash) if clash else "")
+        tab.add_row("total", str(sum(len(t["occultation_windows"]) for t in doc["targets"])),
+                    str(sum(len(t["rv_visits"]) for t in doc["targets"])),
+                    *[f"{doc['hours_total'].get(i, 0.0):.2f}" for i in insts], "", style="bold")
         con.print(tab)
         con.print(f"Hours include {prep.overhead_h * 60:.0f} min slew + setup per block and the "
-                  "instrument overheads. " + CAUTION, highlight=False)
+                  "instrument overheads. 'no RV route': the eccentricity cannot be confirmed with RVs "
+                  "from this instrument; clashes: items that cannot share their night with more valuable "
+                  "ones (details in --json). " + CAUTION, highlight=False)
     ec = err_console()
     for n in prep.notices:
         ec.print(f"[yellow]notice:[/] {n}", highlight=False)

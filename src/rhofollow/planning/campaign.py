@@ -13,9 +13,11 @@ RV visits are placed one per night: visit ``k`` of a target aims at informative 
 ``best_phases[k mod m]`` and takes the not yet used night whose best start (on the candidate grid
 inside the visible slots) has the highest value at that phase (value formula of
 :mod:`.tasks`). Hours per instrument are block lengths plus the per-block overhead
-(slew + setup); occultation blocks include their baselines. Finally each night's chosen items are
-checked together with the exact interval scheduler; items that cannot share the night with more
-valuable ones are flagged ``"clash": true`` (they stay in the list: the observer decides).
+(slew + setup); occultation blocks include their baselines. Finally each night's items are
+scheduled together with the exact scheduler (:func:`.scheduler.schedule`): RV visits may move
+inside their visible slots (valued at their target phase) to fit around each other and the
+occultation windows; items that still cannot share the night with more valuable ones are flagged
+``"clash": true`` (they stay in the list at their own best time: the observer decides).
 """
 from __future__ import annotations
 
@@ -26,7 +28,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .night import CAUTION
-from .scheduler import FixedTask, solve_fixed
+from .scheduler import FixedTask, FlexibleTask, schedule
 from .tasks import ValueModel, VisGrid, jd_to_iso, occultation_tasks, phase_weight, rv_task
 
 __all__ = ["NightVis", "CampaignPlan", "plan_campaign", "hours_table", "to_ical", "TABLE_FORMATS"]
@@ -88,7 +90,41 @@ def _rv_night_options(entry: dict, night: NightVis, model: ValueModel):
                    entry["t0_bjd"], entry["period_d"], entry.get("bjd_minus_jd", 0.0),
                    entry.get("n_done", 0), model)[0]
     base = flat.values_at(st)
-    return t, st, phases, base
+    return t, st, phases, base, flat
+
+
+def _resolve_night(night: NightVis, items: list, overhead_h: float, model: ValueModel) -> None:
+    """Schedule one night's chosen items exactly; update RV visit times, flag clashes (in place)."""
+    j_ref = night.vis.t_jd[0]
+    tasks = []
+    for k, (_item, j0, j1, val, fx) in enumerate(items):
+        if fx is None:
+            tasks.append(FixedTask(f"i{k}", (j0 - j_ref) * 24.0, (j1 - j_ref) * 24.0, max(val, 1e-12)))
+            continue
+        task, flat, tp = fx
+
+        def value(st, task=task, flat=flat, tp=tp):
+            st = np.asarray(st, dtype=float)
+            if tp is None:
+                return flat.values_at(st)
+            ph = np.array([task.meta["phase_of"](x) for x in st])
+            return flat.values_at(st) * phase_weight(ph, [tp], model.phase_sigma, model.phase_floor)
+
+        tasks.append(FlexibleTask(f"i{k}", task.duration, task.windows, value, step=task.step, kind="rv",
+                                  meta={"phase_of": task.meta["phase_of"]}))
+    horizon = (float(night.vis.hours(night.start_jd)), float(night.vis.hours(night.end_jd)))
+    sched = schedule(tasks, overhead=overhead_h, horizon=horizon)
+    chosen = {b.task: b for b in sched.blocks}
+    for k, (item, *_rest) in enumerate(items):
+        b = chosen.get(k)
+        item["clash"] = b is None
+        if b is not None and isinstance(tasks[k], FlexibleTask):
+            j0, j1 = j_ref + b.start / 24.0, j_ref + b.end / 24.0
+            name = item.get("_target")
+            item.update(start_utc=jd_to_iso(j0), end_utc=jd_to_iso(j1),
+                        phase=round(tasks[k].meta["phase_of"](b.start), 4), value=round(b.value, 6))
+            if name is not None:
+                item["airmass_max"] = round(float(night.vis.airmass_max(name, j0, j1)), 4)
 
 
 def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, overhead_h: float = 0.0,
@@ -116,7 +152,7 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
     for entry in science:
         name = entry["name"]
         rec = {"name": name, "ok": True, "occultation_windows": [], "rv_visits": [], "hours": {},
-               "n_windows_unobservable": 0, "notes": []}
+               "rv_visits_needed": None, "n_windows_unobservable": 0, "notes": []}
         occ_h = 0.0
         if entry.get("occultation"):
             for ni, night in enumerate(nights):
@@ -137,7 +173,7 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
                     if t.meta.get("partial"):
                         w["p_catch"] = t.meta["p_catch"]
                     rec["occultation_windows"].append(w)
-                    per_night.setdefault(ni, []).append((w, j0, j1, t.value))
+                    per_night.setdefault(ni, []).append((w, j0, j1, t.value, None))
                     occ_h += (j1 - j0) * 24.0 + overhead_h
         rv_h = 0.0
         rv = entry.get("rv")
@@ -147,6 +183,7 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
                 n_rem = int(np.ceil(max(0.0, float(n_need) - entry.get("n_done", 0))))
             except (TypeError, ValueError, OverflowError):
                 n_rem = -1
+            rec["rv_visits_needed"] = n_rem if n_rem >= 0 else None
             if n_rem < 0:
                 rec["notes"].append("eccentricity cannot be confirmed with RVs (no finite epoch count)")
             elif not entry["evidence"] > 0:
@@ -159,18 +196,18 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
                 for k in range(n_rem):
                     target_phase = best[k % len(best)]
                     pick = None
-                    for ni, (task, st, ph, base) in opts.items():
+                    for ni, (task, st, ph, base, flat) in opts.items():
                         if ni in used:
                             continue
                         w = base * (phase_weight(ph, [target_phase], model.phase_sigma, model.phase_floor)
                                     if target_phase is not None else 1.0)
                         j = int(np.argmax(w))
                         if pick is None or w[j] > pick[0] + 1e-12:
-                            pick = (float(w[j]), ni, float(st[j]), float(ph[j]), task)
+                            pick = (float(w[j]), ni, float(st[j]), float(ph[j]), task, flat)
                     if pick is None:
                         rec["notes"].append(f"only {k} of {n_rem} RV visits fit in the nights given")
                         break
-                    val, ni, s, ph, task = pick
+                    val, ni, s, ph, task, flat = pick
                     used.add(ni)
                     night = nights[ni]
                     j0 = night.vis.t_jd[0] + s / 24.0
@@ -178,9 +215,9 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
                     v = {"night": night.date, "start_utc": jd_to_iso(j0), "end_utc": jd_to_iso(j1),
                          "phase": round(ph, 4), "target_phase": target_phase, "value": round(val, 6),
                          "airmass_max": round(float(night.vis.airmass_max(name, j0, j1)), 4),
-                         "clash": False}
+                         "clash": False, "_target": name}
                     rec["rv_visits"].append(v)
-                    per_night.setdefault(ni, []).append((v, j0, j1, val))
+                    per_night.setdefault(ni, []).append((v, j0, j1, val, (task, flat, target_phase)))
                     rv_h += task.duration + overhead_h
                 rec["rv_visits"].sort(key=lambda x: x["start_utc"])
         if occ_h:
@@ -190,16 +227,17 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
         if not rec["occultation_windows"] and not rec["rv_visits"]:
             rec["notes"].append("nothing observable in the campaign")
         out.append(rec)
-    # nights where the items cannot all be done: flag the ones the exact scheduler drops
+    # each night's items together: the exact scheduler re-times the RV visits inside their slots
+    # so that they fit around each other and the occultation windows; what still cannot fit is
+    # flagged as a clash (kept at its own best time)
     for ni, items in per_night.items():
         if len(items) < 2:
             continue
-        j_ref = nights[ni].vis.t_jd[0]
-        tasks = [FixedTask(f"i{k}", (j0 - j_ref) * 24.0, (j1 - j_ref) * 24.0, max(val, 1e-12))
-                 for k, (_, j0, j1, val) in enumerate(items)]
-        kept = {b.task for b in solve_fixed(tasks, overhead_h).blocks}
-        for k, (item, *_rest) in enumerate(items):
-            item["clash"] = k not in kept
+        _resolve_night(nights[ni], items, overhead_h, model)
+    for rec in out:
+        for v in rec["rv_visits"]:
+            v.pop("_target", None)
+        rec["rv_visits"].sort(key=lambda x: x["start_utc"])
     return CampaignPlan(site, nights[0].date if nights else "", nights[-1].date if nights else "",
                         out, inst)
 
