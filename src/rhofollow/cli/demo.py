@@ -1,0 +1,38 @@
+"""``rhofollow demo``: ``rhofollow plan`` on the bundled demo scenario into ./rhofollow-report.
+
+The invented Heliotrope Transit Survey candidates (examples/hts_candidates.csv) at the invented Alto
+Quemado Observatory (site_configs/alto_quemado.toml), over the coming two months, with settings that
+keep the run short (8000 samples per target, 500 simulated RV tests).
+"""
+from __future__ import annotations
+
+import datetime as dt
+from pathlib import Path
+
+__all__ = ["register", "run"]
+
+
+def register(subparsers):
+    from .plan import add_plan_options
+
+    p = subparsers.add_parser(
+        "demo", help="run the whole chain on the bundled demo scenario into ./rhofollow-report",
+        description="The main job on invented demo data: assess the demo catalogue, predict occultations "
+        "and RV needs, plan the first night and the coming two months at the demo site, and write the "
+        "report folder (summary.html first).")
+    add_plan_options(p, demo=True)
+    p.set_defaults(func=run)
+
+
+def run(args) -> int:
+    from .common import err_console
+    from .plan import DEMO_DAYS, _print_summary, demo_paths, plan_to_folder
+
+    cat, site = demo_paths()
+    start = dt.date.today()
+    end = start + dt.timedelta(days=DEMO_DAYS)
+    err_console().print(f"Demo: {cat.name} at {site.name}, {start} to {end} (invented data).", highlight=False)
+    out = Path(args.out)
+    written = plan_to_folder(cat, site, start, end, out, args)
+    _print_summary(written, out)
+    return 0

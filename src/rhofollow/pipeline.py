@@ -1,0 +1,314 @@
+"""The whole chain in one call: catalogue targets -> assessment -> occultations -> RV -> night and
+campaign plans at the observer's site (library API, no printing, no file writing).
+
+:func:`run_stages` runs assess -> eclipses -> rv once for a UTC range and returns everything the
+planners need (:class:`Stages`); :func:`run_pipeline` adds the visibility of every night of a
+campaign, the nightly plan of the first night and the campaign plan (:class:`PipelineResult`).
+Every stage reports progress through one optional callback, so a command line can draw bars and a
+notebook can stay quiet.
+
+Each target's random draws depend on the run seed and the target name only, so the result is the
+same with one worker, a process pool or a dask cluster.
+"""
+from __future__ import annotations
+
+import datetime as _dt
+import time
+import warnings
+from dataclasses import dataclass, field
+from typing import Callable
+
+__all__ = ["PipelineOptions", "Stages", "PipelineResult", "run_stages", "run_pipeline", "StageProgress",
+           "PipelineError"]
+
+#: ``progress(stage_label, total)`` starts a stage and returns ``advance(k=1)``.
+StageProgress = Callable[[str, int], Callable[..., None]]
+
+
+class PipelineError(ValueError):
+    """A problem with the inputs of the chained run (message names the option or file)."""
+
+
+@dataclass
+class PipelineOptions:
+    """Options of the chained run.
+
+    samples : posterior samples per target; seed : run seed; ecc_prior : prior name or KIND:PARAMS;
+    transit_weight : weight the prior by the transit probability; workers : processes for the
+    assessment; dask_address : scheduler address of a dask.distributed cluster (overrides workers);
+    coverage : probability held by each occultation window; fap, power : the RV eccentricity test;
+    sims : simulated null data sets per RV test; rv_data : target name -> RVData (measured RVs).
+    """
+
+    samples: int = 8000
+    seed: int = 20261202
+    ecc_prior: str | None = None
+    transit_weight: bool = True
+    workers: int = 1
+    dask_address: str | None = None
+    coverage: float = 0.9
+    fap: float = 0.01
+    power: float = 0.8
+    sims: int = 2000
+    rv_data: dict | None = None
+
+
+@dataclass
+class Stages:
+    """assess -> eclipses -> rv outputs plus the planners' inputs.
+
+    assessments : list of :class:`rhofollow.assess.Assessment` (input order);
+    occultations : the dict of :func:`rhofollow.eclipses.predict_occultations`;
+    rv : list of RV records (:func:`rhofollow.rvplan.plan_rv`), empty without a spectrograph;
+    science, skipped : :func:`rhofollow.planning.night.science_from_records`;
+    instruments : ``{"occultation": name, "rv": name}``; overhead_h : slew + setup per block (h);
+    model : the planners' :class:`~rhofollow.planning.tasks.ValueModel`; notices : run-level messages;
+    prior : the eccentricity prior used (:class:`~rhofollow.physics.priors.EccPrior`).
+    """
+
+    assessments: list
+    occultations: dict
+    rv: list
+    science: list
+    skipped: list
+    instruments: dict
+    overhead_h: float
+    model: object
+    notices: list
+    prior: object
+    timings: dict = field(default_factory=dict)
+
+
+@dataclass
+class PipelineResult:
+    """Everything of a ``plan`` run: the stages, the engine, the nights and both plans.
+
+    night : the night JSON (``date`` added) or None when the first evening has no dark time;
+    night_grid : its :class:`~rhofollow.planning.visibility.NightGrid`;
+    campaign : the campaign JSON; campaign_plan : the :class:`~rhofollow.planning.campaign.CampaignPlan`;
+    nights : the campaign's NightGrids (dark nights only).
+    """
+
+    site: object
+    engine: object
+    stages: Stages
+    start: _dt.date
+    end: _dt.date
+    night: dict | None
+    night_grid: object
+    campaign: dict
+    campaign_plan: object
+    nights: list
+    options: PipelineOptions
+    timings: dict = field(default_factory=dict)
+
+    @property
+    def assessments(self):
+        """The per-target assessments."""
+        return self.stages.assessments
+
+    @property
+    def occultations(self) -> dict:
+        """The occultation predictions."""
+        return self.stages.occultations
+
+    @property
+    def rv(self) -> list:
+        """The RV records."""
+        return self.stages.rv
+
+
+def _quiet(label, total):
+    return lambda k=1: None
+
+
+def _instruments(site):
+    from .io.instruments import InstrumentError, Photometer, Spectrograph, read_instruments
+
+    try:
+        insts = read_instruments(site.instruments) if site.instruments else {}
+    except InstrumentError as exc:
+        raise PipelineError(str(exc)) from None
+    spec = next((i for i in insts.values() if isinstance(i, Spectrograph)), None)
+    phot = next((i for i in insts.values() if isinstance(i, Photometer)), None)
+    return spec, phot
+
+
+def _rv_chunk(args):
+    """Worker: RV records of one chunk of assessments (module level so it pickles)."""
+    from .rvplan import plan_rv
+
+    chunk, spec, rv_data, kw = args
+    return plan_rv(chunk, spec, rv_data, **kw)
+
+
+def _rv_records(assessments, spec, opts: PipelineOptions, kw: dict, advance) -> list:
+    """RV records in input order: in this process, a process pool or on the dask cluster.
+
+    Each target's RV draws depend on (seed, name, stage) only, so every mode gives the same records.
+    """
+    from .parallel import chunked
+    from .rvplan import plan_rv
+
+    workers = max(1, int(opts.workers or 1))
+    if not opts.dask_address and (workers <= 1 or len(assessments) < 2):
+        return plan_rv(assessments, spec, opts.rv_data, progress=advance, **kw)
+    size = max(1, -(-len(assessments) // (4 * workers)))
+    jobs = []
+    for chunk in chunked(list(assessments), size):
+        data = {a.name: opts.rv_data[a.name] for a in chunk if opts.rv_data and a.name in opts.rv_data}
+        jobs.append((chunk, spec, data or None, kw))
+    out = []
+    if opts.dask_address:
+        from distributed import Client
+
+        with Client(opts.dask_address) as client:
+            for fut in client.map(_rv_chunk, jobs, pure=False):
+                part = fut.result()
+                out.extend(part)
+                advance(len(part))
+        return out
+    from concurrent.futures import ProcessPoolExecutor
+
+    with ProcessPoolExecutor(max_workers=workers) as pool:
+        for part in pool.map(_rv_chunk, jobs):
+            out.extend(part)
+            advance(len(part))
+    return out
+
+
+def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOptions | None = None,
+               progress: StageProgress | None = None) -> Stages:
+    """Run assess -> eclipses -> rv once for ``targets`` over [start_iso, end_iso] (UTC) at ``site``.
+
+    Parameters
+    ----------
+    targets : validated catalogue targets (:func:`rhofollow.io.catalogue.read_catalogue`)
+    site : :class:`rhofollow.planning.site.Site` (its instrument files give the spectrograph and
+        photometer; without a spectrograph no RV records are made, with a notice)
+    start_iso, end_iso : UTC range of the occultation predictions
+    options : :class:`PipelineOptions`
+    progress : optional stage-progress callback (:data:`StageProgress`)
+    """
+    from .eclipses import EclipseInputError, EclipseOptions, predict_occultations
+    from .parallel import assess_parallel
+    from .physics.priors import DEFAULT_PRIOR, parse_prior
+    from .planning.night import science_from_records
+    from .planning.tasks import ValueModel
+    opts = options or PipelineOptions()
+    progress = progress or _quiet
+    try:
+        prior = parse_prior(opts.ecc_prior or DEFAULT_PRIOR)
+    except ValueError as exc:
+        raise PipelineError(f"eccentricity prior: {exc}") from None
+    spec, phot = _instruments(site)
+    targets = list(targets)
+    timings = {}
+    t = time.perf_counter()
+    adv = progress("assessing", len(targets))
+    assessments = assess_parallel(targets, n_samples=opts.samples, prior=prior, seed=opts.seed,
+                                  transit_prob=opts.transit_weight, workers=max(1, int(opts.workers or 1)),
+                                  progress=adv, dask_address=opts.dask_address)
+    timings["assess_s"] = time.perf_counter() - t
+
+    t = time.perf_counter()
+    adv = progress("occultations", 1)
+    eopts = EclipseOptions(coverage=opts.coverage, location=site.location,
+                           baseline_h=phot.baseline_h if phot else None)
+    notices = []
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            occ = predict_occultations(assessments, start_iso, end_iso, eopts)
+    except EclipseInputError as exc:
+        raise PipelineError(str(exc)) from None
+    adv(1)
+    notices += occ.get("notices", []) + sorted({str(w.message) for w in caught})
+    timings["occultations_s"] = time.perf_counter() - t
+
+    t = time.perf_counter()
+    rv = []
+    if spec is not None:
+        adv = progress("RV planning", len(assessments))
+        kw = dict(fap=opts.fap, power=opts.power, seed=opts.seed, n_null=opts.sims, n_alt=min(400, opts.sims))
+        rv = _rv_records(assessments, spec, opts, kw, adv)
+    else:
+        notices.append("the site lists no spectrograph: no RV visits planned")
+    if opts.rv_data:
+        known = {a.name for a in assessments}
+        for name in sorted(set(opts.rv_data) - known):
+            notices.append(f"measured RVs of {name} match no catalogue target")
+    timings["rv_s"] = time.perf_counter() - t
+
+    science, skipped = science_from_records(assessments, occ["targets"], rv)
+    model = ValueModel(baseline_h=0.0, lead_h=(phot.overhead_min / 60.0) if phot else 0.0)
+    names = {"occultation": phot.name if phot else "photometer",
+             "rv": spec.name if spec else "spectrograph"}
+    return Stages(assessments, occ, rv, science, skipped, names,
+                  (site.slew_minutes + site.setup_minutes) / 60.0, model, notices, prior, timings)
+
+
+def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: PipelineOptions | None = None,
+                 progress: StageProgress | None = None, max_nights: int = 400) -> PipelineResult:
+    """The whole chain for the local evenings ``start`` .. ``end`` (inclusive) at ``site``.
+
+    Runs :func:`run_stages` over the dark time of the range, then the visibility of every night, the
+    nightly plan of the first dark night and the campaign plan.
+
+    Raises
+    ------
+    PipelineError
+        End before start, too many nights, no dark time in the range, bad prior or instrument file.
+    """
+    from .planning.campaign import NightVis, plan_campaign
+    from .planning.night import night_visibility, plan_night
+    from .planning.tasks import jd_to_iso
+    from .planning.visibility import VisibilityEngine
+
+    opts = options or PipelineOptions()
+    progress = progress or _quiet
+    if end < start:
+        raise PipelineError(f"end date {end} is before start date {start}")
+    n_nights = (end - start).days + 1
+    if n_nights > max_nights:
+        raise PipelineError(f"{n_nights} nights requested; at most {max_nights} (split the range)")
+    t_all = time.perf_counter()
+    eng = VisibilityEngine(site)
+    grids = [g for g in eng.nights(start, end) if g.kind != "no_night"]
+    if not grids:
+        raise PipelineError(f"no dark time at {site.name} between {start} and {end}")
+    stages = run_stages(targets, site, jd_to_iso(grids[0].start_jd - 0.5), jd_to_iso(grids[-1].end_jd + 0.5),
+                        opts, progress)
+    timings = dict(stages.timings)
+
+    t = time.perf_counter()
+    adv = progress("visibility", len(grids) + 1)
+    first = grids[0]
+    # the first night is planned before the campaign loop: night_visibility stores each target's
+    # BJD - JD offset of the night it last saw in the science dicts
+    vis0 = night_visibility(eng, first, stages.science)
+    adv(1)
+    nplan = plan_night(stages.science, vis0, site=site.name, night_start_jd=first.start_jd,
+                       night_end_jd=first.end_jd, overhead_h=stages.overhead_h, model=stages.model)
+    nplan.skipped = stages.skipped + nplan.skipped
+    night_doc = nplan.to_dict()
+    night_doc.update({"date": str(first.date), "timezone": site.timezone, "instruments": stages.instruments,
+                      "notices": stages.notices, "seed": opts.seed, "samples": opts.samples})
+    nights = []
+    for g in grids:
+        nights.append(NightVis(str(g.date), night_visibility(eng, g, stages.science), g.start_jd, g.end_jd))
+        adv(1)
+    timings["visibility_s"] = time.perf_counter() - t
+
+    t = time.perf_counter()
+    adv = progress("scheduling", 1)
+    cplan = plan_campaign(stages.science, nights, site=site.name, overhead_h=stages.overhead_h,
+                          instruments=stages.instruments, model=stages.model)
+    camp = cplan.to_dict()
+    camp["start"], camp["end"] = str(start), str(end)
+    camp.update({"skipped": stages.skipped, "notices": stages.notices, "seed": opts.seed,
+                 "samples": opts.samples, "timezone": site.timezone, "overhead_h": stages.overhead_h})
+    adv(1)
+    timings["scheduling_s"] = time.perf_counter() - t
+    timings["total_s"] = time.perf_counter() - t_all
+    return PipelineResult(site, eng, stages, start, end, night_doc, first, camp, cplan, grids, opts, timings)

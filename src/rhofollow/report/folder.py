@@ -1,0 +1,128 @@
+"""Write the report folder of a ``plan`` run (every file atomically: write beside, then rename).
+
+Layout::
+
+    summary.md  summary.html  results.json  results.ecsv  results.csv  night.json  campaign.json
+    windows.ics  samples/<target>.ecsv  plots/*.png
+
+The summaries are written last, so a folder with a summary is a complete one.
+"""
+from __future__ import annotations
+
+import io
+from pathlib import Path
+
+from .files import atomic_write_bytes, save_figure
+
+__all__ = ["write_report", "slug", "REPORT_FILES"]
+
+#: Files every report folder holds (besides samples/ and plots/).
+REPORT_FILES = ("summary.md", "summary.html", "results.json", "results.ecsv", "results.csv", "night.json",
+                "campaign.json", "windows.ics")
+
+
+def slug(name: str) -> str:
+    """File-name-safe form of a target name."""
+    return "".join(c if c.isalnum() or c in "-_." else "-" for c in name)
+
+
+def _text(path: Path, text: str) -> Path:
+    return atomic_write_bytes(path, text.encode("utf-8"))
+
+
+def write_report(result, out_dir, *, plot_targets: int = 10, rv_data: dict | None = None, progress=None) -> dict:
+    """Write every report file of ``result`` (:class:`rhofollow.pipeline.PipelineResult`) into ``out_dir``.
+
+    Parameters
+    ----------
+    plot_targets : per-target figures for this many top-ranked targets (0: all assessed targets)
+    rv_data : target name -> measured RVs, drawn on the RV figures
+    progress : optional ``progress(label, total)`` returning ``advance(k=1)``
+
+    Returns
+    -------
+    dict with ``doc`` (the results.json document), ``files`` (paths written) and ``ranking``.
+    """
+    from ..cli.common import write_json
+    from ..planning.altitude_plot import night_figure
+    from ..planning.campaign import to_ical
+    from . import plots
+    from .summary import CAUTIONS, assumptions, html_summary, markdown_summary
+    from .tables import flat_rows, rank_targets, results_document, rows_to_csv, rows_to_ecsv
+
+    progress = progress or (lambda label, total: (lambda k=1: None))
+    out = Path(out_dir)
+    (out / "plots").mkdir(parents=True, exist_ok=True)
+    (out / "samples").mkdir(parents=True, exist_ok=True)
+    files = []
+    ranking = rank_targets(result)
+    doc = results_document(result, ranking, [], list(CAUTIONS))
+    doc["assumptions"] = assumptions(doc)
+    periods = {a.name: float((a.samples.weights * a.samples.period).sum()) for a in result.assessments if a.ok}
+
+    files.append(write_json(out / "results.json", doc))
+    rows = flat_rows(doc, periods)
+    meta = {"site": doc["site"], "start": doc["start"], "end": doc["end"], "seed": doc["seed"],
+            "samples": doc["samples"], "prior": doc["prior"], "priority_rule": doc["priority_rule"]}
+    files.append(_text(out / "results.ecsv", rows_to_ecsv(rows, meta)))
+    files.append(_text(out / "results.csv", rows_to_csv(rows)))
+    if result.night is not None:
+        files.append(write_json(out / "night.json", result.night))
+    files.append(write_json(out / "campaign.json", result.campaign))
+    files.append(atomic_write_bytes(out / "windows.ics", to_ical(result.campaign_plan)))
+
+    ok = [a for a in result.assessments if a.ok and a.samples is not None]
+    adv = progress("writing samples", len(ok))
+    for a in ok:
+        buf = io.StringIO()
+        a.samples.to_table().write(buf, format="ascii.ecsv")
+        files.append(_text(out / "samples" / f"{slug(a.name)}.ecsv", buf.getvalue()))
+        adv(1)
+
+    # figures: run-level first, then per target in rank order
+    ranked = sorted((a for a in ok if ranking.get(a.name, {}).get("rank")), key=lambda a: ranking[a.name]["rank"])
+    chosen = ranked if plot_targets <= 0 else ranked[:plot_targets]
+    adv = progress("plotting", 3 + 4 * len(chosen))
+    figs_md: dict[str, list[str]] = {}
+    figs_html: dict[str, list[tuple[str, bytes]]] = {}
+
+    def add(section, name, fig, caption):
+        png = save_figure(fig, out / "plots" / name)
+        files.append(out / "plots" / name)
+        figs_md.setdefault(section, []).append(f"plots/{name}")
+        figs_html.setdefault(section, []).append((caption, png))
+        adv(1)
+
+    add("Catalogue overview", "overview.png", plots.overview_figure([a.record for a in result.assessments], periods),
+        "Density ratio against period, coloured by P(e > 0.1)")
+    if result.night is not None:
+        add("First night", "night_altitude.png",
+            night_figure(result.engine, result.night_grid, result.stages.science, result.night),
+            f"Altitude chart of the night of {result.night.get('date')} with the chosen blocks")
+    add("Campaign", "campaign_calendar.png",
+        plots.campaign_figure(result.campaign, result.nights, [a.name for a in ranked]),
+        "Occultation windows and RV visits per night, targets in rank order")
+    occ = {r["name"]: r for r in result.occultations["targets"]}
+    rv = {r["name"]: r for r in result.rv}
+    camp = {t["name"]: t for t in result.campaign["targets"]}
+    night_phases = {}
+    for b in (result.night or {}).get("blocks", []):
+        if b.get("kind") == "rv" and b.get("phase") is not None:
+            night_phases.setdefault(b["name"], []).append(b["phase"])
+    for a in chosen:
+        s, n = a.samples, slug(a.name)
+        sec = f"{a.name} (rank {ranking[a.name]['rank']})"
+        add(sec, f"{n}_density.png", plots.density_figure(a.record), "Circular-orbit vs independent density")
+        add(sec, f"{n}_ecc_omega.png", plots.ecc_omega_figure(s, a.record), "Eccentricity posterior")
+        add(sec, f"{n}_occultation.png",
+            plots.occultation_figure(s, occ.get(a.name, {}), camp.get(a.name, {}).get("occultation_windows"),
+                                     coverage=result.options.coverage),
+            "Occultation phase and the timing of the next events")
+        add(sec, f"{n}_rv.png",
+            plots.rv_figure(s, rv.get(a.name), camp.get(a.name, {}).get("rv_visits"), night_phases.get(a.name),
+                            (rv_data or {}).get(a.name), seed=result.options.seed),
+            "Predicted RV curves, informative phases and planned visits")
+
+    files.append(_text(out / "summary.md", markdown_summary(doc, figs_md, result.night)))
+    files.append(_text(out / "summary.html", html_summary(doc, figs_html, result.night)))
+    return {"doc": doc, "files": [Path(f) for f in files], "ranking": ranking}

@@ -1,0 +1,176 @@
+"""Human-readable summaries of a ``plan`` run: Markdown and a self-contained HTML page.
+
+Both carry the ranked table, the hours to request, the assumptions and the cautions; the HTML page
+embeds every figure as a base64 PNG so it can be mailed or attached to a proposal as one file.
+"""
+from __future__ import annotations
+
+import base64
+import html
+
+__all__ = ["assumptions", "CAUTIONS", "ranked_table", "markdown_summary", "html_summary"]
+
+#: Cautions every report carries.
+CAUTIONS = [
+    "Plans are advisory. Sun avoidance, weather and wind limits, dome rules and the site's operations "
+    "rules override any window, visit or schedule in this report.",
+    "Occultation windows come from the eccentricity posterior; a broad posterior gives windows longer than a "
+    "night, which the plans then leave out rather than guess.",
+    "The density mismatch can also come from a blend or from the planet orbiting another star; the "
+    "'favoured' column weighs those explanations, and follow-up should keep them in mind.",
+]
+
+
+def assumptions(doc: dict) -> list[str]:
+    """The stated assumptions of the run (conventions, prior, mass-radius relation, ranking)."""
+    tw = ("weighted by the transit probability (1 + e sin ω)/(1 − e²)" if doc.get("transit_weight", True)
+          else "not weighted by the transit probability")
+    return [
+        "ω is the argument of periastron of the star as quoted by RV orbit papers (v* = γ + K[cos(f + ω) + "
+        "e cos ω]); the transit happens at true anomaly f = 90° − ω and the occultation at f = −90° − ω, so "
+        "ω = 90° puts the transit at periastron (ρ_circ > ρ*).",
+        f"Eccentricity prior: {doc.get('prior_description') or doc.get('prior')}, {tw}. A catalogue row with a "
+        "measured e (and ω) uses that measurement instead.",
+        "Planet mass from the catalogue's mp_mearth when given; otherwise from planet radius through published "
+        "mass-radius relations with their scatter (Otegi, Bouchy & Helled 2020 below 1.5 and from 4 to "
+        "10 Earth radii; Wolfgang, Rogers & Ford 2016 from 1.5 to 4; a broad log-uniform 0.1-13 Jupiter-mass "
+        "prior for giants, whose radius barely constrains mass).",
+        f"Occultation windows hold {100 * doc.get('coverage', 0.9):.0f} % of the posterior probability of each "
+        "event's mid-time, plus baselines; times are BJD_TDB converted to UTC at the site with the barycentric "
+        "correction.",
+        f"RV confirmation: likelihood-ratio test of eccentric vs circular at false-alarm probability "
+        f"{doc.get('fap', 0.01):g} with {100 * doc.get('power', 0.8):.0f} % power, simulated from the posterior.",
+        "Ranking: " + doc.get("priority_rule", ""),
+        f"Random seed {doc.get('seed')}, {doc.get('samples')} posterior samples per target: the same inputs and "
+        "seed give the same numbers.",
+    ]
+
+
+def _f(x, nd=2):
+    try:
+        return f"{float(x):.{nd}f}"
+    except (TypeError, ValueError):
+        return "–"
+
+
+def _qtxt(q, nd=2):
+    if not q or q.get("q50") is None:
+        return "–"
+    return f"{q['q50']:.{nd}f} [{q['q16']:.{nd}f}, {q['q84']:.{nd}f}]"
+
+
+def ranked_table(doc: dict, top: int | None = None) -> tuple[list[str], list[list[str]]]:
+    """(header, rows) of the ranked target table (assessed targets only, rank order)."""
+    insts = list(doc.get("hours_total", {}))
+    head = ["rank", "target", "priority", "P(e>0.1)", "e [68%]", "ρ_circ/ρ* [68%]", "favoured",
+            "P(occ)", "K m/s [68%]", "RV visits to confirm", "occ windows / RV visits at site"] + \
+        [f"{i} h" for i in insts]
+    rows = []
+    for t in doc["targets"]:
+        if not t.get("ok") or t.get("rank") is None:
+            continue
+        rv, occ, c = t.get("rv") or {}, t.get("occultation") or {}, t.get("campaign") or {}
+        n = rv.get("n_epochs_confirm_ecc")
+        rows.append([str(t["rank"]), t["name"], _f(t.get("priority"), 3), _f(t.get("p_ecc_gt_0p1")),
+                     _qtxt(t.get("ecc")), _qtxt(t.get("density_ratio")), t.get("favoured", "–"),
+                     _f(occ.get("p_occultation")), _qtxt(rv.get("k_ms"), 1),
+                     str(n) if n else ("not confirmable" if rv else "–"),
+                     f"{len(c.get('occultation_windows', []))} / {len(c.get('rv_visits', []))}"]
+                    + [_f((c.get("hours") or {}).get(i, 0.0), 1) for i in insts])
+    return head, rows[:top] if top else rows
+
+
+def _md_table(head, rows) -> str:
+    out = ["| " + " | ".join(head) + " |", "|" + "|".join("---" for _ in head) + "|"]
+    out += ["| " + " | ".join(c.replace("|", "/") for c in r) + " |" for r in rows]
+    return "\n".join(out)
+
+
+def _failed(doc):
+    return [t for t in doc["targets"] if not t.get("ok")]
+
+
+def markdown_summary(doc: dict, figures: dict[str, list[str]], night: dict | None) -> str:
+    """Markdown text of the summary; ``figures`` maps a section title to relative PNG paths."""
+    lines = [f"# rhofollow plan: {doc['site']}, {doc['start']} to {doc['end']}", "",
+             f"> {CAUTIONS[0]}", ""]
+    head, rows = ranked_table(doc)
+    lines += ["## Targets by priority", "", _md_table(head, rows), ""]
+    tot = doc.get("hours_total", {})
+    if tot:
+        lines += ["Hours to request (blocks + overheads): " + ", ".join(f"{k} {v:.1f} h" for k, v in tot.items()),
+                  ""]
+    if night is not None:
+        lines += [f"## First night ({night.get('date')})", ""]
+        if night.get("blocks"):
+            lines += [_md_table(["UTC", "target", "kind", "value", "max airmass"],
+                                [[f"{b['start_utc'][11:16]}-{b['end_utc'][11:16]}", b["name"], b["kind"],
+                                  _f(b["value"], 3), _f(b["airmass_max"])] for b in night["blocks"]]), ""]
+        else:
+            lines += ["No block can be scheduled on the first night.", ""]
+    for title, paths in figures.items():
+        lines += [f"## {title}", ""] + [f"![{title}]({p})" for p in paths] + [""]
+    bad = _failed(doc)
+    if bad:
+        lines += ["## Targets not assessed", ""] + [f"- {t['name']}: {'; '.join(t.get('errors', []))}"
+                                                    for t in bad] + [""]
+    lines += ["## Assumptions", ""] + [f"- {a}" for a in doc.get("assumptions", [])] + [""]
+    lines += ["## Cautions", ""] + [f"- {c}" for c in doc.get("cautions", CAUTIONS)] + [""]
+    if doc.get("notices"):
+        lines += ["## Notices", ""] + [f"- {n}" for n in doc["notices"]] + [""]
+    lines += ["Files: results.json / results.ecsv / results.csv (per target), night.json, campaign.json, "
+              "windows.ics, samples/*.ecsv (weighted posterior samples), plots/*.png.", ""]
+    return "\n".join(lines)
+
+
+_CSS = """body{font-family:system-ui,sans-serif;max-width:1180px;margin:2em auto;padding:0 1em;color:#222}
+table{border-collapse:collapse;font-size:13px;margin:0.5em 0 1.2em}th,td{border:1px solid #ccc;padding:3px 7px;
+text-align:right}th{background:#eef3f1}td:nth-child(2),th:nth-child(2){text-align:left}
+.caution{border-left:5px solid #b5532f;background:#fbf1ec;padding:0.6em 1em}
+figure{margin:1em 0}figure img{max-width:100%;border:1px solid #ddd}figcaption{font-size:12px;color:#555}"""
+
+
+def _html_table(head, rows) -> str:
+    h = "".join(f"<th>{html.escape(c)}</th>" for c in head)
+    b = "".join("<tr>" + "".join(f"<td>{html.escape(c)}</td>" for c in r) + "</tr>" for r in rows)
+    return f"<table><thead><tr>{h}</tr></thead><tbody>{b}</tbody></table>"
+
+
+def html_summary(doc: dict, figures: dict[str, list[tuple[str, bytes]]], night: dict | None) -> str:
+    """A self-contained HTML page; ``figures`` maps a section title to (caption, PNG bytes) pairs."""
+    e = html.escape
+    parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'><title>rhofollow plan: "
+             f"{e(doc['site'])}</title><style>{_CSS}</style></head><body>",
+             f"<h1>rhofollow plan: {e(doc['site'])}, {e(doc['start'])} to {e(doc['end'])}</h1>",
+             f"<p class='caution'>{e(CAUTIONS[0])}</p>", "<h2>Targets by priority</h2>",
+             _html_table(*ranked_table(doc))]
+    tot = doc.get("hours_total", {})
+    if tot:
+        parts.append("<p>Hours to request (blocks + overheads): "
+                     + e(", ".join(f"{k} {v:.1f} h" for k, v in tot.items())) + "</p>")
+    if night is not None:
+        parts.append(f"<h2>First night ({e(str(night.get('date')))})</h2>")
+        if night.get("blocks"):
+            parts.append(_html_table(["UTC", "target", "kind", "value", "max airmass"],
+                                     [[f"{b['start_utc'][11:16]}-{b['end_utc'][11:16]}", b["name"], b["kind"],
+                                       _f(b["value"], 3), _f(b["airmass_max"])] for b in night["blocks"]]))
+        else:
+            parts.append("<p>No block can be scheduled on the first night.</p>")
+    for title, figs in figures.items():
+        parts.append(f"<h2>{e(title)}</h2>")
+        for cap, png in figs:
+            b64 = base64.b64encode(png).decode("ascii")
+            parts.append(f"<figure><img alt='{e(cap)}' src='data:image/png;base64,{b64}'>"
+                         f"<figcaption>{e(cap)}</figcaption></figure>")
+    bad = _failed(doc)
+    if bad:
+        parts.append("<h2>Targets not assessed</h2><ul>" + "".join(
+            f"<li>{e(t['name'])}: {e('; '.join(t.get('errors', [])))}</li>" for t in bad) + "</ul>")
+    parts.append("<h2>Assumptions</h2><ul>" + "".join(f"<li>{e(a)}</li>" for a in doc.get("assumptions", []))
+                 + "</ul>")
+    parts.append("<h2>Cautions</h2><ul>" + "".join(f"<li>{e(c)}</li>" for c in doc.get("cautions", CAUTIONS))
+                 + "</ul>")
+    if doc.get("notices"):
+        parts.append("<h2>Notices</h2><ul>" + "".join(f"<li>{e(n)}</li>" for n in doc["notices"]) + "</ul>")
+    parts.append("</body></html>")
+    return "\n".join(parts)

@@ -1,0 +1,193 @@
+"""Per-target results of a ``plan`` run as JSON, ECSV and CSV (one row per catalogue target).
+
+The ranking is plain and stated in every report: priority = P(e > 0.1) x testability, where
+testability is the larger of (a) P(occultation happens) when at least one occultation window is
+observable from the site in the date range, and (b) the fraction of the RV visits needed to confirm
+e > 0 that fit in the range (0 when RVs cannot confirm it). Ties go to the larger density mismatch.
+"""
+from __future__ import annotations
+
+import csv
+import io
+import math
+
+from ..samples import QUANTILE_LEVELS
+
+__all__ = ["PRIORITY_RULE", "rank_targets", "results_document", "flat_rows", "rows_to_csv", "rows_to_ecsv",
+           "COLUMN_UNITS"]
+
+PRIORITY_RULE = ("priority = P(e > 0.1) x testability; testability = max(P(occultation) if an occultation "
+                 "window is observable from the site in the range, fraction of the RV visits needed to "
+                 "confirm e > 0 that fit in the range)")
+
+#: Units of the flat table's columns (ECSV); a column absent here is dimensionless or text.
+COLUMN_UNITS = {"period_d": "d", "rho_circ_cgs": "g / cm3", "rho_star_cgs": "g / cm3", "omega_deg": "deg",
+                "occ_duration_h": "h", "depth_ppm": "", "k_ms": "m / s", "mp_mearth": "earthMass",
+                "sigma_rv_ms": "m / s", "hours_confirm_ecc": "h", "hours_total": "h"}
+
+
+def _num(x, default=0.0) -> float:
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return default
+    return v if math.isfinite(v) else default
+
+
+def rank_targets(result) -> dict:
+    """name -> {"rank", "priority", "testability", "p_ecc_gt_0p1"} for every target (failed: rank None)."""
+    occ = {r["name"]: r for r in result.occultations["targets"]}
+    rv = {r["name"]: r for r in result.rv}
+    camp = {t["name"]: t for t in result.campaign["targets"]}
+    out = {}
+    for a in result.assessments:
+        if not a.ok:
+            out[a.name] = {"rank": None, "priority": 0.0, "testability": 0.0, "p_ecc_gt_0p1": None}
+            continue
+        rec, c = a.record, camp.get(a.name, {})
+        t_occ = _num(occ.get(a.name, {}).get("p_occultation")) if c.get("occultation_windows") else 0.0
+        need = _num(rv.get(a.name, {}).get("n_epochs_confirm_ecc"), 0.0)
+        t_rv = min(1.0, len(c.get("rv_visits", [])) / need) if need > 0 else 0.0
+        test = max(t_occ, t_rv)
+        out[a.name] = {"priority": round(_num(rec.get("p_ecc_gt_0p1")) * test, 6), "testability": round(test, 6),
+                       "p_ecc_gt_0p1": rec.get("p_ecc_gt_0p1"),
+                       "_tie": _num(rec.get("density_ratio_sigma"))}
+    ok = sorted((n for n, v in out.items() if v.get("p_ecc_gt_0p1") is not None),
+                key=lambda n: (-out[n]["priority"], -out[n]["_tie"], n))
+    for i, n in enumerate(ok, 1):
+        out[n]["rank"] = i
+    for v in out.values():
+        v.pop("_tie", None)
+    return out
+
+
+def _occ_summary(r: dict | None) -> dict:
+    if not r:
+        return {}
+    keep = ("p_occultation", "occ_phase", "occ_duration_h", "occ_full_duration_h", "depth_ppm", "b_occ",
+            "light_travel_s", "window_pad_h", "events")
+    return {k: r[k] for k in keep if k in r}
+
+
+def results_document(result, ranking: dict, assumptions: list[str], cautions: list[str]) -> dict:
+    """The ``results.json`` document: run metadata, assumptions, cautions and one record per target.
+
+    Each target has ``name, ok, errors, warnings, rank, priority, testability``, the assessment keys
+    (quantile objects ``q025 q16 q50 q84 q975``), ``occultation`` (timing, depth, events), ``rv``
+    (K, mass, epochs and hours) and ``campaign`` (windows, visits, hours at the site).
+    """
+    occ = {r["name"]: r for r in result.occultations["targets"]}
+    rv = {r["name"]: r for r in result.rv}
+    camp = {t["name"]: t for t in result.campaign["targets"]}
+    targets = []
+    for a in result.assessments:
+        rec = dict(a.record) if a.record else {"name": a.name, "ok": a.ok, "errors": list(a.errors),
+                                               "warnings": list(a.warnings)}
+        extra_w = []
+        o = occ.get(a.name)
+        if o:
+            extra_w += [w for w in o.get("warnings", []) if w not in rec.get("warnings", [])]
+        r = rv.get(a.name)
+        if r:
+            extra_w += [w for w in r.get("warnings", []) if w not in rec.get("warnings", []) + extra_w]
+        rec["warnings"] = list(rec.get("warnings", [])) + extra_w
+        rec.update(ranking.get(a.name, {}))
+        if a.ok:
+            rec["occultation"] = _occ_summary(o)
+            rec["rv"] = {k: v for k, v in (r or {}).items() if k not in ("name", "ok", "errors", "warnings")}
+            c = camp.get(a.name)
+            rec["campaign"] = ({k: c[k] for k in ("occultation_windows", "rv_visits", "hours", "notes",
+                                                  "n_windows_unobservable") if k in c} if c else {})
+        targets.append(rec)
+    targets.sort(key=lambda t: (t.get("rank") is None, t.get("rank") or 0, t["name"]))
+    opts = result.options
+    return {
+        "command": "plan", "site": result.site.name, "start": str(result.start), "end": str(result.end),
+        "seed": opts.seed, "samples": opts.samples, "prior": result.stages.prior.name,
+        "prior_description": result.stages.prior.description, "transit_weight": opts.transit_weight,
+        "coverage": opts.coverage, "fap": opts.fap, "power": opts.power,
+        "instruments": result.stages.instruments, "priority_rule": PRIORITY_RULE,
+        "hours_total": result.campaign.get("hours_total", {}), "assumptions": assumptions,
+        "cautions": cautions, "notices": result.stages.notices, "targets": targets,
+    }
+
+
+def _q(rec: dict, key: str, prefix: str, row: dict, levels=("q16", "q50", "q84")) -> None:
+    q = rec.get(key) or {}
+    for lev in levels:
+        row[f"{prefix}_{lev}"] = q.get(lev) if q.get(lev) is not None else math.nan
+
+
+def flat_rows(doc: dict, periods: dict | None = None) -> list[dict]:
+    """One flat row per target of ``results_document`` (fixed columns, NaN / empty when unknown)."""
+    rows = []
+    for t in doc["targets"]:
+        row = {"name": t["name"], "ok": bool(t.get("ok")), "rank": t.get("rank") or 0,
+               "priority": _num(t.get("priority"), math.nan),
+               "period_d": (periods or {}).get(t["name"], math.nan)}
+        _q(t, "rho_circ_cgs", "rho_circ_cgs", row)
+        _q(t, "rho_star_cgs", "rho_star_cgs", row)
+        _q(t, "density_ratio", "density_ratio", row)
+        row["density_ratio_sigma"] = _num(t.get("density_ratio_sigma"), math.nan)
+        row["ecc_min"] = _num(t.get("ecc_min"), math.nan)
+        _q(t, "ecc", "ecc", row, tuple(QUANTILE_LEVELS))
+        _q(t, "omega_deg", "omega_deg", row)
+        row["p_ecc_gt_0p1"] = _num(t.get("p_ecc_gt_0p1"), math.nan)
+        row["favoured"] = t.get("favoured", "")
+        row["ess"] = _num(t.get("ess"), math.nan)
+        o = t.get("occultation") or {}
+        row["p_occultation"] = _num(o.get("p_occultation"), math.nan)
+        _q(o, "occ_phase", "occ_phase", row)
+        _q(o, "occ_duration_h", "occ_duration_h", row, ("q50",))
+        _q(o, "depth_ppm", "depth_ppm", row, ("q50",))
+        ev = (o.get("events") or [{}])[0]
+        row["next_occ_mid_utc"] = ev.get("mid_utc", "")
+        r = t.get("rv") or {}
+        _q(r, "k_ms", "k_ms", row)
+        _q(r, "mp_mearth", "mp_mearth", row, ("q50",))
+        row["sigma_rv_ms"] = _num(r.get("sigma_rv_ms"), math.nan)
+        row["n_epochs_confirm_ecc"] = int(_num(r.get("n_epochs_confirm_ecc"), -1))
+        row["hours_confirm_ecc"] = _num(r.get("hours_confirm_ecc"), math.nan)
+        c = t.get("campaign") or {}
+        row["n_occ_windows_observable"] = len(c.get("occultation_windows", []))
+        row["n_rv_visits_planned"] = len(c.get("rv_visits", []))
+        row["hours_total"] = round(sum((c.get("hours") or {}).values()), 3)
+        row["n_warnings"] = len(t.get("warnings", []))
+        row["errors"] = "; ".join(t.get("errors", []))
+        rows.append(row)
+    return rows
+
+
+def rows_to_csv(rows: list[dict]) -> str:
+    """CSV text (header from the first row; NaN written as an empty cell)."""
+    buf = io.StringIO()
+    if not rows:
+        return ""
+    w = csv.DictWriter(buf, fieldnames=list(rows[0]), lineterminator="\n")
+    w.writeheader()
+    for r in rows:
+        w.writerow({k: ("" if isinstance(v, float) and not math.isfinite(v) else v) for k, v in r.items()})
+    return buf.getvalue()
+
+
+def _unit_of(col: str) -> str:
+    for key, unit in COLUMN_UNITS.items():
+        if col == key or col.startswith(key + "_q"):
+            return unit
+    return ""
+
+
+def rows_to_ecsv(rows: list[dict], meta: dict | None = None) -> str:
+    """ECSV text with units on the physical columns and the run metadata in the header."""
+    import astropy.units as u
+    from astropy.table import Table
+
+    t = Table(rows=[list(r.values()) for r in rows], names=list(rows[0])) if rows else Table()
+    for col in t.colnames:
+        unit = _unit_of(col)
+        if unit:
+            t[col].unit = u.Unit(unit)
+    t.meta.update(meta or {})
+    buf = io.StringIO()
+    t.write(buf, format="ascii.ecsv")
+    return buf.getvalue()
