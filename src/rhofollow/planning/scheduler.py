@@ -423,13 +423,21 @@ def solve_milp(tasks: Sequence[Task], overhead: float = 0.0, horizon: tuple | No
     return sched
 
 
-def solve_greedy(tasks: Sequence[Task], overhead: float = 0.0, horizon: tuple | None = None) -> Schedule:
-    """Baseline for tests and benchmarks: take candidates by decreasing value if they fit.
+def solve_greedy(tasks: Sequence[Task], overhead: float = 0.0, horizon: tuple | None = None,
+                 order: str = "value") -> Schedule:
+    """Baseline for tests and benchmarks: take candidates in ``order`` if they fit.
 
+    ``order`` is "value" (highest value first) or "density" (highest value per unit time first).
     Not exact; never used for plans.
     """
     _check_names(tasks)
-    cands = sorted(candidates(tasks, horizon), key=lambda c: (-c.value, c.start))
+    if order not in ("value", "density"):
+        raise ScheduleError(f"unknown greedy order {order!r}; choose 'value' or 'density'")
+    if order == "value":
+        key = (lambda c: (-c.value, c.start))
+    else:
+        key = (lambda c: (-c.value / (c.end - c.start + overhead), c.start))
+    cands = sorted(candidates(tasks, horizon), key=key)
     chosen, used = [], set()
     for c in cands:
         if c.task in used:
