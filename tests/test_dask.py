@@ -1,0 +1,51 @@
+"""A small catalogue on a local dask.distributed cluster gives the serial run's results exactly."""
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+distributed = pytest.importorskip("distributed")
+
+from rhofollow.io.catalogue import read_catalogue  # noqa: E402
+from rhofollow.parallel import assess_parallel  # noqa: E402
+from rhofollow.pipeline import PipelineOptions, run_stages  # noqa: E402
+from rhofollow.planning.site import load_site  # noqa: E402
+
+ROOT = Path(__file__).resolve().parents[1]
+NAMES = ("HTS-103", "HTS-104", "HTS-107")
+
+
+@pytest.fixture(scope="module")
+def targets():
+    cat = read_catalogue(ROOT / "examples" / "hts_candidates.csv", require_coords=True)
+    return [t for t in cat.targets if t.name in NAMES]
+
+
+@pytest.fixture(scope="module")
+def cluster():
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=False, dashboard_address=None,
+                                  silence_logs=50) as c:
+        yield c
+
+
+def test_assessment_on_dask_equals_serial(targets, cluster):
+    kw = dict(n_samples=2000, prior="kipping13", seed=11)
+    serial = assess_parallel(targets, **kw)
+    remote = assess_parallel(targets, dask_address=cluster.scheduler_address, chunk=2, **kw)
+    assert [a.name for a in remote] == [a.name for a in serial]
+    for a, b in zip(serial, remote):
+        assert a.record == b.record
+        np.testing.assert_array_equal(a.samples.e, b.samples.e)
+        np.testing.assert_array_equal(a.samples.weights, b.samples.weights)
+
+
+def test_stages_on_dask_equal_serial(targets, cluster):
+    site = load_site(ROOT / "site_configs" / "alto_quemado.toml")
+    start, end = "2026-12-10T12:00:00", "2026-12-14T12:00:00"
+    base = dict(samples=2000, seed=5, sims=100)
+    serial = run_stages(targets, site, start, end, PipelineOptions(**base))
+    remote = run_stages(targets, site, start, end, PipelineOptions(dask_address=cluster.scheduler_address, **base))
+    assert [a.record for a in remote.assessments] == [a.record for a in serial.assessments]
+    assert remote.occultations["targets"] == serial.occultations["targets"]
+    assert remote.rv == serial.rv
+    assert remote.rv and all(r["ok"] for r in remote.rv)
