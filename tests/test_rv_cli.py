@@ -11,9 +11,9 @@ VEL = str(ROOT / "site_configs/instruments/aq_vel.toml")
 CAM = str(ROOT / "site_configs/instruments/aq_cam.toml")
 CAT = ("name,period_d,t0_bjd,ra_deg,dec_deg,a_rs,a_rs_err,b,b_err,rp_rs,rp_rs_err,rho_star_cgs,"
        "rho_star_cgs_err,mstar_msun,mstar_msun_err,rstar_rsun,rstar_rsun_err,teff_k,logg_cgs,vmag\n"
-       "HTS-104,6.4321,2460400.5123,150.1,12.3,19.5,0.4,0.3,0.05,0.09,0.001,1.05,0.08,1.0,0.05,1.0,0.04,"
+       "HTS-104,8.774,2461028.37097,150.1,12.3,27.8,0.6,0.3,0.05,0.118,0.001,1.51,0.08,0.98,0.05,0.97,0.04,"
        "5700,4.4,10.2\n"
-       "HTS-107,12.811,2460405.2211,210.3,-5.2,16.0,0.5,0.2,0.05,0.03,0.0008,1.40,0.10,0.9,0.04,0.85,0.03,"
+       "HTS-107,16.02,2461026.59207,210.3,-5.2,32.9,0.7,0.2,0.05,0.102,0.0008,1.18,0.07,1.05,0.04,1.08,0.03,"
        "5200,4.55,9.4\n")
 KEYS = {"name", "ok", "errors", "warnings", "k_ms", "mp_mearth", "sigma_rv_ms", "n_epochs_detect_k",
         "n_epochs_confirm_ecc", "hours_confirm_ecc", "best_phases"}
@@ -41,9 +41,10 @@ def test_json_contract_and_library_equality(cat, tmp_path):
         assert set(r["k_ms"]) == {"q025", "q16", "q50", "q84", "q975"}
         assert {"ecc_updated", "ecc_confirmed"} <= set(r)
         assert all(0 <= p < 1 for p in r["best_phases"])
-    # The demo RVs of HTS-104 were made from e = 0.35, K = 45 m/s (examples/rv/make_demo_rv.py).
+    # The demo RVs of HTS-104 were made from e = 0.41, K = 45 m/s (examples/rv/make_demo_rv.py;
+    # invented truth of examples/hts_truth.csv).
     assert recs["HTS-104"]["ecc_confirmed"] is True
-    assert recs["HTS-104"]["ecc_updated"]["q025"] < 0.35 < recs["HTS-104"]["ecc_updated"]["q975"]
+    assert recs["HTS-104"]["ecc_updated"]["q025"] < 0.41 < recs["HTS-104"]["ecc_updated"]["q975"]
     # The CLI JSON equals the library's records for the same inputs and seed.
     from rhofollow.assess import assess_catalogue
     from rhofollow.cli.common import _clean

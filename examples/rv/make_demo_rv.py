@@ -12,8 +12,9 @@ from rhofollow.physics.rv import rv_curve
 #: name -> period (d), mid-transit epoch (BJD_TDB), e, omega (deg), K (m/s), gamma (m/s),
 #: per-epoch error (m/s), jitter (m/s), number of epochs, first night (BJD_TDB)
 ORBITS = {
-    "HTS-104": (6.4321, 2460400.5123, 0.35, 70.0, 45.0, -12_431.0, 2.4, 2.5, 14, 2460620.6),
-    "HTS-107": (12.811, 2460405.2211, 0.02, 200.0, 4.0, 8_215.0, 1.9, 1.8, 12, 2460622.7),
+    # the demo catalogue's ephemerides and the invented truths of examples/hts_truth.csv
+    "HTS-104": (8.774, 2461028.37097, 0.41, 110.0, 45.0, -12_431.0, 2.4, 2.5, 14, 2461045.6),
+    "HTS-107": (16.02, 2461026.59207, 0.35, 40.0, 30.0, 8_215.0, 1.9, 1.8, 12, 2461046.7),
 }
 
 
