@@ -37,7 +37,10 @@ class PipelineOptions:
     transit_weight : weight the prior by the transit probability; workers : processes for the
     assessment; dask_address : scheduler address of a dask.distributed cluster (overrides workers);
     coverage : probability held by each occultation window; fap, power : the RV eccentricity test;
-    sims : simulated null data sets per RV test; rv_data : target name -> RVData (measured RVs).
+    sims : simulated null data sets per RV test; rv_data : target name -> RVData (measured RVs);
+    ledger : path of a campaign ledger (SQLite): its RVs and occultation timings re-weight the
+    posteriors, its visits count as done, and targets whose occultation was measured get no more
+    occultation windows.
     """
 
     samples: int = 8000
@@ -51,6 +54,7 @@ class PipelineOptions:
     power: float = 0.8
     sims: int = 2000
     rv_data: dict | None = None
+    ledger: str | None = None
 
 
 @dataclass
@@ -177,6 +181,38 @@ def _rv_records(assessments, spec, opts: PipelineOptions, kw: dict, advance) -> 
     return out
 
 
+def apply_ledger(path, assessments) -> tuple[dict, set, list]:
+    """Bring a campaign ledger's knowledge into the assessments (in place).
+
+    Re-weights each target's samples with its RVs and occultation timings, refreshes the
+    eccentricity summaries of its record, and returns (RV visits done per target, targets whose
+    occultation was measured, notices).
+    """
+    from .io.ledger import Ledger, LedgerError
+    from .ledger_update import apply_to_assessments
+    from .samples import kish_ess
+
+    try:
+        lg = Ledger(path)
+    except (LedgerError, OSError) as exc:
+        raise PipelineError(f"ledger {path}: {exc}") from None
+    updates = apply_to_assessments(lg, assessments)
+    n_done, measured = {}, set()
+    for a in assessments:
+        if a.name in updates and a.samples is not None:
+            s = a.samples
+            a.record.update(ecc=s.quantiles("e"), p_ecc_gt_0p1=float(s.weights[s.e > 0.1].sum()),
+                            ess=kish_ess(s.weights), updated_from_ledger=True)
+        days = {int(m.bjd_tdb + 0.5) for m in lg.rv_measurements(a.name)}
+        done = sum(o.outcome == "ok" for o in lg.done(a.name, "rv"))
+        if days or done:
+            n_done[a.name] = max(len(days), done)
+        if any(t.kind == "detection" for t in lg.occultation_timings(a.name)):
+            measured.add(a.name)
+    notes = [f"ledger {path}: posteriors of {len(updates)} target(s) updated with measured data"] if updates else []
+    return n_done, measured, notes
+
+
 def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOptions | None = None,
                progress: StageProgress | None = None) -> Stages:
     """Run assess -> eclipses -> rv once for ``targets`` over [start_iso, end_iso] (UTC) at ``site``.
@@ -210,12 +246,13 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
                                   transit_prob=opts.transit_weight, workers=max(1, int(opts.workers or 1)),
                                   progress=adv, dask_address=opts.dask_address)
     timings["assess_s"] = time.perf_counter() - t
+    n_done, occ_measured, ledger_notes = apply_ledger(opts.ledger, assessments) if opts.ledger else ({}, set(), [])
 
     t = time.perf_counter()
     adv = progress("occultations", 1)
     eopts = EclipseOptions(coverage=opts.coverage, location=site.location,
                            baseline_h=phot.baseline_h if phot else None)
-    notices = []
+    notices = list(ledger_notes)
     try:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
@@ -240,8 +277,14 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
             notices.append(f"measured RVs of {name} match no catalogue target")
     timings["rv_s"] = time.perf_counter() - t
 
-    science, skipped = science_from_records(assessments, occ["targets"], rv)
-    model = ValueModel(baseline_h=0.0, lead_h=(phot.overhead_min / 60.0) if phot else 0.0)
+    occ_targets = occ["targets"]
+    if occ_measured:
+        occ_targets = [dict(r, events=[]) if r.get("name") in occ_measured else r for r in occ_targets]
+    science, skipped = science_from_records(assessments, occ_targets, rv, n_done=n_done)
+    skipped += [{"name": n, "reason": "occultation already measured (ledger): no more windows"}
+                for n in sorted(occ_measured)]
+    model = ValueModel(baseline_h=0.0, lead_h=(phot.overhead_min / 60.0) if phot else 0.0,
+                       partial_baseline_h=phot.baseline_h if phot else 1.0)
     names = {"occultation": phot.name if phot else "photometer",
              "rv": spec.name if spec else "spectrograph"}
     return Stages(assessments, occ, rv, science, skipped, names,

@@ -2,7 +2,7 @@
 with the hours to request per instrument."""
 from __future__ import annotations
 
-from .common import UserError, add_json_option, add_seed_option, atomic_write_text, console, err_console, \
+from .common import UserError, add_json_option, add_plan_options, atomic_write_text, console, err_console, \
     write_json
 
 __all__ = ["register", "run"]
@@ -24,10 +24,8 @@ def register(subparsers):
     p.add_argument("--ics", metavar="PATH", help="write the windows and visits as an iCalendar file")
     p.add_argument("--table", choices=["md", "latex", "csv"],
                    help="print the hours table in this format instead of the terminal table")
-    p.add_argument("--samples", type=int, default=20000,
-                   help="posterior samples per target in the assessment (default 20000)")
     add_json_option(p)
-    add_seed_option(p)
+    add_plan_options(p)
     p.set_defaults(func=run)
 
 

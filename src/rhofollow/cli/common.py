@@ -115,6 +115,33 @@ def add_assess_options(p) -> None:
     add_seed_option(p)
 
 
+def add_plan_options(p) -> None:
+    """Options shared by the planning commands (night, campaign): assessment options plus the ledger."""
+    add_assess_options(p)
+    p.add_argument("--ledger", metavar="PATH",
+                   help="campaign ledger (SQLite, see 'rhofollow log'): its RVs and occultation timings "
+                   "update the posteriors, visits done count, measured occultations are not re-planned")
+
+
+def stage_progress():
+    """Context manager: a rich Progress on stderr and a StageProgress callback drawing on it."""
+    from contextlib import contextmanager
+
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+    @contextmanager
+    def _bars():
+        with Progress(TextColumn("[bold]{task.description:<18}"), BarColumn(), MofNCompleteColumn(),
+                      TimeElapsedColumn(), console=err_console(), transient=True) as prog:
+            def stage(label, total):
+                task = prog.add_task(label, total=max(1, total))
+                return lambda k=1: prog.advance(task, k)
+
+            yield stage
+
+    return _bars()
+
+
 def report_row_issues(result, quiet: bool = False) -> None:
     """Print the catalogue's row problems to stderr (one line each) and a summary line."""
     ec = err_console()

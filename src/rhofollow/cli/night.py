@@ -4,7 +4,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-from .common import UserError, add_json_option, add_seed_option, console, err_console, write_json
+from .common import (UserError, add_json_option, add_plan_options, console, err_console, load_catalogue,
+                     report_row_issues, stage_progress, write_json)
 
 __all__ = ["register", "run", "prepare", "Prepared", "load_site_arg"]
 
@@ -20,10 +21,8 @@ def register(subparsers):
     p.add_argument("--date", metavar="YYYY-MM-DD",
                    help="local date of the evening (default: the coming night at the site)")
     p.add_argument("--plot", metavar="PNG", help="write an altitude chart with the chosen blocks")
-    p.add_argument("--samples", type=int, default=20000,
-                   help="posterior samples per target in the assessment (default 20000)")
     add_json_option(p)
-    add_seed_option(p)
+    add_plan_options(p)
     p.set_defaults(func=run)
 
 
@@ -52,63 +51,27 @@ def load_site_arg(path):
 
 
 def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
-    """Read the catalogue, run assess -> eclipses -> rv for [start_iso, end_iso] (UTC) at ``site``."""
-    import warnings
-
-    from rich.progress import Progress
-
-    from ..assess import assess_catalogue
-    from ..eclipses import EclipseOptions, predict_occultations
-    from ..io.catalogue import read_catalogue
-    from ..io.instruments import InstrumentError, Photometer, Spectrograph, read_instruments
-    from ..planning.night import science_from_records
-    from ..planning.tasks import ValueModel
+    """Read the catalogue, run assess -> eclipses -> rv for [start_iso, end_iso] (UTC) at ``site``
+    (through :func:`rhofollow.pipeline.run_stages`, with the ledger when ``--ledger`` is given)."""
+    from ..pipeline import PipelineError, PipelineOptions, run_stages
     from ..planning.visibility import VisibilityEngine
-    from ..rvplan import plan_rv
 
     if args.samples < 200:
         raise UserError(f"--samples must be at least 200, got {args.samples}")
-    try:
-        insts = read_instruments(site.instruments) if site.instruments else {}
-    except InstrumentError as exc:
-        raise UserError(str(exc)) from None
-    spec = next((i for i in insts.values() if isinstance(i, Spectrograph)), None)
-    phot = next((i for i in insts.values() if isinstance(i, Photometer)), None)
-    if not Path(args.catalog).exists():
-        raise UserError(f"{args.catalog}: catalogue file not found")
-    try:
-        cat = read_catalogue(args.catalog, require_coords=True)
-    except Exception as exc:  # the reader's own error type carries a one-sentence message
-        if type(exc).__name__ == "CatalogueError":
-            raise UserError(str(exc)) from None
-        raise
-    ec = err_console()
-    for issue in cat.issues:
-        ec.print(f"[yellow]{issue.severity}:[/] {issue}", highlight=False)
+    cat = load_catalogue(args.catalog, require_coords=True)
+    report_row_issues(cat)
     if not cat.targets:
         raise UserError(f"{args.catalog}: no valid target rows to plan")
-    notices = []
-    with Progress(console=ec, transient=True) as prog:
-        t1 = prog.add_task("assessing", total=len(cat.targets))
-        assessments = assess_catalogue(cat.targets, n_samples=args.samples, seed=args.seed,
-                                       progress=lambda: prog.advance(t1))
-        opts = EclipseOptions(location=site.location, baseline_h=phot.baseline_h if phot else None)
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always")
-            occ = predict_occultations(assessments, start_iso, end_iso, opts)
-        notices += occ.get("notices", []) + sorted({str(w.message) for w in caught})
-        rv = []
-        if spec is not None:
-            t2 = prog.add_task("RV planning", total=len(assessments))
-            rv = plan_rv(assessments, spec, seed=args.seed, progress=lambda: prog.advance(t2))
-        else:
-            notices.append("the site lists no spectrograph: no RV visits planned")
-    science, skipped = science_from_records(assessments, occ["targets"], rv)
-    model = ValueModel(baseline_h=0.0, lead_h=(phot.overhead_min / 60.0) if phot else 0.0,
-                       partial_baseline_h=phot.baseline_h if phot else 1.0)
-    names = {"occultation": phot.name if phot else "photometer", "rv": spec.name if spec else "spectrograph"}
-    return Prepared(site, VisibilityEngine(site), science, skipped,
-                    (site.slew_minutes + site.setup_minutes) / 60.0, model, names, notices)
+    opts = PipelineOptions(samples=args.samples, seed=args.seed, ecc_prior=args.ecc_prior,
+                           transit_weight=not args.no_transit_weight, workers=args.workers,
+                           ledger=args.ledger)
+    try:
+        with stage_progress() as stage:
+            st = run_stages(cat.targets, site, start_iso, end_iso, opts, progress=stage)
+    except PipelineError as exc:
+        raise UserError(str(exc)) from None
+    return Prepared(site, VisibilityEngine(site), st.science, st.skipped, st.overhead_h, st.model,
+                    st.instruments, st.notices)
 
 
 def _local(engine, jd: float) -> str:
