@@ -4,7 +4,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from .common import UserError, add_json_option, add_seed_option, console, err_console, write_json
+from .common import (UserError, add_assess_options, add_json_option, console, err_console, run_assessment,
+                     write_json)
 
 __all__ = ["register", "run"]
 
@@ -27,8 +28,6 @@ def register(subparsers):
                    help="false-alarm probability of the eccentricity test (default 0.01)")
     p.add_argument("--power", type=float, default=0.8,
                    help="required probability of confirming e > 0 (default 0.8)")
-    p.add_argument("--samples", type=int, default=20000,
-                   help="posterior samples per target in the assessment (default 20000)")
     p.add_argument("--relation", default="auto",
                    choices=["auto", "wrf16", "otegi20-rocky", "otegi20-volatile", "giant"],
                    help="planet mass-radius relation when no mass is known (default auto)")
@@ -38,7 +37,7 @@ def register(subparsers):
                    help="simulated data sets under the circular null per test (default 2000; the "
                    "false-alarm threshold needs several per FAP^-1)")
     add_json_option(p)
-    add_seed_option(p)
+    add_assess_options(p)
     p.set_defaults(func=run)
 
 
@@ -56,7 +55,6 @@ def _fmt(q, digits=3):
 def run(args) -> int:
     from rich.table import Table
 
-    from ..assess import assess_catalogue
     from ..io.catalogue import read_catalogue
     from ..io.instruments import InstrumentError, Spectrograph, read_instruments
     from ..io.rvdata import RVDataError, read_rv_data
@@ -103,10 +101,8 @@ def run(args) -> int:
                      highlight=False)
     from rich.progress import Progress
 
+    assessments = run_assessment(cat.targets, args)
     with Progress(console=ec, transient=True) as prog:
-        task = prog.add_task("assessing", total=len(cat.targets))
-        assessments = assess_catalogue(cat.targets, n_samples=args.samples, seed=args.seed,
-                                       progress=lambda: prog.advance(task))
         task2 = prog.add_task("RV planning", total=len(assessments))
         records = plan_rv(assessments, plan_inst, rv_data, fap=args.fap, power=args.power, seed=args.seed,
                           relation=args.relation, k_mode=args.k_mode, n_null=args.sims,
