@@ -233,20 +233,25 @@ def _omega_quantiles(omega: np.ndarray, w: np.ndarray) -> dict:
 
 def assess_target(t: Target, n_samples: int = DEFAULT_N_SAMPLES, prior: str | EccPrior = DEFAULT_PRIOR,
                   seed: int = 0, transit_prob: bool = True, ess_floor: float = ESS_FLOOR,
-                  hypotheses=HYPOTHESES) -> Assessment:
-    """Assess one validated target. Never raises for a bad row: problems land in ``errors``."""
+                  hypotheses=HYPOTHESES, extra_loglike=None) -> Assessment:
+    """Assess one validated target. Never raises for a bad row: problems land in ``errors``.
+
+    ``extra_loglike(aux) -> array`` (optional) folds further measurements of the target (RVs,
+    occultation timings; see :mod:`rhofollow.ledger_update`) into every hypothesis' likelihood.
+    """
     rng = target_seed(seed, t.name)
     warnings = list(t.warnings)
     try:
         prior_obj = prior if isinstance(prior, EccPrior) else parse_prior(prior)
-        return _assess(t, n_samples, prior_obj, rng, transit_prob, ess_floor, warnings, hypotheses)
+        return _assess(t, n_samples, prior_obj, rng, transit_prob, ess_floor, warnings, hypotheses,
+                       extra_loglike)
     except _RowProblem as exc:
         msg = f"{t.source}, row {t.row} ({t.name}): {exc}"
         return Assessment(t.name, t, False, [msg], warnings,
                           record={"name": t.name, "ok": False, "errors": [msg], "warnings": warnings})
 
 
-def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses) -> Assessment:
+def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, extra_loglike=None) -> Assessment:
     period = _obs(t, "period_d", warnings)
     if period.lo <= 0:
         period = Obs(period.value, 0.0, 0.0)
@@ -306,7 +311,8 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses) -> 
             continue
         m = n if hyp == "eccentric" else max(2000, n // 4)
         floor = ess_floor if hyp == "eccentric" else min(ess_floor, m / 10)
-        results[hyp] = run_hypothesis(hyp, obs, star, setup, m, rng, ess_floor=floor)
+        results[hyp] = run_hypothesis(hyp, obs, star, setup, m, rng, ess_floor=floor,
+                                      extra_loglike=extra_loglike)
 
     ecc_res = results["eccentric"]
     lw = ecc_res.log_w

@@ -25,7 +25,7 @@ from .physics import occultation_timing as ot
 from .samples import SampleSet, quantile_dict
 
 __all__ = ["LedgerUpdate", "LedgerUpdateError", "DEFAULT_BAND_UM", "rv_log_like",
-           "occultation_log_like", "posterior_summary", "update_from_ledger",
+           "occultation_log_like", "posterior_summary", "update_from_ledger", "data_log_like",
            "target_from_catalogue_row", "update_targets", "apply_to_assessments", "MIN_ESS_WARNING", "CONFLICT_SIGMA"]
 
 #: Band assumed for a non-detection recorded without one (microns); each use is a warning.
@@ -34,6 +34,8 @@ DEFAULT_BAND_UM = 4.5
 CONFLICT_SIGMA = 5.0
 #: Below this effective sample size an update warns that more samples are needed.
 MIN_ESS_WARNING = 200.0
+#: Below this effective sample size after re-weighting, the posterior is drawn afresh with the data.
+RESAMPLE_ESS = 1000.0
 
 
 class LedgerUpdateError(ValueError):
@@ -143,9 +145,30 @@ def _source_hash(samples: SampleSet, rvs, timings, settings: dict) -> str:
     return h.hexdigest()
 
 
+def data_log_like(name: str, rvs, timings, *, jitter_ms: float = 0.0, threshold_sigma: float = 3.0):
+    """The ledger data's log-likelihood as a function of the sampler's physical arrays (for
+    :func:`rhofollow.assess.assess_target`'s ``extra_loglike``)."""
+    from .samples import SAMPLE_COLUMNS
+
+    def f(aux: dict) -> np.ndarray:
+        m = len(aux["e"])
+        s = SampleSet(name=name, weights=np.ones(m), **{c: aux[c] for c in SAMPLE_COLUMNS})
+        ll = rv_log_like(s, rvs, jitter_ms=jitter_ms)
+        det, non, _ = occultation_log_like(s, timings, threshold_sigma=threshold_sigma)
+        return ll + det + non
+
+    return f
+
+
 def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float = 0.0,
-                       threshold_sigma: float = 3.0, store: bool = True) -> LedgerUpdate:
+                       threshold_sigma: float = 3.0, store: bool = True, target: Target | None = None,
+                       prior=None, seed: int = 0) -> LedgerUpdate:
     """Re-weight ``samples`` with everything the ledger holds for ``samples.name``.
+
+    When the data are so informative that the re-weighted effective sample size falls below
+    :data:`RESAMPLE_ESS` and the catalogue ``target`` is known, the posterior is drawn afresh with
+    the data inside the sampler's likelihood (the adaptive proposal then follows the joint
+    posterior), instead of keeping a handful of surviving samples.
 
     With ``store`` the summary is written as a posterior version (the same inputs twice add
     nothing: the version is keyed by a hash of the samples, the data and the settings).
@@ -161,6 +184,18 @@ def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float =
         raise LedgerUpdateError(f"{name}: the ledger's measurements exclude every posterior "
                                 "sample; check the data or draw more samples")
     new = samples.reweighted(total)
+    if new.ess < RESAMPLE_ESS and target is not None:
+        from .assess import assess_target
+
+        kw = {} if prior is None else {"prior": prior}
+        fresh = assess_target(target, n_samples=samples.n, seed=seed, hypotheses=("eccentric",),
+                              extra_loglike=data_log_like(name, rvs, timings, jitter_ms=jitter_ms,
+                                                          threshold_sigma=threshold_sigma), **kw)
+        if fresh.ok and fresh.samples is not None and fresh.samples.ess > new.ess:
+            warnings.append(f"re-weighting left {new.ess:.0f} effective samples; the posterior was drawn "
+                            f"afresh with the data in the likelihood (effective sample size "
+                            f"{fresh.samples.ess:.0f})")
+            new = fresh.samples
     if new.ess < MIN_ESS_WARNING:
         warnings.append(f"effective sample size fell to {new.ess:.0f} of {new.n}; the updated "
                         "posterior is noisy (draw more samples)")
@@ -221,7 +256,8 @@ def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples:
                         "warnings": list(a.warnings)})
             continue
         try:
-            res = update_from_ledger(ledger, a.samples, jitter_ms=jitter_ms, store=store)
+            res = update_from_ledger(ledger, a.samples, jitter_ms=jitter_ms, store=store, target=a.target,
+                                     prior=prior, seed=seed)
         except LedgerUpdateError as exc:
             out.append({"name": a.name, "ok": False, "errors": [str(exc)],
                         "warnings": list(a.warnings)})
@@ -234,7 +270,7 @@ def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples:
 
 
 def apply_to_assessments(ledger: Ledger, assessments, *, jitter_ms: float = 0.0,
-                         store: bool = False) -> dict[str, LedgerUpdate]:
+                         store: bool = False, seed: int = 0) -> dict[str, LedgerUpdate]:
     """For the planners: replace, in place, the samples of each assessment that has RVs or
     occultation data in the ledger by the re-weighted samples, and add the update's warnings.
 
@@ -249,7 +285,9 @@ def apply_to_assessments(ledger: Ledger, assessments, *, jitter_ms: float = 0.0,
         if not ledger.rv_measurements(a.name) and not ledger.occultation_timings(a.name):
             continue
         try:
-            res = update_from_ledger(ledger, a.samples, jitter_ms=jitter_ms, store=store)
+            res = update_from_ledger(ledger, a.samples, jitter_ms=jitter_ms, store=store,
+                                     target=getattr(a, "target", None),
+                                     prior=(a.record or {}).get("prior"), seed=seed)
         except LedgerUpdateError as exc:
             a.warnings.append(f"ledger data not applied: {exc}")
             continue

@@ -261,7 +261,7 @@ def _make_proxy(hyp, dims, obs, host, setup):
 
 
 def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: HypothesisSetup,
-                   n: int, rng: np.random.Generator, ess_floor: float = 2000.0
+                   n: int, rng: np.random.Generator, ess_floor: float = 2000.0, extra_loglike=None
                    ) -> ImportanceResult:
     """Importance-sample one hypothesis; returns weights, evidence and physical arrays in ``aux``.
 
@@ -274,6 +274,10 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
 
     ``aux`` holds e, omega, b, k (true radius ratio of the host), period, t0, rho_star, mstar, rstar,
     a_rs, inc, teff, dilution.
+
+    ``extra_loglike(aux) -> array`` adds the log-likelihood of further data (measured RVs, occultation
+    timings) to the weights, so the proposal adapts to the joint posterior instead of re-weighting
+    samples drawn without it.
     """
     if hyp not in HYPOTHESES:
         raise ValueError(f"unknown hypothesis {hyp!r}")
@@ -382,11 +386,18 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
         aux = dict(e=e, omega=np.mod(w, 2 * np.pi), b=b, k=k_true, period=period, t0=t0,
                    rho_star=rho, mstar=mstar, rstar=rstar, a_rs=a_rs, teff=teff, dilution=dilution,
                    loglike=np.where(np.isfinite(ll), ll, -np.inf))
+        if extra_loglike is not None:
+            bb = b if dur else np.full(m, 0.5)
+            with np.errstate(invalid="ignore"):
+                inc = inclination_from_b(bb, a_rs, e, w)
+            aux["inc"] = np.where(np.isfinite(inc), inc, np.pi / 2)
+            log_w = log_w + extra_loglike(aux)
         return np.where(np.isfinite(log_w), log_w, -np.inf), aux
 
     proxy = _make_proxy(hyp, dims, obs, host, setup) if hyp == "eccentric" else None
     res = adaptive_importance_sample(model, d, n, rng, ess_floor=ess_floor, proxy=proxy,
-                                     pool=(hyp == "eccentric"))
+                                     pool=(hyp == "eccentric"),
+                                     max_rounds=4 if extra_loglike is None else 10)
     aux = res.aux
     if not dur:
         # b is not constrained by a density-only route: draw it from its measurement when given, else
