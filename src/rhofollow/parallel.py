@@ -10,7 +10,7 @@ from concurrent.futures import ProcessPoolExecutor
 
 from .assess import assess_catalogue
 
-__all__ = ["assess_parallel", "chunked"]
+__all__ = ["assess_parallel", "assess_stream", "chunked"]
 
 
 def chunked(seq, size):
@@ -53,3 +53,40 @@ def assess_parallel(targets, *, n_samples, prior, seed, transit_prob=True, worke
             if progress:
                 progress(len(part))
     return out
+
+
+def assess_stream(targets, *, n_samples, prior, seed, transit_prob=True, workers=1, chunk=64,
+                  dask_address=None):
+    """Yield lists of Assessments chunk by chunk, in input order, for catalogues too large to hold.
+
+    The caller reduces each chunk (records, written samples) and lets its samples go, so memory
+    stays bounded by ``chunk`` (times the number of workers) whatever the catalogue size. With
+    ``workers > 1`` the chunks are computed in a process pool, at most ``2 * workers`` in flight.
+    """
+    targets = list(targets)
+    kw = dict(n_samples=n_samples, prior=prior, seed=seed, transit_prob=transit_prob)
+    chunks = list(chunked(targets, chunk))
+    if dask_address:
+        from distributed import Client
+
+        with Client(dask_address) as client:
+            for c in chunks:
+                yield client.submit(_work, (c, kw), pure=False).result()
+        return
+    if workers <= 1:
+        for c in chunks:
+            yield assess_catalogue(c, **kw)
+        return
+    with ProcessPoolExecutor(max_workers=workers) as pool:
+        pending = []
+        it = iter(chunks)
+        for c in it:
+            pending.append(pool.submit(_work, (c, kw)))
+            if len(pending) >= 2 * workers:
+                break
+        while pending:
+            done = pending.pop(0).result()
+            nxt = next(it, None)
+            if nxt is not None:
+                pending.append(pool.submit(_work, (nxt, kw)))
+            yield done

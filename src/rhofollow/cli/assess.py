@@ -6,7 +6,7 @@ from pathlib import Path
 from rich.table import Table
 
 from .common import (add_assess_options, add_json_option, console, load_catalogue, report_row_issues,
-                     run_assessment, write_json, atomic_write_text)
+                     write_json, atomic_write_text)
 
 __all__ = ["register", "run", "summary_table", "assessment_table"]
 
@@ -102,10 +102,40 @@ def write_samples(assessments, directory) -> int:
     return n
 
 
+def _stream(targets, args):
+    """Assess in chunks, writing samples as they come and keeping only the records (bounded memory)."""
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    from ..parallel import assess_stream
+    from ..physics.priors import parse_prior
+    from .common import UserError, err_console
+
+    try:
+        prior = parse_prior(args.ecc_prior)
+    except ValueError as exc:
+        raise UserError(f"--ecc-prior: {exc}") from None
+    if args.samples < 500:
+        raise UserError("--samples must be at least 500")
+    kept = []
+    with Progress(TextColumn("[bold]{task.description}"), BarColumn(), MofNCompleteColumn(),
+                  TimeRemainingColumn(), console=err_console(), transient=True,
+                  disable=len(targets) < 5) as prog:
+        task = prog.add_task("assessing", total=len(targets))
+        for part in assess_stream(targets, n_samples=args.samples, prior=prior, seed=args.seed,
+                                  transit_prob=not args.no_transit_weight, workers=max(1, args.workers)):
+            if args.samples_out:
+                write_samples(part, args.samples_out)
+            for a in part:
+                a.samples = None  # the record is all this command keeps
+            kept.extend(part)
+            prog.advance(task, len(part))
+    return kept
+
+
 def run(args) -> int:
     result = load_catalogue(args.catalog)
     report_row_issues(result, quiet=True)
-    assessments = run_assessment(result.targets, args)
+    assessments = _stream(result.targets, args)
     records = [a.record for a in assessments]
     con = console()
     con.print(summary_table(records))
@@ -126,6 +156,4 @@ def run(args) -> int:
         buf = _io.StringIO()
         assessment_table(records).write(buf, format="ascii.ecsv")
         atomic_write_text(args.ecsv, buf.getvalue())
-    if args.samples_out:
-        write_samples(assessments, args.samples_out)
     return 1 if n_bad else 0
