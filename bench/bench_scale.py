@@ -1,0 +1,94 @@
+"""Benchmark: catalogue scale. assess + eclipses + rv in chunks, serial vs a 2-process pool.
+
+Each mode runs in a fresh Python process so its peak memory (resident set, this process plus its
+workers) is measured on its own. Chunks keep only the JSON records, so memory stays bounded whatever
+the catalogue size. Default: 60 rows x 20,000 samples (RV test with 200 simulated data sets);
+``--full``: 10,000 rows (hours on a 2-core machine with the RV stage; add ``--no-rv`` for the
+assessment and occultation stages alone). Prints times, the speed-up and peak memory; checks that
+both modes give identical records.
+"""
+from __future__ import annotations
+
+import argparse
+import hashlib
+import json
+import resource
+import subprocess
+import sys
+import time
+from concurrent.futures import ProcessPoolExecutor
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+ROOT = HERE.parent
+
+
+def _chunk_records(args):
+    """assess -> eclipses -> rv for one chunk; returns only the records (samples are dropped)."""
+    targets, samples, sims, with_rv = args
+    from rhofollow.assess import assess_catalogue
+    from rhofollow.eclipses import predict_occultations
+    from rhofollow.io.instruments import read_instrument
+
+    a = assess_catalogue(targets, n_samples=samples, seed=7)
+    occ = predict_occultations(a, "2027-01-01", "2027-12-31")["targets"]
+    rv = []
+    if with_rv:
+        from rhofollow.rvplan import plan_rv
+
+        spec = read_instrument(ROOT / "site_configs/instruments/aq_vel.toml")
+        rv = plan_rv(a, spec, seed=7, n_null=sims, n_alt=min(400, sims))
+    return [x.record for x in a], occ, rv
+
+
+def run_mode(rows, samples, sims, workers, with_rv, chunk=20):
+    sys.path.insert(0, str(HERE))
+    from bench_assess import synthetic_rows
+
+    targets = synthetic_rows(rows, seed=3)
+    for t in targets:  # the RV stage needs a magnitude
+        from rhofollow.io.table_types import Measurement
+        t.values.setdefault("vmag", Measurement(10.5))
+    jobs = [(targets[i:i + chunk], samples, sims, with_rv) for i in range(0, rows, chunk)]
+    t0 = time.perf_counter()
+    if workers <= 1:
+        parts = [_chunk_records(j) for j in jobs]
+    else:
+        with ProcessPoolExecutor(max_workers=workers) as pool:
+            parts = list(pool.map(_chunk_records, jobs))
+    dt = time.perf_counter() - t0
+    digest = hashlib.sha256(json.dumps(parts, sort_keys=True, default=str).encode()).hexdigest()[:16]
+    peak_mb = (resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+               + resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss) / 1024
+    print(json.dumps({"seconds": dt, "digest": digest, "peak_mb": peak_mb}))
+
+
+def main():
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--full", action="store_true")
+    ap.add_argument("--rows", type=int)
+    ap.add_argument("--samples", type=int, default=20000)
+    ap.add_argument("--sims", type=int, default=200)
+    ap.add_argument("--no-rv", action="store_true")
+    ap.add_argument("--_mode", type=int, help=argparse.SUPPRESS)
+    a = ap.parse_args()
+    rows = a.rows or (10000 if a.full else 60)
+    if a._mode is not None:
+        run_mode(rows, a.samples, a.sims, a._mode, not a.no_rv)
+        return
+    res = {}
+    for w in (1, 2):
+        cmd = [sys.executable, __file__, "--rows", str(rows), "--samples", str(a.samples), "--sims",
+               str(a.sims), "--_mode", str(w)] + (["--no-rv"] if a.no_rv else [])
+        out = subprocess.run(cmd, capture_output=True, text=True, check=True).stdout.strip().splitlines()[-1]
+        res[w] = json.loads(out)
+    stages = "assess + eclipses" + ("" if a.no_rv else f" + rv ({a.sims} simulated sets)")
+    print(f"{rows} rows x {a.samples} samples, {stages}")
+    print(f"serial:     {res[1]['seconds']:8.1f} s, peak memory {res[1]['peak_mb']:7.0f} MiB")
+    print(f"2 workers:  {res[2]['seconds']:8.1f} s, peak memory {res[2]['peak_mb']:7.0f} MiB (all processes)")
+    print(f"speed-up:   {res[1]['seconds'] / res[2]['seconds']:.2f}x; identical records: "
+          f"{res[1]['digest'] == res[2]['digest']}")
+
+
+if __name__ == "__main__":
+    main()
