@@ -104,22 +104,12 @@ def write_samples(assessments, directory) -> int:
 
 def _stream(targets, args):
     """Assess in chunks, writing samples as they come and keeping only the records (bounded memory)."""
-    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
-
     from ..parallel import assess_stream
-    from ..physics.priors import parse_prior
-    from .common import UserError, err_console
+    from .common import checked_prior, count_progress
 
-    try:
-        prior = parse_prior(args.ecc_prior)
-    except ValueError as exc:
-        raise UserError(f"--ecc-prior: {exc}") from None
-    if args.samples < 500:
-        raise UserError("--samples must be at least 500")
+    prior = checked_prior(args)
     kept = []
-    with Progress(TextColumn("[bold]{task.description}"), BarColumn(), MofNCompleteColumn(),
-                  TimeRemainingColumn(), console=err_console(), transient=True,
-                  disable=len(targets) < 5) as prog:
+    with count_progress(len(targets)) as prog:
         task = prog.add_task("assessing", total=len(targets))
         for part in assess_stream(targets, n_samples=args.samples, prior=prior, seed=args.seed,
                                   transit_prob=not args.no_transit_weight, workers=max(1, args.workers)):

@@ -3,13 +3,13 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import tempfile
 from pathlib import Path
 
 from rich.console import Console
 
-__all__ = ["UserError", "console", "err_console", "add_json_option", "add_seed_option",
+from ..io.atomic import atomic_write_text
+
+__all__ = ["UserError", "atomic_write_text", "console", "err_console", "add_json_option", "add_seed_option",
            "write_json", "atomic_write_text", "json_default"]
 
 
@@ -71,22 +71,6 @@ def _clean(o):
     return o
 
 
-def atomic_write_text(path: str | os.PathLike, text: str) -> Path:
-    """Write text to a temporary file beside ``path`` and rename it into place (atomic)."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-    return path
-
-
 def write_json(path, obj) -> Path:
     """Atomically write ``obj`` as standard JSON (NaN -> null)."""
     import numpy as np  # noqa: F401  (json_default needs it)
@@ -123,7 +107,7 @@ def add_plan_options(p) -> None:
                    "update the posteriors, visits done count, measured occultations are not re-planned")
 
 
-def stage_progress():
+def stage_progress(transient: bool = True):
     """Context manager: a rich Progress on stderr and a StageProgress callback drawing on it."""
     from contextlib import contextmanager
 
@@ -132,7 +116,7 @@ def stage_progress():
     @contextmanager
     def _bars():
         with Progress(TextColumn("[bold]{task.description:<18}"), BarColumn(), MofNCompleteColumn(),
-                      TimeElapsedColumn(), console=err_console(), transient=True) as prog:
+                      TimeElapsedColumn(), console=err_console(), transient=transient) as prog:
             def stage(label, total):
                 task = prog.add_task(label, total=max(1, total))
                 return lambda k=1: prog.advance(task, k)
@@ -166,11 +150,8 @@ def load_catalogue(path, require_coords: bool = False):
         raise UserError(f"{path}: no such file") from None
 
 
-def run_assessment(targets, args, label: str = "assessing"):
-    """Run the assessment with a progress bar on stderr; returns the list of Assessments."""
-    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
-
-    from ..parallel import assess_parallel
+def checked_prior(args):
+    """The eccentricity prior and sample count of the assessment options, checked (UserError if bad)."""
     from ..physics.priors import parse_prior
 
     try:
@@ -179,9 +160,24 @@ def run_assessment(targets, args, label: str = "assessing"):
         raise UserError(f"--ecc-prior: {exc}") from None
     if args.samples < 500:
         raise UserError("--samples must be at least 500")
-    with Progress(TextColumn("[bold]{task.description}"), BarColumn(), MofNCompleteColumn(),
-                  TimeRemainingColumn(), console=err_console(), transient=True,
-                  disable=len(targets) < 5) as prog:
+    return prior
+
+
+def count_progress(total: int, label: str = "assessing"):
+    """A transient rich progress bar on stderr (hidden for fewer than 5 items)."""
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    prog = Progress(TextColumn("[bold]{task.description}"), BarColumn(), MofNCompleteColumn(),
+                    TimeRemainingColumn(), console=err_console(), transient=True, disable=total < 5)
+    return prog
+
+
+def run_assessment(targets, args, label: str = "assessing"):
+    """Run the assessment with a progress bar on stderr; returns the list of Assessments."""
+    from ..parallel import assess_parallel
+
+    prior = checked_prior(args)
+    with count_progress(len(targets), label) as prog:
         task = prog.add_task(label, total=len(targets))
         return assess_parallel(targets, n_samples=args.samples, prior=prior, seed=args.seed,
                                transit_prob=not args.no_transit_weight,

@@ -7,10 +7,9 @@ With no catalogue it runs the bundled demo scenario.
 from __future__ import annotations
 
 import datetime as dt
-from contextlib import contextmanager
 from pathlib import Path
 
-from .common import UserError, add_seed_option, console, err_console
+from .common import UserError, add_seed_option, console, err_console, stage_progress
 
 __all__ = ["register", "run", "demo_paths", "plan_to_folder", "DEMO_DAYS"]
 
@@ -81,20 +80,6 @@ def _date(s: str, opt: str) -> dt.date:
         raise UserError(f"{opt} must be YYYY-MM-DD, got {s!r}") from None
 
 
-@contextmanager
-def _bars():
-    """A rich Progress on stderr and a :data:`rhofollow.pipeline.StageProgress` callback drawing on it."""
-    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
-
-    with Progress(TextColumn("[bold]{task.description:<18}"), BarColumn(), MofNCompleteColumn(),
-                  TimeElapsedColumn(), console=err_console(), transient=False) as prog:
-        def stage(label, total):
-            task = prog.add_task(label, total=max(1, total))
-            return lambda k=1: prog.advance(task, k)
-
-        yield stage
-
-
 def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args) -> dict:
     """Run the pipeline and write the report folder; returns ``write_report``'s dict plus the result."""
     from ..io.rvdata import RVDataError, read_rv_data
@@ -125,7 +110,7 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args) 
     opts = PipelineOptions(samples=args.samples, seed=args.seed, ecc_prior=args.ecc_prior,
                            transit_weight=not args.no_transit_weight, workers=args.workers,
                            dask_address=args.dask, sims=args.sims, rv_data=rv_data)
-    with _bars() as stage:
+    with stage_progress(transient=False) as stage:
         try:
             result = run_pipeline(cat.targets, site, start, end, opts, progress=stage)
         except PipelineError as exc:

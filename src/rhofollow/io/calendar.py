@@ -67,6 +67,6 @@ def windows_to_ics(result: dict) -> bytes:
 
 def write_ics(path, result: dict):
     """Write the windows of ``result`` to ``path`` atomically; returns the path."""
-    from ..cli.common import atomic_write_text
+    from .atomic import atomic_write_text
 
     return atomic_write_text(path, windows_to_ics(result).decode("utf-8"))

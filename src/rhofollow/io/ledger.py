@@ -846,7 +846,7 @@ class Ledger:
         ``targets.jsonl``, ``rv.csv``, ``occultations.csv``, ``done.csv``, ``posteriors.jsonl``;
         :meth:`import_folder` on a fresh ledger reproduces :meth:`content` exactly.
         """
-        from ..cli.common import atomic_write_text
+        from .atomic import atomic_write_text
 
         folder = Path(folder)
         folder.mkdir(parents=True, exist_ok=True)
