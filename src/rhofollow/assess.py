@@ -231,6 +231,16 @@ def _omega_quantiles(omega: np.ndarray, w: np.ndarray) -> dict:
     return {k: v - shift for k, v in q.items()}
 
 
+def _explanation_probabilities(logz: dict) -> dict:
+    """Posterior probability of each explanation from its log-evidence, with equal prior odds."""
+    if not logz:
+        return {}
+    m = max(logz.values())
+    w = {h: math.exp(v - m) for h, v in logz.items()}
+    tot = sum(w.values())
+    return {h: v / tot for h, v in w.items()}
+
+
 def assess_target(t: Target, n_samples: int = DEFAULT_N_SAMPLES, prior: str | EccPrior = DEFAULT_PRIOR,
                   seed: int = 0, transit_prob: bool = True, ess_floor: float = ESS_FLOOR,
                   hypotheses=HYPOTHESES, extra_loglike=None) -> Assessment:
@@ -372,6 +382,7 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
         "n_samples": int(samples.n),
         "prior": prior.name,
         "log_evidence": {h: (v if math.isfinite(v) else None) for h, v in logz.items()},
+        "p_explanation": _explanation_probabilities(finite),
         "favoured": favoured,
         "ln_bayes_factor": ln_b if math.isfinite(ln_b) else None,
         "evidence_strength": evidence_strength(ln_b) if math.isfinite(ln_b) else "only one explanation fits",

@@ -128,11 +128,14 @@ def _print_summary(written: dict, out: Path, top: int = 8) -> None:
     doc = written["doc"]
     _head, rows = ranked_table(doc, top)
     tab = Table(title=f"{doc['site']}, {doc['start']} to {doc['end']}: top targets")
-    for col in ("#", "target", "priority", "P(e>0.1)", "e", "favoured", "RVs needed", "occ/RV at site"):
-        tab.add_column(col, justify="left" if col in ("target", "favoured") else "right", no_wrap=True)
+    tab.caption = ("priority = P(eccentric explanation) × P(e>0.1) × testability; e: median; RVs: visits "
+                   "to confirm e > 0; planned: occultation windows / RV visits that fit at the site")
+    for col in ("#", "target", "priority", "e", "favoured", "RVs", "planned"):
+        tab.add_column(col, justify="left" if col in ("target", "favoured") else "right", no_wrap=True,
+                       min_width=len(col))
     for r in rows:
-        tab.add_row(r[0], r[1], r[2], r[3], r[4].split(" ")[0], r[6], r[9].replace("not confirmable", "n/a"),
-                    r[10].replace(" ", ""))
+        tab.add_row(r[0], r[1], r[2], r[4].split(" ")[0], r[6].replace("_", " "),
+                    r[9].replace("not confirmable", "n/a"), r[10].replace(" ", ""))
     con = console()
     con.print(tab)
     tot = doc.get("hours_total", {})

@@ -1,6 +1,8 @@
 """Per-target results of a ``plan`` run as JSON, ECSV and CSV (one row per catalogue target).
 
-The ranking is plain and stated in every report: priority = P(e > 0.1) x testability, where
+The ranking is plain and stated in every report: priority = P(eccentric explanation) x P(e > 0.1) x
+testability, where P(eccentric explanation) is the eccentric orbit's share of the explanations'
+evidence (equal prior odds; a likely blend or other-host case ranks low), and
 testability is the larger of (a) P(occultation happens) when at least one occultation window is
 observable from the site in the date range, and (b) the fraction of the RV visits needed to confirm
 e > 0 that fit in the range (0 when RVs cannot confirm it). Ties go to the larger density mismatch.
@@ -16,7 +18,8 @@ from ..samples import QUANTILE_LEVELS
 __all__ = ["PRIORITY_RULE", "rank_targets", "results_document", "flat_rows", "rows_to_csv", "rows_to_ecsv",
            "COLUMN_UNITS"]
 
-PRIORITY_RULE = ("priority = P(e > 0.1) x testability; testability = max(P(occultation) if an occultation "
+PRIORITY_RULE = ("priority = P(eccentric explanation) x P(e > 0.1) x testability; P(eccentric explanation) "
+                 "= the eccentric orbit's share of the explanations' evidence (equal prior odds); testability = max(P(occultation) if an occultation "
                  "window is observable from the site in the range, fraction of the RV visits needed to "
                  "confirm e > 0 that fit in the range)")
 
@@ -49,7 +52,9 @@ def rank_targets(result) -> dict:
         need = _num(rv.get(a.name, {}).get("n_epochs_confirm_ecc"), 0.0)
         t_rv = min(1.0, len(c.get("rv_visits", [])) / need) if need > 0 else 0.0
         test = max(t_occ, t_rv)
-        out[a.name] = {"priority": round(_num(rec.get("p_ecc_gt_0p1")) * test, 6), "testability": round(test, 6),
+        p_model = _num((rec.get("p_explanation") or {}).get("eccentric"), 1.0)
+        out[a.name] = {"priority": round(p_model * _num(rec.get("p_ecc_gt_0p1")) * test, 6),
+                       "testability": round(test, 6), "p_eccentric_explanation": round(p_model, 6),
                        "p_ecc_gt_0p1": rec.get("p_ecc_gt_0p1"),
                        "_tie": _num(rec.get("density_ratio_sigma"))}
     ok = sorted((n for n, v in out.items() if v.get("p_ecc_gt_0p1") is not None),
