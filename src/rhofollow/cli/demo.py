@@ -26,10 +26,10 @@ def register(subparsers):
 
 def run(args) -> int:
     from .common import err_console
-    from .plan import DEMO_DAYS, _print_summary, demo_paths, plan_to_folder
+    from .plan import DEMO_DAYS, _print_summary, demo_paths, plan_to_folder, site_evening_date
 
     cat, site = demo_paths()
-    start = dt.date.today()
+    start = site_evening_date(site)
     end = start + dt.timedelta(days=DEMO_DAYS)
     err_console().print(f"Demo: {cat.name} at {site.name}, {start} to {end} (invented data).", highlight=False)
     out = Path(args.out)

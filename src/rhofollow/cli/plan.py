@@ -152,11 +152,24 @@ def _print_summary(written: dict, out: Path, top: int = 8) -> None:
         ec.print(f"[yellow]notice:[/] {n}", highlight=False)
 
 
+def site_evening_date(site_path) -> dt.date:
+    """The local date of the evening in progress or coming at the site (before local noon: the
+    evening that began yesterday), from the site file's IANA time zone; today's UTC date if unreadable."""
+    from ..planning.site import ConfigError, load_site
+
+    try:
+        tz = load_site(site_path, check_files=False).tzinfo
+    except (ConfigError, OSError):
+        return dt.datetime.now(dt.timezone.utc).date()
+    now = dt.datetime.now(tz)
+    return now.date() - dt.timedelta(days=1) if now.hour < 12 else now.date()
+
+
 def run(args) -> int:
     if args.catalog is None:
         cat, site = demo_paths()
         site = args.site or site
-        start = _date(args.start, "--start") if args.start else dt.date.today()
+        start = _date(args.start, "--start") if args.start else site_evening_date(site)
         end = _date(args.end, "--end") if args.end else start + dt.timedelta(days=DEMO_DAYS)
         err_console().print(f"No catalogue given: running the bundled demo ({cat.name}, {Path(site).name}, "
                             f"{start} to {end}).", highlight=False)
