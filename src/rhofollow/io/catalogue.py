@@ -540,7 +540,7 @@ def _check_row(v: dict[str, float], given: set[str], label, require_coords: bool
     k = v.get("rp_rs")
     if k is None and "depth_ppm" in v:
         k = math.sqrt(v["depth_ppm"] * 1e-6)
-    if "rp_rs" in v and "depth_ppm" in v:
+    if "rp_rs" in v and "depth_ppm" in v and v["rp_rs"] ** 2 > 0:  # (a tiny rp_rs can underflow)
         ratio = v["depth_ppm"] * 1e-6 / v["rp_rs"] ** 2
         if not (0.5 <= ratio <= 2.0):
             warns.append((label("depth_ppm"), f"depth_ppm is {ratio:.2g} x rp_rs^2; the two "
