@@ -21,9 +21,9 @@ from .physics.occultation import (eclipse_durations, light_travel_delay, occulta
                                   occultation_impact_parameter, separation_at_occultation)
 from .physics.thermal import BAND_MAX_UM, BAND_MIN_UM, occultation_depth, tophat_band
 from .physics.windows import summarise_events
-from .samples import QUANTILE_LEVELS, SampleSet, quantile_dict
+from .samples import QUANTILE_LEVELS, SampleSet, quantile_dict, reliability
 
-__all__ = ["CAUTION", "MAX_RANGE_YEARS", "EclipseInputError", "EclipseOptions", "parse_date",
+__all__ = ["CAUTION", "MAX_RANGE_YEARS", "EclipseInputError", "EclipseOptions", "parse_date", "describe_failure",
            "check_band", "bjd_tdb_to_utc", "predict_occultations"]
 
 #: Printed with every plan: the tool advises, the observatory decides.
@@ -173,6 +173,12 @@ def _notice(caught) -> str:
     return ("some times lie beyond the installed Earth-orientation or leap-second tables "
             "(no download attempted); UTC is extrapolated and may be off by a leap second")
 
+def describe_failure(exc: BaseException) -> str:
+    """One line naming an unexpected exception (its type and first message line)."""
+    text = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
+    return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
+
+
 def _as_items(items):
     """Normalise assessments / SampleSets to (name, ok, errors, warnings, samples, target)."""
     out = []
@@ -222,7 +228,10 @@ def _target_record(s: SampleSet, target, opts, start_bjd, end_bjd, lam, resp):
     occ = occultation_occurs(s.a_rs, s.inc, s.e, s.omega, s.k)
     p_occ = float(np.sum(w * occ))
     rec = {"p_occultation": p_occ, "n_samples": s.n, "ess": s.ess}
-    if p_occ <= 0.0:
+    rec["reliable"], why = reliability(s.ess)
+    if not rec["reliable"]:
+        rec["reliability_note"] = why
+    if not p_occ > 0.0:
         warn.append("no posterior sample gives an occultation (the planet always passes outside "
                     "the stellar disc): no events listed")
         rec.update(occ_phase=_empty_q(), occ_duration_h=_empty_q(), occ_full_duration_h=_empty_q(),
@@ -249,7 +258,7 @@ def _target_record(s: SampleSet, target, opts, start_bjd, end_bjd, lam, resp):
     wsub = wi[sub]
     ok14 = np.isfinite(t14)
     bad_frac = 1.0 - wsub[ok14].sum() / wsub.sum()
-    if bad_frac >= 0.001:
+    if 0.001 <= bad_frac < 1.0:
         warn.append(f"{100 * bad_frac:.1f}% of the occulting samples have orbits that graze the "
                     "star at periastron: no duration for them")
     rec["occ_phase"] = quantile_dict((dt + ltt) / per, wi)
@@ -258,6 +267,14 @@ def _target_record(s: SampleSet, target, opts, start_bjd, end_bjd, lam, resp):
     full = np.isfinite(t23)
     rec["occ_full_duration_h"] = (quantile_dict(t23[full], wsub[full], _DAY_H) if full.any()
                                   else _empty_q())
+    if rec["occ_duration_h"]["q50"] is None:
+        # Every occulting orbit grazes the star at periastron (for example a posterior piled up at
+        # e ~ 0.99 on a short period): no duration, so no window can be drawn around the events.
+        warn.append("no occulting sample has an occultation duration (every such orbit grazes the "
+                    "star at periastron): duration, depth and windows not available")
+        rec.update(b_occ=quantile_dict(occultation_impact_parameter(a_rs, inc, e, om), wi),
+                   depth_ppm=_empty_q(), events=[])
+        return rec, warn
     rec["b_occ"] = quantile_dict(occultation_impact_parameter(a_rs, inc, e, om), wi)
     rec["light_travel_s"] = float(np.sum(wi * ltt) * 86400.0)
     teff = s.teff[i]
@@ -349,7 +366,13 @@ def predict_occultations(items, start, end, options: EclipseOptions | None = Non
             rec["events"] = []
             records.append(rec)
             continue
-        body, extra = _target_record(s, target, opts, start_bjd, end_bjd, lam, resp)
+        try:
+            body, extra = _target_record(s, target, opts, start_bjd, end_bjd, lam, resp)
+        except Exception as exc:  # noqa: BLE001 - contain one target's failure to that target
+            rec.update(ok=False, events=[])
+            rec["errors"].append(f"occultation prediction failed for this target: {describe_failure(exc)}")
+            records.append(rec)
+            continue
         rec["warnings"].extend(extra)
         rec.update(body)
         radec = _radec(s, target)
@@ -365,7 +388,17 @@ def predict_occultations(items, start, end, options: EclipseOptions | None = Non
             to_convert.append((rec, radec))
         records.append(rec)
 
-    notices = _add_utc(to_convert, opts.location)
+    try:
+        notices = _add_utc(to_convert, opts.location)
+    except Exception:  # noqa: BLE001 - find the target(s) whose times cannot be converted
+        notices = []
+        for rec, radec in to_convert:
+            try:
+                notices += [n for n in _add_utc([(rec, radec)], opts.location) if n not in notices]
+            except Exception as exc:  # noqa: BLE001
+                rec.update(ok=False, events=[])
+                rec["errors"].append("occultation times could not be converted to UTC: "
+                                     f"{describe_failure(exc)}")
     return {
         "start_utc": start_iso, "end_utc": end_iso, "coverage": opts.coverage,
         "band": band_desc, "bond_albedo": opts.bond_albedo,

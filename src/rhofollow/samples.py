@@ -5,12 +5,13 @@ same weighted samples, so uncertainties propagate consistently.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field, fields
 
 import numpy as np
 
 __all__ = ["SampleSet", "SAMPLE_COLUMNS", "weighted_quantiles", "quantile_dict", "QUANTILE_LEVELS",
-           "kish_ess"]
+           "kish_ess", "RELIABLE_ESS", "reliability"]
 
 #: Column name -> unit (internal units). All arrays have the same length N.
 SAMPLE_COLUMNS = {
@@ -30,14 +31,41 @@ SAMPLE_COLUMNS = {
 
 QUANTILE_LEVELS = {"q025": 0.025, "q16": 0.16, "q50": 0.5, "q84": 0.84, "q975": 0.975}
 
+#: Effective sample size below which a target's quantiles are reported as unreliable.
+#: With ESS effective draws the CDF level of a quantile p is known to about
+#: sqrt(p (1 - p) / ESS) (binomial standard error): at ESS = 100 the 2.5 % tail holds about 2.5
+#: effective samples and its level is uncertain by +-1.6 percentage points, so q025 / q975 are
+#: barely defined below it. Vehtari et al. (2021, Bayesian Analysis 16, 667) ask for an ESS of at
+#: least 100 per chain before quantiles are trusted (value from memory); the floor follows them.
+RELIABLE_ESS = 100.0
+
 
 def kish_ess(weights: np.ndarray) -> float:
-    """Kish effective sample size (sum w)^2 / sum w^2 of importance weights."""
+    """Kish effective sample size (sum w)^2 / sum w^2 of importance weights (0 when the weights
+    are empty, all zero or not finite)."""
     w = np.asarray(weights, dtype=float)
+    if w.size == 0 or not np.all(np.isfinite(w)):
+        return 0.0
     s = w.sum()
     if not np.isfinite(s) or s <= 0:
         return 0.0
     return float(s * s / np.sum(w * w))
+
+
+def reliability(ess: float | None, floor: float = RELIABLE_ESS) -> tuple[bool, str]:
+    """``(reliable, reason)``: whether quantiles from ``ess`` effective samples can be trusted.
+
+    ``reason`` is empty when reliable, else one sentence naming the ESS and the floor.
+    """
+    try:
+        e = float(ess)
+    except (TypeError, ValueError):
+        e = float("nan")
+    if math.isfinite(e) and e >= floor:
+        return True, ""
+    shown = f"{e:.1f}" if math.isfinite(e) else "unknown"
+    return False, (f"effective sample size {shown} is below {floor:.0f}: the quantiles rest on too "
+                   "few effective samples to be trusted (draw more samples)")
 
 
 def weighted_quantiles(x: np.ndarray, weights: np.ndarray | None, q) -> np.ndarray:
@@ -49,6 +77,10 @@ def weighted_quantiles(x: np.ndarray, weights: np.ndarray | None, q) -> np.ndarr
         Samples; a 2-D array gives quantiles per row.
     weights : array like x, or None for equal weights
     q : float or array of probabilities in [0, 1]
+
+    Samples that are not finite, or whose weight is not finite and positive, are left out. A row
+    with nothing left (no samples, all weights zero) gives NaN quantiles: "not available", never
+    an exception.
     """
     x = np.asarray(x, dtype=float)
     qa = np.atleast_1d(np.asarray(q, dtype=float))
@@ -59,24 +91,41 @@ def weighted_quantiles(x: np.ndarray, weights: np.ndarray | None, q) -> np.ndarr
         x2, w2 = x[None, :], w[None, :]
     else:
         x2, w2 = x, w
+    good = np.isfinite(x2) & np.isfinite(w2) & (w2 > 0)
+    w2 = np.where(good, w2, 0.0)
+    x2 = np.where(good, x2, np.inf)          # sorted to the end, with zero weight
     order = np.argsort(x2, axis=-1)
     xs = np.take_along_axis(x2, order, axis=-1)
     ws = np.take_along_axis(w2, order, axis=-1)
     cw = np.cumsum(ws, axis=-1)
-    tot = cw[:, -1:]
-    cdf = (cw - 0.5 * ws) / tot
-    out = np.empty((x2.shape[0], qa.size))
+    out = np.full((x2.shape[0], qa.size), np.nan)
     for i in range(x2.shape[0]):
-        out[i] = np.interp(qa, cdf[i], xs[i])
+        m = int(np.count_nonzero(good[i]))
+        tot = cw[i, -1] if cw.shape[1] else 0.0
+        if m == 0 or not (np.isfinite(tot) and tot > 0):
+            continue
+        cdf = (cw[i, :m] - 0.5 * ws[i, :m]) / tot
+        out[i] = np.interp(qa, cdf, xs[i, :m])
     if x.ndim == 1:
         out = out[0]
     return out if np.ndim(q) else out[..., 0]
 
 
 def quantile_dict(x: np.ndarray, weights: np.ndarray | None = None, scale: float = 1.0) -> dict:
-    """Quantile object of the JSON contract: keys q025, q16, q50, q84, q975."""
-    vals = weighted_quantiles(x, weights, list(QUANTILE_LEVELS.values())) * scale
-    return {k: float(v) for k, v in zip(QUANTILE_LEVELS, vals)}
+    """Quantile object of the JSON contract: keys q025, q16, q50, q84, q975.
+
+    Every value is None ("not available", null in JSON) when there is nothing to summarise (no
+    finite sample with positive weight), or when a quantile is not finite.
+    """
+    x = np.asarray(x, dtype=float).ravel()
+    if weights is not None:
+        weights = np.broadcast_to(np.asarray(weights, dtype=float), x.shape) if x.size else \
+            np.asarray(weights, dtype=float).ravel()[:0]
+    if x.size == 0:
+        return {k: None for k in QUANTILE_LEVELS}
+    with np.errstate(over="ignore", invalid="ignore"):
+        vals = weighted_quantiles(x, weights, list(QUANTILE_LEVELS.values())) * scale
+    return {k: (float(v) if np.isfinite(v) else None) for k, v in zip(QUANTILE_LEVELS, vals)}
 
 
 @dataclass
@@ -113,8 +162,9 @@ class SampleSet:
                 arr = np.broadcast_to(arr, (n,)).copy()
             setattr(self, c, arr)
         w = np.asarray(self.weights, dtype=float)
+        w = np.where(np.isfinite(w) & (w > 0), w, 0.0)   # NaN or negative weights carry nothing
         s = w.sum()
-        self.weights = w / s if s > 0 else w
+        self.weights = w / s if np.isfinite(s) and s > 0 else w
 
     @property
     def n(self) -> int:
@@ -123,6 +173,11 @@ class SampleSet:
     @property
     def ess(self) -> float:
         return kish_ess(self.weights)
+
+    @property
+    def reliable(self) -> bool:
+        """Whether the effective sample size reaches :data:`RELIABLE_ESS`."""
+        return reliability(self.ess)[0]
 
     def quantiles(self, column: str, scale: float = 1.0) -> dict:
         """Quantile object (q025..q975) of one column, weighted."""
@@ -139,6 +194,8 @@ class SampleSet:
 
     def resample(self, n: int, rng: np.random.Generator) -> dict:
         """Equal-weight draws (systematic resampling): dict column -> array (n,)."""
+        if self.n == 0 or not self.weights.sum() > 0:
+            raise ValueError(f"{self.name}: no sample carries weight; nothing to resample")
         cw = np.cumsum(self.weights)
         cw[-1] = 1.0
         u = (rng.random() + np.arange(n)) / n
