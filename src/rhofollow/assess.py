@@ -19,7 +19,7 @@ from .physics.eccentricity import (HYPOTHESES, best_possible_loglike, Hypothesis
 from .physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior
 from .physics.sampling import draw_split_normal
 from .physics.transit import ars_from_t14_b, ecc_min_from_ratio, rho_from_ars, smo_invert
-from .samples import SampleSet, quantile_dict, weighted_quantiles
+from .samples import SampleSet, quantile_dict, reliability, weighted_quantiles
 
 __all__ = ["Assessment", "assess_target", "assess_catalogue", "target_seed", "READINGS",
            "evidence_strength", "DEFAULT_N_SAMPLES", "ESS_FLOOR"]
@@ -379,6 +379,8 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
         "ecc_min": float(ecc_min_from_ratio(np.median(ratio))),
         "p_ecc_gt_0p1": float(np.sum(w[samples.e > 0.1])),
         "ess": float(ess),
+        "reliable": reliability(ess)[0],
+        **({"reliability_note": reliability(ess)[1]} if not reliability(ess)[0] else {}),
         "n_samples": int(samples.n),
         "prior": prior.name,
         "log_evidence": {h: (v if math.isfinite(v) else None) for h, v in logz.items()},

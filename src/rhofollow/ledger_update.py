@@ -124,11 +124,20 @@ def occultation_log_like(samples: SampleSet, timings: list[OccultationTiming], *
     return ll_det, ll_non, warnings
 
 
+def _failure(exc: BaseException) -> str:
+    text = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
+    return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
+
+
 def posterior_summary(samples: SampleSet) -> dict:
     """Quantiles of e, e cos omega, e sin omega, P(e < 0.05), N and ESS of a sample set."""
     s = samples
     w = s.weights
-    return {"n_samples": int(s.n), "ess": float(s.ess),
+    from .samples import reliability
+
+    ok, why = reliability(s.ess)
+    return {"n_samples": int(s.n), "ess": float(s.ess), "reliable": ok,
+            **({"reliability_note": why} if why else {}),
             "ecc": quantile_dict(s.e, w),
             "ecosw": quantile_dict(s.e * np.cos(s.omega), w),
             "esinw": quantile_dict(s.e * np.sin(s.omega), w),
@@ -248,7 +257,11 @@ def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples:
                    "no catalogue row in the ledger (add it with 'rhofollow log targets CATALOGUE')")
             out.append({"name": n, "ok": False, "errors": [why], "warnings": []})
         else:
-            todo.append(target_from_catalogue_row(n, row))
+            try:
+                todo.append(target_from_catalogue_row(n, row))
+            except (KeyError, TypeError, ValueError, IndexError) as exc:
+                out.append({"name": n, "ok": False, "warnings": [],
+                            "errors": [f"the ledger's catalogue row cannot be read ({_failure(exc)})"]})
     kw = {} if prior is None else {"prior": prior}
     for a in assess_catalogue(todo, n_samples=n_samples, seed=seed, **kw):
         if not a.ok or a.samples is None:
@@ -261,6 +274,10 @@ def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples:
         except LedgerUpdateError as exc:
             out.append({"name": a.name, "ok": False, "errors": [str(exc)],
                         "warnings": list(a.warnings)})
+            continue
+        except Exception as exc:  # noqa: BLE001 - one target's failure stays with that target
+            out.append({"name": a.name, "ok": False, "warnings": list(a.warnings),
+                        "errors": [f"update from the ledger failed for this target: {_failure(exc)}"]})
             continue
         rec = res.record()
         rec["warnings"] = list(a.warnings) + rec["warnings"]
@@ -290,6 +307,9 @@ def apply_to_assessments(ledger: Ledger, assessments, *, jitter_ms: float = 0.0,
                                      prior=(a.record or {}).get("prior"), seed=seed)
         except LedgerUpdateError as exc:
             a.warnings.append(f"ledger data not applied: {exc}")
+            continue
+        except Exception as exc:  # noqa: BLE001 - keep the prior samples, say why
+            a.warnings.append(f"ledger data not applied: the update failed ({_failure(exc)})")
             continue
         a.samples = res.samples
         a.warnings.extend(res.warnings)

@@ -189,8 +189,11 @@ def apply_ledger(path, assessments) -> tuple[dict, set, list]:
     occultation was measured, notices).
     """
     from .io.ledger import Ledger, LedgerError
+    import sqlite3
+
+    from .eclipses import describe_failure
     from .ledger_update import apply_to_assessments
-    from .samples import kish_ess
+    from .samples import kish_ess, reliability
 
     try:
         lg = Ledger(path)
@@ -199,18 +202,64 @@ def apply_ledger(path, assessments) -> tuple[dict, set, list]:
     updates = apply_to_assessments(lg, assessments)
     n_done, measured = {}, set()
     for a in assessments:
-        if a.name in updates and a.samples is not None:
-            s = a.samples
-            a.record.update(ecc=s.quantiles("e"), p_ecc_gt_0p1=float(s.weights[s.e > 0.1].sum()),
-                            ess=kish_ess(s.weights), updated_from_ledger=True)
-        days = {int(m.bjd_tdb + 0.5) for m in lg.rv_measurements(a.name)}
-        done = sum(o.outcome == "ok" for o in lg.done(a.name, "rv"))
-        if days or done:
-            n_done[a.name] = max(len(days), done)
-        if any(t.kind == "detection" for t in lg.occultation_timings(a.name)):
-            measured.add(a.name)
+        try:
+            if a.name in updates and a.samples is not None:
+                s = a.samples
+                ok, why = reliability(kish_ess(s.weights))
+                a.record.update(ecc=s.quantiles("e"), p_ecc_gt_0p1=float(s.weights[s.e > 0.1].sum()),
+                                ess=kish_ess(s.weights), updated_from_ledger=True, reliable=ok)
+                if why:
+                    a.record["reliability_note"] = why
+                else:
+                    a.record.pop("reliability_note", None)
+            days = {int(m.bjd_tdb + 0.5) for m in lg.rv_measurements(a.name)}
+            done = sum(o.outcome == "ok" for o in lg.done(a.name, "rv"))
+            if days or done:
+                n_done[a.name] = max(len(days), done)
+            if any(t.kind == "detection" for t in lg.occultation_timings(a.name)):
+                measured.add(a.name)
+        except (LedgerError, sqlite3.Error):
+            raise
+        except Exception as exc:  # noqa: BLE001 - one target's failure stays with that target
+            a.warnings.append(f"ledger data not applied: {describe_failure(exc)}")
     notes = [f"ledger {path}: posteriors of {len(updates)} target(s) updated with measured data"] if updates else []
     return n_done, measured, notes
+
+
+def stage_failures(assessments, occ_targets, rv_records) -> list[str]:
+    """One message per target that was assessed but failed a later stage (occultations or RV)."""
+    ok = {a.name for a in assessments if a.ok and a.samples is not None}
+    out = []
+    for stage, recs in (("occultations", occ_targets), ("RV planning", rv_records)):
+        for r in recs or []:
+            if r.get("name") in ok and not r.get("ok", True):
+                why = "; ".join(r.get("errors") or []) or "no reason given"
+                out.append(f"{r['name']}: {stage} failed for this target only ({why})")
+    return out
+
+
+def _science_contained(assessments, occ_targets, rv_records, n_done):
+    """:func:`~rhofollow.planning.night.science_from_records` target by target: a target whose
+    science entry cannot be built is skipped with the reason; the others are planned."""
+    from .eclipses import describe_failure
+    from .planning.night import science_from_records
+
+    failed = stage_failures(assessments, occ_targets, rv_records)
+    occ = {r["name"]: r for r in occ_targets or []}
+    rvs = {r["name"]: r for r in rv_records or []}
+    science, skipped = [], []
+    for a in assessments:
+        try:
+            sc, sk = science_from_records([a], [occ[a.name]] if a.name in occ else [],
+                                          [rvs[a.name]] if a.name in rvs else [], n_done=n_done)
+        except Exception as exc:  # noqa: BLE001 - one target's failure stays with that target
+            why = f"planning inputs could not be built: {describe_failure(exc)}"
+            skipped.append({"name": a.name, "reason": why})
+            failed.append(f"{a.name}: {why}")
+            continue
+        science += sc
+        skipped += sk
+    return science, skipped, failed
 
 
 def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOptions | None = None,
@@ -229,7 +278,6 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
     from .eclipses import EclipseInputError, EclipseOptions, predict_occultations
     from .parallel import assess_parallel
     from .physics.priors import DEFAULT_PRIOR, parse_prior
-    from .planning.night import science_from_records
     from .planning.tasks import ValueModel
     opts = options or PipelineOptions()
     progress = progress or _quiet
@@ -280,7 +328,8 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
     occ_targets = occ["targets"]
     if occ_measured:
         occ_targets = [dict(r, events=[]) if r.get("name") in occ_measured else r for r in occ_targets]
-    science, skipped = science_from_records(assessments, occ_targets, rv, n_done=n_done)
+    science, skipped, failed = _science_contained(assessments, occ_targets, rv, n_done)
+    notices += failed
     skipped += [{"name": n, "reason": "occultation already measured (ledger): no more windows"}
                 for n in sorted(occ_measured)]
     model = ValueModel(baseline_h=0.0, lead_h=(phot.overhead_min / 60.0) if phot else 0.0,

@@ -25,7 +25,7 @@ from .physics import rvconfirm, rvnoise, rvupdate
 from .physics.constants import G_SI, M_SUN_KG, R_EARTH_M, R_SUN_M
 from .physics.massradius import draw_planet_mass
 from .physics.rv import semi_amplitude
-from .samples import SampleSet, quantile_dict, weighted_quantiles
+from .samples import SampleSet, quantile_dict, reliability, weighted_quantiles
 
 __all__ = ["CAUTION", "K_MODES", "rv_record", "plan_rv", "planet_mass_and_k"]
 
@@ -75,6 +75,12 @@ def rv_record(s: SampleSet, instrument: Spectrograph, rv_data: RVData | None = N
     if k_mode not in K_MODES:
         raise ValueError(f"unknown K mode {k_mode!r}; choose one of {', '.join(K_MODES)}")
     rec: dict = {"name": s.name, "ok": True, "errors": [], "warnings": [], "instrument": instrument.name}
+    if not s.n or not s.weights.sum() > 0:
+        raise ValueError("no posterior sample carries weight: nothing to plan RVs from")
+    rec["ess"] = s.ess
+    rec["reliable"], why = reliability(rec["ess"])
+    if not rec["reliable"]:
+        rec["reliability_note"] = why
     w = s.weights
     mp, k, used = planet_mass_and_k(s, _rng(seed, s.name, "mass"), relation)
     rec["k_ms"] = quantile_dict(k, w)
@@ -198,6 +204,11 @@ def plan_rv(assessments, instrument: Spectrograph, rv_data: dict[str, RVData] | 
                 rec["warnings"] = list(a.warnings) + rec["warnings"] + rec.pop("warnings_update", [])
             except ValueError as exc:
                 rec = {"name": a.name, "ok": False, "errors": [str(exc)], "warnings": list(a.warnings)}
+            except Exception as exc:  # noqa: BLE001 - contain one target's failure to that target
+                from .eclipses import describe_failure
+
+                rec = {"name": a.name, "ok": False, "warnings": list(a.warnings),
+                       "errors": [f"RV planning failed for this target: {describe_failure(exc)}"]}
             out.append(rec)
         if progress is not None:
             progress()

@@ -38,7 +38,8 @@ def summary_table(records: list[dict]) -> Table:
     tab = Table(title="Density mismatch and eccentricity (densities in g/cm³)", header_style="bold",
                 caption="mismatch: |ln(ρ_circ/ρ★)| in units of its spread; e: median [2.5–97.5 %]; "
                 "2lnB: log Bayes factor of the favoured explanation over the next best "
-                "(Kass & Raftery 1995: >2 positive, >6 strong, >10 very strong)", caption_justify="left")
+                "(Kass & Raftery 1995: >2 positive, >6 strong, >10 very strong); ?: unreliable quantiles "
+                "(effective sample size below the floor)", caption_justify="left")
     tab.add_column("target", no_wrap=True)
     for col in ("ρ_circ", "ρ★", "ratio", "mismatch", "e_min", "e", "P(e>0.1)"):
         tab.add_column(col, justify="right", no_wrap=True)
@@ -52,10 +53,12 @@ def summary_table(records: list[dict]) -> Table:
         fav = r["favoured"].replace("_", " ")
         lnb = r.get("ln_bayes_factor")
         style = {"eccentric": "bold", "circular": "", "blend": "italic", "other host": "italic"}.get(fav, "")
+        mark = "?" if r.get("reliable") is False else ""   # ?: unreliable (low ESS)
         tab.add_row(
-            r["name"], _fmt(r["rho_circ_cgs"]["q50"]), _fmt(r["rho_star_cgs"]["q50"]),
+            r["name"] + mark, _fmt(r["rho_circ_cgs"]["q50"]), _fmt(r["rho_star_cgs"]["q50"]),
             _fmt(r["density_ratio"]["q50"]), f"{r['density_ratio_sigma']:.1f}σ", f"{r['ecc_min']:.2f}",
-            f"{e['q50']:.2f} [{e['q025']:.2f}–{e['q975']:.2f}]", f"{r['p_ecc_gt_0p1']:.2f}",
+            "n/a" if e["q50"] is None else f"{e['q50']:.2f} [{_fmt(e['q025'])}–{_fmt(e['q975'])}]",
+            f"{r['p_ecc_gt_0p1']:.2f}",
             f"[{style}]{fav}[/]" if style else fav, "—" if lnb is None else f"{min(2 * lnb, 999):.1f}")
     return tab
 

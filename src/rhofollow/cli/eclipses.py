@@ -103,7 +103,8 @@ def _q(d, nd=2, scale=1.0):
 
 def events_table(result: dict) -> Table:
     """Rich table: one row per target, with its first events."""
-    tab = Table(title="Occultations", header_style="bold")
+    tab = Table(title="Occultations", header_style="bold",
+                caption="?: unreliable quantiles (effective sample size below the floor)")
     for col, just in [("target", "left"), ("phase\nmedian [68%]", "right"),
                       ("P(occ)", "right"), ("duration [h]\nmedian [68%]", "right"),
                       ("depth [ppm]\nmedian [68%]", "right"), ("events", "right"),
@@ -122,7 +123,8 @@ def events_table(result: dict) -> Table:
                                 for a, b in w)
             else:
                 nxt = "; ".join(f"BJD {a:.3f} → {b:.3f}" for a, b in evs[0]["window_bjd_tdb"])
-        tab.add_row(r["name"], _q(r.get("occ_phase"), 3), f"{r.get('p_occultation', 0):.2f}",
+        mark = "?" if r.get("reliable") is False else ""   # ?: unreliable (low ESS)
+        tab.add_row(r["name"] + mark, _q(r.get("occ_phase"), 3), f"{r.get('p_occultation', 0):.2f}",
                     _q(r.get("occ_duration_h"), 2), _q(r.get("depth_ppm"), 0), str(len(evs)),
                     nxt)
     return tab

@@ -129,7 +129,8 @@ def _print_summary(written: dict, out: Path, top: int = 8) -> None:
     _head, rows = ranked_table(doc, top)
     tab = Table(title=f"{doc['site']}, {doc['start']} to {doc['end']}: top targets")
     tab.caption = ("priority = P(eccentric explanation) × P(e>0.1) × testability; e: median; RVs: visits "
-                   "to confirm e > 0; planned: occultation windows / RV visits that fit at the site")
+                   "to confirm e > 0; planned: occultation windows / RV visits that fit at the site; ?: unreliable "
+                   "quantiles (low effective sample size), ranked after the reliable targets")
     for col in ("#", "target", "priority", "e", "favoured", "RVs", "planned"):
         tab.add_column(col, justify="left" if col in ("target", "favoured") else "right", no_wrap=True,
                        min_width=len(col))

@@ -42,6 +42,8 @@ def register(subparsers):
 
 
 def _num(x, digits=3):
+    if x is None:
+        return "n/a"
     return f"{x:.0f}" if abs(x) >= 100 else f"{x:.{digits}g}"
 
 
@@ -118,7 +120,8 @@ def run(args) -> int:
             tab.add_row(r["name"], "[red]" + "; ".join(r["errors"])[:70] + "[/]", *[""] * 6)
             continue
         n = r["n_epochs_confirm_ecc"]
-        tab.add_row(r["name"], _fmt(r["k_ms"]), _num(r["mp_mearth"]["q50"]), f"{r['sigma_rv_ms']:.2f}",
+        mark = "?" if r.get("reliable") is False else ""   # ?: unreliable (low ESS)
+        tab.add_row(r["name"] + mark, _fmt(r["k_ms"]), _num(r["mp_mearth"]["q50"]), f"{r['sigma_rv_ms']:.2f}",
                     str(r["n_epochs_detect_k"] or "-"), str(n) if n else f">{N_LADDER[-1]}",
                     f"{r['hours_confirm_ecc']:.1f}" if r["hours_confirm_ecc"] else "-",
                     " ".join(f"{p:.2f}" for p in r["best_phases"][:2]))
@@ -138,7 +141,7 @@ def run(args) -> int:
         con.print(upd)
     con.print("K, Mp: median (68 % interval). N K / N e: epochs to detect K / to confirm e > 0; hours for "
               "N e. Phases: orbital phases from mid-transit (0..1) where eccentric and circular orbits "
-              "differ most.", highlight=False)
+              "differ most. ?: unreliable quantiles (effective sample size below the floor).", highlight=False)
     con.print(f"[bold]Caution:[/] {CAUTION}", highlight=False)
     for r in records:
         for w in r.get("warnings", []):

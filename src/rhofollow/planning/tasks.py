@@ -45,6 +45,15 @@ block (``kappa`` = 0.5 by default: A = 1 at the zenith, 0.61 at airmass 2).
   when no informative phase is given). The visit lasts ``hours_confirm_ecc / n_epochs_confirm_ecc``
   (overheads included upstream) unless the record gives ``visit_h``.
 
+Targets whose quantiles are unreliable (the occultation or RV record says ``reliable: false``: an
+effective sample size below :data:`rhofollow.samples.RELIABLE_ESS`) are not planned as if their
+numbers were known: every value above is multiplied by ``unreliable_weight`` (0.5 by default,
+a chosen down-weighting, common practice, no source), so such a target wins a slot only against a
+reliable one worth less than half as much. The tasks say so (``meta["reliable"]``).
+
+A target whose tasks cannot be built (an unexpected failure in its record) gets no task and a
+"skipped" entry with the reason; the other targets are planned as usual.
+
 A fully decided target (E = 0) or an impossible confirmation (``n_epochs_confirm_ecc`` missing or
 infinite) gets no task; the reason is recorded in the "skipped" list.
 """
@@ -174,6 +183,8 @@ class ValueModel:
         Smallest chance of catching the whole occultation for which a partial block is offered.
     step_h : float
         Spacing of candidate RV start times (hours).
+    unreliable_weight : float
+        Factor on every task value of a target whose record says ``reliable: false`` (0..1).
     """
 
     kappa: float = 0.5
@@ -185,6 +196,16 @@ class ValueModel:
     partial_baseline_h: float = 1.0
     min_catch: float = 0.1
     step_h: float = 1.0 / 6.0
+    unreliable_weight: float = 0.5
+
+    def reliability_weight(self, record: dict) -> float:
+        """``unreliable_weight`` for a record marked ``reliable: false``, else 1."""
+        return float(self.unreliable_weight) if record.get("reliable") is False else 1.0
+
+
+def _failure(exc: BaseException) -> str:
+    text = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
+    return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
 
 
 @dataclass(frozen=True)
@@ -259,8 +280,16 @@ def occultation_tasks(record: dict, evidence: float, vis: VisGrid,
     -------
     tasks, skipped
         Tasks in hours since ``vis.t_jd[0]``; ``skipped`` explains windows in the night that
-        cannot be observed or carry no value.
+        cannot be observed or carry no value (or why this target's tasks could not be built).
     """
+    try:
+        return _occultation_tasks(record, evidence * model.reliability_weight(record), vis, model)
+    except Exception as exc:  # noqa: BLE001 - one target's failure stays with that target
+        return [], [Skip(f"{record.get('name', '?')} occ",
+                         f"occultation blocks could not be built: {_failure(exc)}")]
+
+
+def _occultation_tasks(record, evidence, vis, model):
     name = record["name"]
     p_occ = _num(record.get("p_occultation"), 1.0)
     t_occ = _num(record.get("occ_duration_h"))
@@ -299,7 +328,8 @@ def occultation_tasks(record: dict, evidence: float, vis: VisGrid,
                                    kind="occultation",
                                    meta={"target": name, "epoch": ev.get("epoch"), "airmass_max": xmax,
                                          "window_utc": [jd_to_iso(iso_to_jd(w0)), jd_to_iso(iso_to_jd(w1))],
-                                         "baseline_h": model.baseline_h}))
+                                         "baseline_h": model.baseline_h,
+                                         "reliable": record.get("reliable") is not False}))
     return tasks, skipped
 
 
@@ -418,6 +448,14 @@ def rv_task(record: dict, evidence: float, vis: VisGrid, t0_bjd: float, period_d
     n_done : int
         Visits already obtained.
     """
+    try:
+        return _rv_task(record, evidence * model.reliability_weight(record), vis, t0_bjd, period_d,
+                        bjd_minus_jd, n_done, model)
+    except Exception as exc:  # noqa: BLE001 - one target's failure stays with that target
+        return None, Skip(f"{record.get('name', '?')} rv", f"RV visit could not be built: {_failure(exc)}")
+
+
+def _rv_task(record, evidence, vis, t0_bjd, period_d, bjd_minus_jd, n_done, model):
     name = record["name"]
     n_need = _num(record.get("n_epochs_confirm_ecc"))
     hours = _num(record.get("hours_confirm_ecc"))
@@ -430,6 +468,8 @@ def rv_task(record: dict, evidence: float, vis: VisGrid, t0_bjd: float, period_d
         return None, Skip(f"{name} rv", "no RV visit length (hours_confirm_ecc missing)")
     if not evidence > 0:
         return None, Skip(f"{name} rv", "no value (no evidence for eccentricity)")
+    if not (np.isfinite(t0_bjd) and np.isfinite(period_d) and period_d > 0):
+        return None, Skip(f"{name} rv", "no finite transit epoch and period for the orbital phase")
     n_rem = max(1.0, n_need - n_done)
     row = vis.row(name)
     t_h = vis.hours(vis.t_jd)
@@ -446,7 +486,8 @@ def rv_task(record: dict, evidence: float, vis: VisGrid, t0_bjd: float, period_d
         j0 = jd_ref + starts_h / 24.0
         xmax = vis.airmass_max(name, j0, j0 + _d / 24.0)
         w = phase_weight(phase, best, model.phase_sigma, model.phase_floor)
-        return evidence * w * airmass_factor(xmax, model.kappa) / n_rem
+        v = evidence * w * airmass_factor(xmax, model.kappa) / n_rem
+        return np.where(np.isfinite(v), v, 0.0)
 
     def phase_of(start_h, _d=visit_h):
         mid_jd = jd_ref + (start_h + 0.5 * _d) / 24.0
@@ -454,5 +495,5 @@ def rv_task(record: dict, evidence: float, vis: VisGrid, t0_bjd: float, period_d
 
     task = FlexibleTask(f"{name} rv", visit_h, tuple(wins), value, step=model.step_h, kind="rv",
                         meta={"target": name, "phase_of": phase_of, "n_remaining": n_rem,
-                              "best_phases": best})
+                              "best_phases": best, "reliable": record.get("reliable") is not False})
     return task, None

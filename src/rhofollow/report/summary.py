@@ -71,7 +71,8 @@ def ranked_table(doc: dict, top: int | None = None) -> tuple[list[str], list[lis
             continue
         rv, occ, c = t.get("rv") or {}, t.get("occultation") or {}, t.get("campaign") or {}
         n = rv.get("n_epochs_confirm_ecc")
-        rows.append([str(t["rank"]), t["name"], _f(t.get("priority"), 3), _f(t.get("p_ecc_gt_0p1")),
+        mark = "?" if t.get("reliable") is False else ""   # ?: unreliable (low ESS), ranked last
+        rows.append([str(t["rank"]), t["name"], _f(t.get("priority"), 3) + mark, _f(t.get("p_ecc_gt_0p1")),
                      _qtxt(t.get("ecc")), _qtxt(t.get("density_ratio")), t.get("favoured", "–"),
                      _f(occ.get("p_occultation")), _qtxt(rv.get("k_ms"), 1),
                      str(n) if n else ("not confirmable" if rv else "–"),

@@ -21,7 +21,8 @@ __all__ = ["PRIORITY_RULE", "rank_targets", "results_document", "flat_rows", "ro
 PRIORITY_RULE = ("priority = P(eccentric explanation) x P(e > 0.1) x testability; P(eccentric explanation) "
                  "= the eccentric orbit's share of the explanations' evidence (equal prior odds); testability = max(P(occultation) if an occultation "
                  "window is observable from the site in the range, fraction of the RV visits needed to "
-                 "confirm e > 0 that fit in the range)")
+                 "confirm e > 0 that fit in the range); targets with unreliable quantiles (effective "
+                 "sample size below the floor) rank after all reliable ones")
 
 #: Units of the flat table's columns (ECSV); a column absent here is dimensionless or text.
 COLUMN_UNITS = {"period_d": "d", "rho_circ_cgs": "g / cm3", "rho_star_cgs": "g / cm3", "omega_deg": "deg",
@@ -56,9 +57,12 @@ def rank_targets(result) -> dict:
         out[a.name] = {"priority": round(p_model * _num(rec.get("p_ecc_gt_0p1")) * test, 6),
                        "testability": round(test, 6), "p_eccentric_explanation": round(p_model, 6),
                        "p_ecc_gt_0p1": rec.get("p_ecc_gt_0p1"),
+                       "reliable": rec.get("reliable") is not False,
                        "_tie": _num(rec.get("density_ratio_sigma"))}
+    # Targets with unreliable quantiles (effective sample size below samples.RELIABLE_ESS) rank
+    # after every reliable one: their priority is not known well enough to compete.
     ok = sorted((n for n, v in out.items() if v.get("p_ecc_gt_0p1") is not None),
-                key=lambda n: (-out[n]["priority"], -out[n]["_tie"], n))
+                key=lambda n: (not out[n]["reliable"], -out[n]["priority"], -out[n]["_tie"], n))
     for i, n in enumerate(ok, 1):
         out[n]["rank"] = i
     for v in out.values():
