@@ -57,7 +57,7 @@ def summary_table(records: list[dict]) -> Table:
         tab.add_row(
             r["name"] + mark, _fmt(r["rho_circ_cgs"]["q50"]), _fmt(r["rho_star_cgs"]["q50"]),
             _fmt(r["density_ratio"]["q50"]), f"{r['density_ratio_sigma']:.1f}σ", f"{r['ecc_min']:.2f}",
-            "n/a" if e["q50"] is None else f"{e['q50']:.2f} [{_fmt(e['q025'])}–{_fmt(e['q975'])}]",
+            "n/a" if None in (e["q50"], e["q025"], e["q975"]) else f"{e['q50']:.2f} [{e['q025']:.2f}–{e['q975']:.2f}]",
             f"{r['p_ecc_gt_0p1']:.2f}",
             f"[{style}]{fav}[/]" if style else fav, "—" if lnb is None else f"{min(2 * lnb, 999):.1f}")
     return tab
