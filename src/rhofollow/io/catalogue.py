@@ -29,7 +29,8 @@ import astropy.units as u
 
 from .table_types import CatalogueResult, Measurement, RowIssue, Target
 
-__all__ = ["CatalogueError", "ColumnSpec", "COLUMNS", "read_catalogue", "SUPPORTED_EXTENSIONS"]
+__all__ = ["CatalogueError", "ColumnSpec", "COLUMNS", "read_catalogue", "SUPPORTED_EXTENSIONS",
+           "PHYSICAL_RANGES"]
 
 
 class CatalogueError(ValueError):
@@ -130,6 +131,60 @@ _EXTREME = {
     "rp_rs": (0.0, 0.3),
 }
 _T0_RANGE = (2.0e6, 2.8e6)   # a full BJD (2,000,000 is 811 BC; 2,800,000 is AD 2953)
+
+#: Physical ranges (canonical units): a value outside is a row error (``README.md`` lists them
+#: with the reasons). Generous on purpose: brown-dwarf hosts to giants, periods from hours to about
+#: a century. Each entry: (low, high, low_inclusive, high_inclusive, where the limit comes from).
+_RHO_MAX = 1000.0      # g/cm^3: densest brown dwarfs ~250 (0.075 M_sun in 0.075 R_sun); white dwarfs out of scope
+_RHO_MIN = 1.0e-6      # g/cm^3: a 1 M_sun giant of 100 R_sun has 1.4e-6
+PHYSICAL_RANGES: dict[str, tuple[float, float, bool, bool, str]] = {
+    "period_d": (0.004, 36525.0, True, True,
+                 "low: P at a/R* = 1 around a 1000 g/cm^3 host, P = sqrt(3 pi / (G rho)) (Kepler's third "
+                 "law); high: 100 years, longer than any transit survey can phase (common practice, no source)"),
+    "a_rs": (1.0, 1.0e5, False, True,
+             "low: the orbit must lie outside the star; high: a/R* = (G rho P^2 / 3 pi)^(1/3) = 4e4 for "
+             "1000 g/cm^3 at 100 years (Kepler's third law)"),
+    "b": (0.0, 2.0, True, True, "a transit needs b < 1 + Rp/R* <= 2 (geometry)"),
+    "rp_rs": (1.0e-4, 1.0, True, False,
+              "low: depth (Rp/R*)^2 = 0.01 ppm, far below any photometric precision; high: the "
+              "occulter must be smaller than the star (common practice, no source)"),
+    "depth_ppm": (0.01, 1.0e6, True, False, "as rp_rs: 0.01 ppm to a full eclipse"),
+    "t14_h": (0.01, 2.0e4, True, True,
+              "low: 36 s; high: T14 ~ P (1 + k) / (pi a/R*) = 1.4e4 h at 100 years around a "
+              "1e-6 g/cm^3 giant (circular-orbit duration)"),
+    "t23_h": (0.0, 2.0e4, False, True, "as t14_h"),
+    "rho_circ_cgs": (1.0e-9, 1.0e6, True, True,
+                     "the stellar range widened by ((1 + e sin w) / sqrt(1 - e^2))^3 for e up to "
+                     "0.99 (Kipping 2010 photo-eccentric factor) and by blends"),
+    "rho_star_cgs": (_RHO_MIN, _RHO_MAX, True, True,
+                     "1e-6 (a 100 R_sun giant) to 1000 g/cm^3 (above the densest brown dwarfs)"),
+    "companion_rho_cgs": (_RHO_MIN, _RHO_MAX, True, True, "as rho_star_cgs"),
+    "mstar_msun": (0.01, 150.0, True, True,
+                   "the deuterium-burning limit (~13 Jupiter masses) to the most massive stars"),
+    "rstar_rsun": (0.04, 1000.0, True, True,
+                   "below the smallest brown dwarfs (~0.08 R_sun) to red supergiants"),
+    "logg_cgs": (-1.0, 7.0, True, True,
+                 "supergiants (log g ~ 0) to above old brown dwarfs (~5.5), below white dwarfs (~8) "
+                 "(common practice, no source)"),
+    "teff_k": (250.0, 60000.0, True, True, "the coolest Y dwarfs to O stars (common practice, no source)"),
+    "feh_dex": (-5.0, 1.5, True, True,
+                "the most metal-poor known stars to the most metal-rich (common practice, no source)"),
+    "vmag": (-2.0, 30.0, True, True, "brighter than Sirius (-1.46) to beyond any telescope's RV reach"),
+    "omega_deg": (-360.0, 720.0, True, True, "an angle more than a turn outside [0, 360) is a typo"),
+    "mp_mearth": (1.0e-3, 3.0e4, True, True,
+                  "a tenth of the Moon's mass to the hydrogen-burning limit (~80 Jupiter masses)"),
+    "jitter_ms": (0.0, 1000.0, True, True,
+                  "pulsating giants reach hundreds of m/s (common practice, no source)"),
+}
+#: Largest 1-sigma error accepted per column: the width of its physical range (an error larger
+#: than the whole range says nothing and overflows the draws). t0_bjd: one longest period.
+_ERROR_MAX = {c: hi - lo for c, (lo, hi, *_r) in PHYSICAL_RANGES.items()}
+_ERROR_MAX.update({"t0_bjd": 36525.0, "ra_deg": 360.0, "dec_deg": 180.0, "ecc": 1.0,
+                   "contam_frac": 1.0, "companion_flux_frac": 1.0})
+
+#: Characters refused in target names: C0 and C1 control characters (NUL, tab, CR, LF, ...),
+#: DEL, and the Unicode line and paragraph separators; they break files, tables and terminals.
+_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029]")
 
 
 # ---------------------------------------------------------------------------------------------
@@ -536,6 +591,18 @@ def _check_row(v: dict[str, float], given: set[str], label, require_coords: bool
         bad("t0_bjd", f"{v.pop('t0_bjd'):.12g} is not a full BJD_TDB (expected about 2.4e6 to "
                       "2.5e6); add back any offset such as 2450000 or 2457000")
 
+    for canon, (lo, hi, lo_in, hi_in, _why) in PHYSICAL_RANGES.items():
+        if canon not in v:
+            continue
+        x = v[canon]
+        inside = (x >= lo if lo_in else x > lo) and (x <= hi if hi_in else x < hi)
+        if not inside:
+            unit = COLUMNS[canon].unit
+            shown = "" if unit is None or unit is _LOGG_UNIT else f" {unit}"
+            bad(canon, f"{x:g} is outside the physical range {'[' if lo_in else '('}{lo:g}, "
+                       f"{hi:g}{']' if hi_in else ')'}{shown}")
+            del v[canon]
+
     # Geometry cross-checks, only between values that passed their own checks.
     k = v.get("rp_rs")
     if k is None and "depth_ppm" in v:
@@ -574,7 +641,7 @@ def _check_row(v: dict[str, float], given: set[str], label, require_coords: bool
         p_h = 24.0 * v["period_d"]
         s14 = math.sin(math.pi * v["t14_h"] / p_h) ** 2
         s23 = math.sin(math.pi * v["t23_h"] / p_h) ** 2
-        r = s23 / s14
+        r = s23 / s14 if s14 > 0 else math.inf
         if r < 1.0:
             b2 = ((1 - k) ** 2 - r * (1 + k) ** 2) / (1 - r)
             ar2 = ((1 + k) ** 2 - b2 * (1 - s14)) / s14
@@ -681,8 +748,13 @@ def read_catalogue(path: str | os.PathLike, *, require_coords: bool = False) -> 
         errs: list[tuple[str, str]] = list(table.row_problems.get(row, []))
         warns: list[tuple[str, str]] = list(table.row_notes.get(row, []))
         name = _text(name_col.cells[i])
+        ctrl = _CONTROL.search(name)
         if not name:
             errs.append((name_col.header, "name is required but missing"))
+        elif ctrl:
+            errs.append((name_col.header, f"name contains a control character (U+{ord(ctrl.group()):04X} "
+                                          f"at position {ctrl.start() + 1}); names must be printable text"))
+            name = _CONTROL.sub("?", name)
         else:
             key = " ".join(name.split()).casefold()
             if key in first_row:
@@ -740,6 +812,12 @@ def read_catalogue(path: str | os.PathLike, *, require_coords: bool = False) -> 
                     continue
                 if e < 0:
                     errs.append((eb.raw.header, f"an uncertainty cannot be negative, got {e:g}"))
+                    ok = False
+                    continue
+                e_max = _ERROR_MAX.get(canon)
+                if e_max is not None and not e * eb.factor <= e_max:
+                    errs.append((eb.raw.header, f"an uncertainty of {e * eb.factor:g} is larger than "
+                                                f"the whole physical range of {canon} ({e_max:g})"))
                     ok = False
                     continue
                 got[kind] = e * eb.factor
