@@ -66,7 +66,8 @@ class Stages:
     rv : list of RV records (:func:`rhofollow.rvplan.plan_rv`), empty without a spectrograph;
     science, skipped : :func:`rhofollow.planning.night.science_from_records`;
     instruments : ``{"occultation": name, "rv": name}``; overhead_h : slew + setup per block (h);
-    model : the planners' :class:`~rhofollow.planning.tasks.ValueModel`; notices : run-level messages;
+    model : the planners' :class:`~rhofollow.planning.tasks.ValueModel`; notices : run-level messages
+    (including one per target that failed a stage after its assessment; those are also in ``failures``);
     prior : the eccentricity prior used (:class:`~rhofollow.physics.priors.EccPrior`).
     """
 
@@ -81,6 +82,7 @@ class Stages:
     notices: list
     prior: object
     timings: dict = field(default_factory=dict)
+    failures: list = field(default_factory=list)
 
 
 @dataclass
@@ -328,8 +330,8 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
     occ_targets = occ["targets"]
     if occ_measured:
         occ_targets = [dict(r, events=[]) if r.get("name") in occ_measured else r for r in occ_targets]
-    science, skipped, failed = _science_contained(assessments, occ_targets, rv, n_done)
-    notices += failed
+    science, skipped, failures = _science_contained(assessments, occ_targets, rv, n_done)
+    notices += failures
     skipped += [{"name": n, "reason": "occultation already measured (ledger): no more windows"}
                 for n in sorted(occ_measured)]
     model = ValueModel(baseline_h=0.0, lead_h=(phot.overhead_min / 60.0) if phot else 0.0,
@@ -337,7 +339,7 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
     names = {"occultation": phot.name if phot else "photometer",
              "rv": spec.name if spec else "spectrograph"}
     return Stages(assessments, occ, rv, science, skipped, names,
-                  (site.slew_minutes + site.setup_minutes) / 60.0, model, notices, prior, timings)
+                  (site.slew_minutes + site.setup_minutes) / 60.0, model, notices, prior, timings, failures)
 
 
 def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: PipelineOptions | None = None,

@@ -153,6 +153,8 @@ def run(args) -> int:
     result = predict_occultations(assessments, args.start, args.end, opts)
     result["catalog"] = str(args.catalog)
     result["seed"] = args.seed
+    result["n_rows"] = cat.n_rows
+    result["n_failed"] = cat.n_failed + sum(1 for r in result["targets"] if not r.get("ok"))
 
     console().print(events_table(result))
     ec = err_console()
@@ -170,5 +172,5 @@ def run(args) -> int:
         from ..io.calendar import write_ics
 
         write_ics(args.ics, result)
-    n_ok = sum(1 for r in result["targets"] if r.get("ok"))
-    return 0 if n_ok or not result["targets"] else 1
+    # 0: every row and target gave predictions; 1: some failed (reported, the others listed)
+    return 1 if result["n_failed"] else 0

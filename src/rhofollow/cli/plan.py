@@ -117,6 +117,7 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args) 
             raise UserError(str(exc)) from None
         written = write_report(result, out, plot_targets=args.plot_targets, rv_data=rv_data, progress=stage)
     written["result"] = result
+    written["n_row_errors"] = cat.n_failed
     return written
 
 
@@ -183,4 +184,6 @@ def run(args) -> int:
     out = Path(args.out)
     written = plan_to_folder(cat, site, start, end, out, args)
     _print_summary(written, out)
-    return 0
+    # 1 when a row or a target's stage failed (the others are in the report; notices say which)
+    failed = written["result"].stages.failures or any(not t.get("ok") for t in written["doc"]["targets"])
+    return 1 if failed or written.get("n_row_errors") else 0
