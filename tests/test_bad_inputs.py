@@ -348,7 +348,9 @@ def test_every_range_is_enforced_and_documented(tmp_path, column):
     lo, hi, _li, _hi, why = PHYSICAL_RANGES[column]
     assert why                                                    # each limit says where it comes from
     readme = (ROOT / "README.md").read_text()
-    assert f"| `{column}` |" in readme, f"{column} missing from the README's range table"
+    line = next((ln for ln in readme.splitlines() if ln.startswith(f"| `{column}` |")), None)
+    assert line is not None, f"{column} missing from the README's range table"
+    assert f"{lo:g}, {hi:g}" in line, f"README range of {column} differs from the code"
     base = {"name": "R", "period_d": "3", "t0_bjd": "2460000.5", "a_rs": "9", "b": "0.3", "rp_rs": "0.1",
             "rho_star_cgs": "1.4"}
     outside = hi * 10 if hi > 0 else hi + 10
@@ -470,3 +472,25 @@ def test_random_sweep_no_row_sinks_the_run(tmp_path):
     out = write_json(tmp_path / "sweep.json", doc)
     _no_nan(out.read_text())
     json.loads(out.read_text())
+
+
+def test_unexpected_assessment_failure_is_that_targets_error_in_plan(tmp_path, monkeypatch):
+    from rhofollow import assess as assess_mod
+
+    real = assess_mod._assess
+
+    def flaky(t, *a, **k):
+        if t.name == "GOOD-1":
+            raise IndexError("injected")
+        return real(t, *a, **k)
+
+    monkeypatch.setattr(assess_mod, "_assess", flaky)
+    out = tmp_path / "rep"
+    rc = main(["plan", str(_cat(tmp_path, GOOD)), "--site", str(SITE), "--start", "2027-03-01",
+               "--end", "2027-03-04", "--out", str(out), "--samples", "1000", "--sims", "100",
+               "--plot-targets", "1"])
+    assert rc == 1
+    by = {t["name"]: t for t in json.loads((out / "results.json").read_text())["targets"]}
+    assert by["GOOD-1"]["ok"] is False and "assessment failed: IndexError: injected" in by["GOOD-1"]["errors"][0]
+    assert "row 1" in by["GOOD-1"]["errors"][0]
+    assert by["GOOD-2"]["ok"] is True and by["GOOD-2"]["rank"] == 1

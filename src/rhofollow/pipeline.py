@@ -228,6 +228,25 @@ def apply_ledger(path, assessments) -> tuple[dict, set, list]:
     return n_done, measured, notes
 
 
+def _assess_one_by_one(targets, opts: PipelineOptions, prior) -> list:
+    """Assess target by target in this process; an unexpected failure becomes that target's error.
+
+    Each target's draws depend on (seed, name) only, so the results equal the batch's."""
+    from .assess import Assessment, assess_target
+    from .eclipses import describe_failure
+
+    out = []
+    for t in targets:
+        try:
+            out.append(assess_target(t, opts.samples, prior, opts.seed, opts.transit_weight))
+        except Exception as exc:  # noqa: BLE001 - one target's failure stays with that target
+            msg = f"{t.source}, row {t.row} ({t.name}): assessment failed: {describe_failure(exc)}"
+            out.append(Assessment(t.name, t, False, [msg], list(t.warnings),
+                                  record={"name": t.name, "ok": False, "errors": [msg],
+                                          "warnings": list(t.warnings)}))
+    return out
+
+
 def stage_failures(assessments, occ_targets, rv_records) -> list[str]:
     """One message per target that was assessed but failed a later stage (occultations or RV)."""
     ok = {a.name for a in assessments if a.ok and a.samples is not None}
@@ -292,9 +311,12 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
     timings = {}
     t = time.perf_counter()
     adv = progress("assessing", len(targets))
-    assessments = assess_parallel(targets, n_samples=opts.samples, prior=prior, seed=opts.seed,
-                                  transit_prob=opts.transit_weight, workers=max(1, int(opts.workers or 1)),
-                                  progress=adv, dask_address=opts.dask_address)
+    try:
+        assessments = assess_parallel(targets, n_samples=opts.samples, prior=prior, seed=opts.seed,
+                                      transit_prob=opts.transit_weight, workers=max(1, int(opts.workers or 1)),
+                                      progress=adv, dask_address=opts.dask_address)
+    except Exception:  # noqa: BLE001 - find the target(s) that failed; the others keep their results
+        assessments = _assess_one_by_one(targets, opts, prior)
     timings["assess_s"] = time.perf_counter() - t
     n_done, occ_measured, ledger_notes = apply_ledger(opts.ledger, assessments) if opts.ledger else ({}, set(), [])
 

@@ -152,7 +152,9 @@ PHYSICAL_RANGES: dict[str, tuple[float, float, bool, bool, str]] = {
     "t14_h": (0.01, 2.0e4, True, True,
               "low: 36 s; high: T14 ~ P (1 + k) / (pi a/R*) = 1.4e4 h at 100 years around a "
               "1e-6 g/cm^3 giant (circular-orbit duration)"),
-    "t23_h": (0.0, 2.0e4, False, True, "as t14_h"),
+    "t23_h": (0.001, 2.0e4, True, True,
+              "low: 3.6 s, below any photometric cadence (a shorter flat bottom is a grazing "
+              "transit: leave t23_h out); high: as t14_h"),
     "rho_circ_cgs": (1.0e-9, 1.0e6, True, True,
                      "the stellar range widened by ((1 + e sin w) / sqrt(1 - e^2))^3 for e up to "
                      "0.99 (Kipping 2010 photo-eccentric factor) and by blends"),
