@@ -44,7 +44,7 @@ def write_report(result, out_dir, *, plot_targets: int = 10, rv_data: dict | Non
     dict with ``doc`` (the results.json document), ``files`` (paths written) and ``ranking``.
     """
     from ..cli.common import write_json
-    from ..planning.altitude_plot import night_figure
+    from .night_chart import night_figure
     from ..planning.campaign import to_ical
     from . import plots
     from .summary import CAUTIONS, assumptions, html_summary, markdown_summary
