@@ -202,3 +202,75 @@ def test_plot_night_writes_a_png(night_plan, tmp_path):
     eng, night, sci, plan = night_plan
     p = plot_night(tmp_path / "night.png", eng, night, sci, plan)
     assert p.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+# ---------------------------------------------------------------------------------------------
+# RV figure: the K it shows is the RV record's K summary
+
+ROOT = __import__("pathlib").Path(__file__).resolve().parents[1]
+RV_CAT = ("name,period_d,t0_bjd,ra_deg,dec_deg,a_rs,a_rs_err,b,b_err,rp_rs,rp_rs_err,rho_star_cgs,"
+          "rho_star_cgs_err,mstar_msun,mstar_msun_err,rstar_rsun,rstar_rsun_err,teff_k,logg_cgs,vmag\n"
+          "HTS-104,8.774,2461028.37097,150.1,12.3,27.8,0.6,0.3,0.05,0.118,0.001,1.51,0.08,0.98,0.05,0.97,0.04,"
+          "5700,4.4,10.2\n")
+
+
+@pytest.fixture(scope="module")
+def rv_case(tmp_path_factory):
+    from rhofollow.assess import assess_catalogue
+    from rhofollow.io.catalogue import read_catalogue
+    from rhofollow.io.instruments import read_instrument
+    from rhofollow.io.rvdata import read_rv_dir
+    from rhofollow.rvplan import plan_rv
+
+    p = tmp_path_factory.mktemp("rv") / "hts.csv"
+    p.write_text(RV_CAT)
+    (a,) = assess_catalogue(read_catalogue(p).targets, n_samples=600, seed=11)
+    vel = read_instrument(ROOT / "site_configs/instruments/aq_vel.toml")
+    data = read_rv_dir(ROOT / "examples/rv", {"AQ-VEL"})
+    (before,) = plan_rv([a], vel, seed=11, n_null=200, n_alt=200)
+    (after,) = plan_rv([a], vel, data, seed=11, n_null=200, n_alt=200)
+    return a.samples, before, after, data[a.name]
+
+
+def _circular_line(fig):
+    (line,) = [ln for ln in fig.axes[0].lines if ln.get_gid() == "circular-k"]
+    return line
+
+
+def test_rv_figure_shows_the_record_k(rv_case):
+    from rhofollow.physics.rv import circular_shape
+    from rhofollow.report.plots import rv_figure
+
+    s, rec, _, _ = rv_case
+    fig = rv_figure(s, rec, seed=11)
+    line = _circular_line(fig)
+    k = rec["k_ms"]["q50"]
+    assert f"K = {k:.1f} m/s" in line.get_label()
+    # the dashed curve is K times the circular shape (the shape itself is checked in test_rv_k.py)
+    ph = np.asarray(line.get_xdata())
+    assert np.asarray(line.get_ydata()) == pytest.approx(k * circular_shape(ph), rel=1e-12)
+    assert np.max(np.abs(line.get_ydata())) == pytest.approx(k, rel=1e-3)
+
+
+def test_rv_figure_k_after_measured_rvs_is_the_updated_record_k(rv_case):
+    from rhofollow.report.plots import rv_figure
+
+    s, _, rec, data = rv_case
+    assert rec.get("k_updated_ms")
+    fig = rv_figure(s, rec, rv_data=data, seed=11)
+    label = _circular_line(fig).get_label()
+    assert f"K = {rec['k_updated_ms']['q50']:.1f} m/s" in label and "after the measured RVs" in label
+
+
+def test_rv_figure_draws_are_the_records_draws(rv_case):
+    """The K draws behind the figure are the RV record's: their weighted quantiles equal ``k_ms``."""
+    from rhofollow.report.plots import k_summary, record_k_draws
+    from rhofollow.samples import quantile_dict
+
+    s, rec, _, _ = rv_case
+    k, w = record_k_draws(s, seed=11)
+    assert quantile_dict(k, w) == pytest.approx(rec["k_ms"], rel=1e-12)
+    # without a record the summary is computed the same way (posterior-weighted median)
+    kmed, q, _ = k_summary(None, k, w)
+    assert kmed == pytest.approx(rec["k_ms"]["q50"], rel=1e-12)
+    assert k_summary(rec)[0] == rec["k_ms"]["q50"]

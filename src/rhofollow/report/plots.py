@@ -16,6 +16,7 @@ import numpy as np
 
 __all__ = ["COLOURS", "ecc_cmap", "evidence_cmap", "density_figure", "ecc_omega_figure",
            "occultation_figure", "rv_figure", "overview_figure", "campaign_figure", "rv_model_draws",
+           "record_k_draws", "k_summary",
            "occultation_times"]
 
 #: Our palette: circular-orbit quantities warm, the independent star cool, plans green.
@@ -294,15 +295,15 @@ def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = 0
     """Posterior draws of the RV curve against phase from transit.
 
     Returns ``(phase, eccentric (D, n_phase), circular (D, n_phase), k (D,))`` in m/s. K per sample
-    is ``k`` when given, else drawn from the planet mass and the sample's e, i, M* and P
-    (:func:`rhofollow.rvplan.planet_mass_and_k`); ``weights`` replace the samples' weights.
+    is ``k`` when given, else the K the RV record of this target uses: drawn from the planet mass
+    and the sample's e, i, M* and P (:func:`rhofollow.rvplan.planet_mass_and_k`) with the record's
+    generator for (seed, target); ``weights`` replace the samples' weights.
     """
     from ..physics.rv import circular_shape, rv_shape
-    from ..rvplan import planet_mass_and_k
 
-    rng = np.random.default_rng(seed)
     if k is None:
-        _, k, _ = planet_mass_and_k(samples, rng)
+        k, _ = record_k_draws(samples, seed)
+    rng = np.random.default_rng(seed)
     w = samples.weights if weights is None else np.asarray(weights, float) / np.sum(weights)
     cw = np.cumsum(w)
     cw[-1] = 1.0
@@ -314,15 +315,49 @@ def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = 0
     return ph, ecc, circ, kk
 
 
-def _rv_update(samples, rv_data, jitter, seed):
-    """(weights, K per sample) of the posterior after the measured RVs (K marginal, offsets free)."""
-    from ..physics.rvupdate import conditional_k, rv_log_likelihood
+def record_k_draws(samples, seed: int = 0, relation: str = "auto"):
+    """(K per sample in m/s, weights): the very draws behind the RV record's ``k_ms`` for this seed."""
+    from ..rvplan import _rng, planet_mass_and_k
 
+    _, k, _ = planet_mass_and_k(samples, _rng(seed, samples.name, "mass"), relation)
+    return k, samples.weights
+
+
+def _rv_update(samples, rv_data, jitter, seed, k_mode="marginal"):
+    """(weights, K per sample) of the posterior after the measured RVs (offsets free), drawn as the
+    RV record's update draws them (same generator, same K mode)."""
+    from ..physics.rvupdate import conditional_k, rv_log_likelihood
+    from ..rvplan import _rng
+
+    k_mass, _ = record_k_draws(samples, seed)
     args = (rv_data.bjd_tdb, rv_data.rv_ms, rv_data.rv_err_ms, rv_data.groups(), samples.period,
             samples.t0, samples.e, samples.omega)
-    post = samples.reweighted(rv_log_likelihood(*args, jitter_ms=jitter))
-    k = conditional_k(*args, jitter_ms=jitter, rng=np.random.default_rng(seed))
+    post = samples.reweighted(rv_log_likelihood(*args, k_ms=k_mass if k_mode == "mass" else None,
+                                                jitter_ms=jitter))
+    if k_mode == "mass":
+        return post.weights, k_mass
+    k = conditional_k(*args, jitter_ms=jitter, rng=_rng(seed, samples.name, "kcond"))
     return post.weights, k
+
+
+def k_summary(rv_record: dict | None, k=None, weights=None) -> tuple[float, dict | None, str]:
+    """The K summary every report shows: ``(K, quantiles, which)`` in m/s.
+
+    K is the posterior-weighted median of K over the samples as the RV record reports it:
+    ``k_updated_ms["q50"]`` after measured RVs, else ``k_ms["q50"]``. Only without a record is it
+    computed, the same way, from the draws ``k`` with ``weights``.
+    """
+    from ..samples import quantile_dict
+
+    rec = rv_record or {}
+    for key, which in (("k_updated_ms", "after the measured RVs"), ("k_ms", "before any RV")):
+        q = rec.get(key)
+        if q and q.get("q50") is not None:
+            return float(q["q50"]), q, which
+    if k is None:
+        return float("nan"), None, "unknown"
+    q = quantile_dict(np.asarray(k, float), weights)
+    return q["q50"], q, "from the samples"
 
 
 def rv_figure(samples, rv_record: dict | None, visits: list | None = None, night_phases: list | None = None,
@@ -337,16 +372,29 @@ def rv_figure(samples, rv_record: dict | None, visits: list | None = None, night
     rec = rv_record or {}
     k = w = None
     if rv_data is not None:
-        w, k = _rv_update(samples, rv_data, float(rec.get("jitter_ms") or 0.0), seed)
+        w, k = _rv_update(samples, rv_data, float(rec.get("jitter_ms") or 0.0), seed,
+                          rec.get("k_mode", "marginal"))
         if not np.all(np.isfinite(w)) or w.sum() <= 0:
             k = w = None
     ph, ecc, circ, kk = rv_model_draws(samples, seed=seed, k=k, weights=w)
     fig, ax = plt.subplots(figsize=(8.6, 5.4))
     for row in ecc:
         ax.plot(ph, row, color=COLOURS["ecc"], lw=0.8, alpha=0.2)
-    kmed = float(np.median(kk))
-    ax.plot(ph, kmed * circ[0] / kk[0] if kk[0] > 0 else np.median(circ, axis=0), color=COLOURS["circ"],
-            lw=2.2, ls="--", label=f"circular orbit with the median K = {kmed:.1f} m/s")
+    from ..physics.rv import circular_shape
+
+    if k is None:
+        k, w_k = record_k_draws(samples, seed)
+    else:
+        w_k = w
+    if w is not None and not rec.get("k_updated_ms"):
+        # the record carries no update: summarise the update's draws the same way
+        kmed, kq, _ = k_summary({}, k, w_k)
+        which = "after the measured RVs"
+    else:
+        kmed, kq, which = k_summary(rec, k, w_k)
+    rng68 = f"; 68 %: {kq['q16']:.0f}-{kq['q84']:.0f} m/s" if kq else ""
+    ax.plot(ph, kmed * circular_shape(ph), color=COLOURS["circ"], lw=2.2, ls="--", gid="circular-k",
+            label=f"circular orbit, K = {kmed:.1f} m/s (posterior-weighted median {which}{rng68})")
     what = "updated by the measured RVs" if w is not None else "before any RV"
     ax.plot([], [], color=COLOURS["ecc"], lw=1.5, alpha=0.6,
             label=f"eccentric posterior, {what} ({ecc.shape[0]} draws)")
@@ -370,6 +418,11 @@ def rv_figure(samples, rv_record: dict | None, visits: list | None = None, night
         ax.errorbar(phase, v, yerr=err, fmt="o", color="black", ms=4, lw=1, capsize=2,
                     label=f"measured RVs ({rv_data.n}), instrument offsets removed")
         ymax = max(ymax, float(np.max(np.abs(v) + err)) * 1.15)
+    n_out = int(np.sum(np.max(np.abs(ecc), axis=1) > ymax)) if ecc.size else 0
+    if n_out:
+        ax.text(0.99, 0.98, f"{n_out} of {ecc.shape[0]} draws run beyond the plotted range (large K)",
+                transform=ax.transAxes, ha="right", va="top", fontsize=7.5, color="0.35",
+                bbox={"fc": "white", "ec": "none", "alpha": 0.85, "pad": 1})
     if visits:
         vp = [v["phase"] for v in visits if v.get("phase") is not None]
         ax.plot(vp, np.full(len(vp), -0.92 * ymax), "^", color=COLOURS["plan"], ms=8, mec="white",
