@@ -2,7 +2,7 @@
 
 Per target: the density comparison, the (e, omega) posterior, the occultation timing and the RV
 curves. For the run: the catalogue overview, the campaign calendar strip and (through
-:mod:`rhofollow.planning.altitude_plot`) the night's altitude chart. Write them with
+:mod:`rhofollow.report.night_chart`) the night's schedule chart. Write them with
 :func:`rhofollow.report.files.save_figure` (atomic PNG).
 
 omega is the RV-convention argument of periastron of the star: the transit happens at true anomaly
@@ -95,9 +95,10 @@ def density_figure(record: dict):
     lo = min(_q(rc, "q025"), _q(rs, "q025")) / 1.6
     hi = max(_q(rc, "q975"), _q(rs, "q975")) * 1.6
     x = np.geomspace(lo, hi, 600)
-    fig, ax = plt.subplots(figsize=(7.2, 4.4))
-    curves = [(rc, COLOURS["circ"], "transit, circular orbit assumed  ρ_circ"),
-              (rs, COLOURS["star"], "independent star  ρ*  (" + record.get("route_star", "") + ")")]
+    fig, ax = plt.subplots(figsize=(7.2, 5.0))
+    route = record.get("route_star", "")
+    curves = [(rc, COLOURS["circ"], "ρ_circ: from the transit, circular orbit assumed"),
+              (rs, COLOURS["star"], "ρ*: the independent star" + (f", {route}" if route else ""))]
     top = 0.0
     for q, c, lab in curves:
         y = _split_lognormal(q, x)
@@ -113,7 +114,7 @@ def density_figure(record: dict):
     ax.set_xscale("log")
     _plain_log_axis(ax.xaxis)
     ax.set_xlim(lo, hi)
-    ax.set_ylim(-0.25 * top, 1.18 * top)
+    ax.set_ylim(-0.25 * top, 1.5 * top)  # headroom: the numbers sit above the curves
     ax.axhline(0, color="0.5", lw=0.6)
     ax.set_yticks([])
     ax.set_xlabel("stellar density ρ (g cm$^{-3}$)")
@@ -125,10 +126,10 @@ def density_figure(record: dict):
            f"favoured: {record.get('favoured', '?')}")
     ax.text(0.99, 0.97, txt, transform=ax.transAxes, ha="right", va="top", fontsize=8.5,
             bbox={"fc": "white", "ec": "0.7", "lw": 0.6})
-    ax.legend(loc="upper left", fontsize=8.5, frameon=False)
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.14), fontsize=8.5, frameon=False)
     ax.set_title(f"{record['name']}: density from the transit vs the star "
                  "(bars: 68 % and 95 % intervals)", fontsize=10)
-    ax.text(0.0, -0.2, "ρ_circ > ρ*: transit shorter than circular (near periastron); ρ_circ < ρ*: longer "
+    ax.text(0.0, -0.36, "ρ_circ > ρ*: transit shorter than circular (near periastron); ρ_circ < ρ*: longer "
             "(near apastron) or diluted.", transform=ax.transAxes, fontsize=7.5, color="0.35")
     fig.tight_layout()
     return fig
@@ -229,7 +230,7 @@ def occultation_figure(samples, occ_record: dict, campaign_windows: list | None 
     plt = _plt()
     events = (occ_record.get("events") or [])[:max_events]
     n = 1 + len(events)
-    fig, axes = plt.subplots(n, 1, figsize=(7.2, 2.3 + 2.1 * len(events)), squeeze=False)
+    fig, axes = plt.subplots(n, 1, figsize=(7.2, 2.3 + 2.4 * len(events)), squeeze=False)
     axes = axes[:, 0]
     got = occultation_times(samples)
     ax = axes[0]
@@ -258,8 +259,8 @@ def occultation_figure(samples, occ_record: dict, campaign_windows: list | None 
         lo, hi = np.quantile(hrs, [0.002, 0.998])
         for a, b in ev["window_bjd_tdb"]:
             lo, hi = min(lo, (a - med) * 24 - 1), max(hi, (b - med) * 24 + 1)
-        ax.hist(hrs, bins=70, range=(lo, hi), weights=w, color=COLOURS["occ"], alpha=0.8, histtype="stepfilled",
-                label="predicted mid-time")
+        counts, _, _ = ax.hist(hrs, bins=70, range=(lo, hi), weights=w, color=COLOURS["occ"], alpha=0.8,
+                               histtype="stepfilled", label="predicted mid-time")
         for j, (a, b) in enumerate(ev["region_bjd_tdb"]):
             ax.axvspan((a - med) * 24, (b - med) * 24, ymin=0, ymax=0.06, color="0.25",
                        label=f"{100 * coverage:.0f} % credible region" if j == 0 else None)
@@ -277,13 +278,15 @@ def occultation_figure(samples, occ_record: dict, campaign_windows: list | None 
                        label="observable block at the site" if k == 0 else None)
             k += 1
         ax.set_xlim(lo, hi)
+        ax.set_ylim(0, 1.45 * float(np.max(counts)) if np.max(counts) > 0 else 1.0)  # headroom for the key
         ax.set_yticks([])
+        ax.set_ylabel("probability")
         when = ev.get("mid_utc", "")[:16].replace("T", " ")
-        ax.set_xlabel(f"hours from the median mid-time (epoch {ev['epoch']}: {when} UTC)")
-        ax.legend(fontsize=7, loc="upper right", frameon=False)
-        if not k:
-            ax.text(0.01, 0.92, "no observable block at the site for this event", transform=ax.transAxes,
-                    fontsize=7.5, color="0.3", va="top")
+        ax.set_xlabel(f"hours from the median mid-time of epoch {ev['epoch']} ({when} UTC)")
+        ax.legend(fontsize=7, loc="upper center", ncol=4, frameon=False, columnspacing=1.2)
+        ax.set_title(f"epoch {ev['epoch']}: " + (f"{k} observable block(s) at the site" if k else
+                                                 "no observable block at the site"),
+                     fontsize=8.5, loc="left", color="0.25")
     fig.tight_layout()
     return fig
 
@@ -469,24 +472,54 @@ def overview_figure(records: list[dict], periods: dict, label_top: int = 30):
                     linewidths=0.7, zorder=3)
     cb = fig.colorbar(sc, ax=ax, pad=0.02)
     cb.set_label("P(e > 0.1), posterior probability")
-    ax.axhline(1.0, color="0.3", ls="--", lw=1)
-    ax.text(0.005, 1.0, " densities agree (circular orbit)", transform=ax.get_yaxis_transform(), ha="left",
-            va="bottom", fontsize=8, color="0.3")
+    ax.axhline(1.0, color="0.3", ls="--", lw=1, label="ratio 1: the densities agree (circular orbit)")
+    ax.legend(loc="best", fontsize=8, frameon=True, framealpha=0.9, edgecolor="0.8")
     ax.margins(x=0.12, y=0.1)
     ax.set_xscale("log")
     ax.set_yscale("log")
     _plain_log_axis(ax.xaxis)
     _plain_log_axis(ax.yaxis)
-    order = np.argsort(-np.nan_to_num(p))[:label_top]
-    for i in order:
-        ax.annotate(ok[i]["name"], (per[i], y[i]), xytext=(5, 4), textcoords="offset points", fontsize=7.5)
     ax.set_xlabel("orbital period (days)")
     ax.set_ylabel("ρ_circ / ρ*  (median, 68 % bars)")
     ax.set_title(f"Catalogue overview: {len(ok)} assessed targets; above 1: transit shorter than a "
                  "circular orbit allows", fontsize=10)
     ax.grid(True, which="both", color=COLOURS["grid"], lw=0.5)
     fig.tight_layout()
+    order = np.argsort(-np.nan_to_num(p))[:label_top]
+    _place_labels(ax, per[order], y[order], [ok[i]["name"] for i in order])
     return fig
+
+
+def _place_labels(ax, xs, ys, names, fontsize=7.5):
+    """Name each point where its label overlaps no label placed before it (tries eight offsets
+    around the point; keeps the first offset when none is free). Call after the layout is final."""
+    fig = ax.figure
+    renderer = fig.canvas.get_renderer()
+    offsets = [(5, 4, "left", "bottom"), (5, -4, "left", "top"), (-5, 4, "right", "bottom"),
+               (-5, -4, "right", "top"), (0, 7, "center", "bottom"), (0, -7, "center", "top"),
+               (9, 0, "left", "center"), (-9, 0, "right", "center")]
+    taken = []
+    leg = ax.get_legend()
+    if leg is not None:
+        taken.append(leg.get_window_extent(renderer))
+    for x, y, name in zip(xs, ys, names):
+        best = None
+        for dx, dy, ha, va in offsets:
+            a = ax.annotate(name, (x, y), xytext=(dx, dy), textcoords="offset points", fontsize=fontsize,
+                            ha=ha, va=va)
+            bb = a.get_window_extent(renderer).expanded(1.05, 1.1)
+            inside = ax.get_window_extent(renderer).contains(bb.x0, bb.y0) and \
+                ax.get_window_extent(renderer).contains(bb.x1, bb.y1)
+            if inside and not any(bb.overlaps(t) for t in taken):
+                best = (a, bb)
+                break
+            a.remove()
+        if best is None:
+            dx, dy, ha, va = offsets[0]
+            a = ax.annotate(name, (x, y), xytext=(dx, dy), textcoords="offset points", fontsize=fontsize,
+                            ha=ha, va=va)
+            best = (a, a.get_window_extent(renderer))
+        taken.append(best[1])
 
 
 def campaign_figure(campaign: dict, nights: list | None = None, order: list[str] | None = None,
@@ -509,7 +542,7 @@ def campaign_figure(campaign: dict, nights: list | None = None, order: list[str]
     if nights:
         xs = [_dt.datetime.combine(g.date, _dt.time(12)) for g in nights]
         axn.bar(xs, [g.duration_hours for g in nights], width=0.8, color="#2d4f7c", alpha=0.8)
-    axn.set_ylabel("dark h", fontsize=8)
+    axn.set_ylabel("dark hours", fontsize=8)
     axn.tick_params(labelsize=7)
     axn.set_title(f"{campaign.get('site', '')}: campaign {campaign.get('start')} to {campaign.get('end')} "
                   "(each night plotted at its local evening date)", fontsize=10)
