@@ -274,3 +274,41 @@ def test_rv_figure_draws_are_the_records_draws(rv_case):
     kmed, q, _ = k_summary(None, k, w)
     assert kmed == pytest.approx(rec["k_ms"]["q50"], rel=1e-12)
     assert k_summary(rec)[0] == rec["k_ms"]["q50"]
+
+
+# ---------------------------------------------------------------------------------------------
+# targets that never rise at the site get no per-target figures
+
+def test_highest_altitude_and_rises_at_site():
+    from rhofollow.planning.site import load_site
+    from rhofollow.report.plots import highest_altitude_deg, rises_at_site
+
+    # upper culmination at 90 - |latitude - declination| (common practice, no source)
+    assert highest_altitude_deg(-30.0, -30.0) == pytest.approx(90.0)
+    assert highest_altitude_deg(20.0, -30.0) == pytest.approx(40.0)
+    site = load_site(ROOT / SITE)  # latitude -30.41, altitude limit 30 deg (airmass 2)
+    assert rises_at_site(20.0, site) and rises_at_site(-89.0, site)
+    assert not rises_at_site(40.0, site)  # culminates at 19.6 deg
+    assert rises_at_site(None, site) and rises_at_site(float("nan"), site)  # unknown: not skipped
+
+
+def test_report_skips_figures_of_a_target_that_never_rises(tmp_path):
+    import csv
+
+    from rhofollow.cli import main
+
+    rows = list(csv.DictReader((ROOT / "examples/hts_candidates.csv").open()))
+    keep = [dict(r) for r in rows if r["name"] in ("HTS-103", "HTS-104")]
+    keep[1]["dec_deg"] = "75.0"  # invented: far north, never above the demo site's horizon
+    cat = tmp_path / "two.csv"
+    with cat.open("w", newline="") as f:
+        w = csv.DictWriter(f, fieldnames=list(rows[0]))
+        w.writeheader()
+        w.writerows(keep)
+    out = tmp_path / "report"
+    rc = main(["plan", str(cat), "--site", str(ROOT / SITE), "--start", "2026-12-10", "--end", "2026-12-11",
+               "--out", str(out), "--samples", "1000", "--sims", "100", "--plot-targets", "0", "--seed", "3"])
+    assert rc in (0, 1)
+    names = {p.name for p in (out / "plots").iterdir()}
+    assert {"HTS-103_density.png", "HTS-103_rv.png"} <= names
+    assert not [n for n in names if n.startswith("HTS-104")]

@@ -81,7 +81,10 @@ def write_report(result, out_dir, *, plot_targets: int = 10, rv_data: dict | Non
 
     # figures: run-level first, then per target in rank order
     ranked = sorted((a for a in ok if ranking.get(a.name, {}).get("rank")), key=lambda a: ranking[a.name]["rank"])
-    chosen = ranked if plot_targets <= 0 else ranked[:plot_targets]
+    # no per-target figures for a target that never climbs above the site's altitude limit
+    site = getattr(result.engine, "site", None)
+    plottable = [a for a in ranked if site is None or plots.rises_at_site(a.samples.meta.get("dec_deg"), site)]
+    chosen = plottable if plot_targets <= 0 else plottable[:plot_targets]
     adv = progress("plotting", 3 + 4 * len(chosen))
     figs_md: dict[str, list[str]] = {}
     figs_html: dict[str, list[tuple[str, bytes]]] = {}

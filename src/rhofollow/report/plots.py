@@ -16,7 +16,7 @@ import numpy as np
 
 __all__ = ["COLOURS", "ecc_cmap", "evidence_cmap", "density_figure", "ecc_omega_figure",
            "occultation_figure", "rv_figure", "overview_figure", "campaign_figure", "rv_model_draws",
-           "record_k_draws", "k_summary",
+           "record_k_draws", "k_summary", "highest_altitude_deg", "rises_at_site",
            "occultation_times"]
 
 #: Our palette: circular-orbit quantities warm, the independent star cool, plans green.
@@ -24,6 +24,23 @@ COLOURS = {"circ": "#c0603a", "star": "#2f6f8f", "ecc": "#2f6f8f", "plan": "#4f7
            "occ": "#b5532f", "rv": "#2a7f86", "ink": "#222222", "grid": "#d9d9d9"}
 
 _PROB_STOPS = ["#f6f1e4", "#d9e8c9", "#8cc5b0", "#3f8f9f", "#2d4f7c", "#24153f"]
+
+
+def highest_altitude_deg(dec_deg, latitude_deg):
+    """Geometric altitude (deg) of a target at upper culmination: 90 - |latitude - declination|.
+
+    Common practice, no source (spherical astronomy of the meridian transit). NaN in, NaN out.
+    """
+    return 90.0 - np.abs(np.asarray(latitude_deg, float) - np.asarray(dec_deg, float))
+
+
+def rises_at_site(dec_deg, site) -> bool:
+    """False when the target never climbs above the site's altitude limit (per-target plots skip it);
+    True when it does or when its declination is unknown."""
+    if dec_deg is None:
+        return True
+    h = float(highest_altitude_deg(dec_deg, site.latitude_deg))
+    return not (np.isfinite(h) and h < site.constraints.min_altitude_deg)
 
 
 def _plt():
