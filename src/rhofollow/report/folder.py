@@ -101,7 +101,7 @@ def write_report(result, out_dir, *, plot_targets: int = 10, rv_data: dict | Non
     if result.night is not None:
         add("First night", "night_altitude.png",
             night_figure(result.engine, result.night_grid, result.stages.science, result.night),
-            f"Altitude chart of the night of {result.night.get('date')} with the chosen blocks")
+            f"Schedule of the night of {result.night.get('date')}: the chosen blocks per target over each target's airmass")
     add("Campaign", "campaign_calendar.png",
         plots.campaign_figure(result.campaign, result.nights, [a.name for a in ranked]),
         "Occultation windows and RV visits per night, targets in rank order")

@@ -140,7 +140,7 @@ def density_figure(record: dict):
     txt = (f"ρ_circ / ρ* = {_fmt_q(ratio)}\n"
            f"mismatch {record.get('density_ratio_sigma', float('nan')):.1f} σ;  "
            f"smallest e that explains it: {record.get('ecc_min', float('nan')):.2f}\n"
-           f"favoured: {record.get('favoured', '?')}")
+           f"favoured: {str(record.get('favoured', '?')).replace('_', ' ')}")
     ax.text(0.99, 0.97, txt, transform=ax.transAxes, ha="right", va="top", fontsize=8.5,
             bbox={"fc": "white", "ec": "0.7", "lw": 0.6})
     ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.14), fontsize=8.5, frameon=False)
@@ -260,7 +260,8 @@ def occultation_figure(samples, occ_record: dict, campaign_windows: list | None 
     ax.hist(np.mod(phase, 1.0), bins=60, range=(0, 1), weights=w, color=COLOURS["occ"], alpha=0.8,
             histtype="stepfilled")
     ax.axvline(0.5, color="0.3", ls="--", lw=1)
-    ax.text(0.505, 0.95, "circular orbit", transform=ax.get_xaxis_transform(), fontsize=7.5, va="top")
+    ax.text(0.505, 0.95, "circular orbit", transform=ax.get_xaxis_transform(), fontsize=7.5, va="top",
+            bbox={"fc": "white", "ec": "none", "alpha": 0.85, "pad": 1})
     ax.set_xlim(0, 1)
     ax.set_yticks([])
     ax.set_xlabel("occultation phase after mid-transit (orbital periods)")
