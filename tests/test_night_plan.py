@@ -196,28 +196,3 @@ def test_night_command_errors(tmp_path, capsys):
     assert main(["night", str(tmp_path / "none.csv"), "--site", SITE, "--date", "2026-12-10",
                  "--samples", "300"]) == 2
     assert "none.csv" in (err := capsys.readouterr().err) and "not found" in err
-
-
-def test_altitude_figure_axes_and_blocks(real_plan):
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    from rhofollow.planning.altitude_plot import night_figure
-    from rhofollow.planning.visibility import VisibilityEngine
-
-    site, night, sci, d = real_plan
-    fig = night_figure(VisibilityEngine(site), night, sci, d)
-    try:
-        ax = fig.axes[0]
-        assert "deg" in ax.get_ylabel() and "UTC" in ax.get_xlabel()
-        top = ax.child_axes[0]  # the secondary (local time) axis
-        assert "local time" in top.get_xlabel() and site.timezone in top.get_xlabel()
-        legend = [t.get_text() for t in ax.get_legend().get_texts()]
-        assert {b["name"] for b in d["blocks"]} <= set(legend)
-        assert any("twilight" in t for t in legend) and any(t.startswith("Moon") for t in legend)
-        labels = [t.get_text() for t in ax.texts]
-        assert sum(lab.endswith((" occ", " RV")) for lab in labels) == len(d["blocks"])
-    finally:
-        plt.close(fig)

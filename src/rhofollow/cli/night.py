@@ -151,7 +151,7 @@ def run(args) -> int:
         write_json(args.json, {k: v for k, v in doc.items()})
         ec.print(f"wrote {args.json}", highlight=False)
     if args.plot:
-        from ..planning.altitude_plot import plot_night
+        from ..report.night_chart import plot_night
 
         plot_night(args.plot, eng, night, prep.science, doc)
         ec.print(f"wrote {args.plot}", highlight=False)

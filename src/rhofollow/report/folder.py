@@ -44,7 +44,7 @@ def write_report(result, out_dir, *, plot_targets: int = 10, rv_data: dict | Non
     dict with ``doc`` (the results.json document), ``files`` (paths written) and ``ranking``.
     """
     from ..cli.common import write_json
-    from ..planning.altitude_plot import night_figure
+    from .night_chart import night_figure
     from ..planning.campaign import to_ical
     from . import plots
     from .summary import CAUTIONS, assumptions, html_summary, markdown_summary
@@ -81,7 +81,10 @@ def write_report(result, out_dir, *, plot_targets: int = 10, rv_data: dict | Non
 
     # figures: run-level first, then per target in rank order
     ranked = sorted((a for a in ok if ranking.get(a.name, {}).get("rank")), key=lambda a: ranking[a.name]["rank"])
-    chosen = ranked if plot_targets <= 0 else ranked[:plot_targets]
+    # no per-target figures for a target that never climbs above the site's altitude limit
+    site = getattr(result.engine, "site", None)
+    plottable = [a for a in ranked if site is None or plots.rises_at_site(a.samples.meta.get("dec_deg"), site)]
+    chosen = plottable if plot_targets <= 0 else plottable[:plot_targets]
     adv = progress("plotting", 3 + 4 * len(chosen))
     figs_md: dict[str, list[str]] = {}
     figs_html: dict[str, list[tuple[str, bytes]]] = {}
@@ -98,7 +101,7 @@ def write_report(result, out_dir, *, plot_targets: int = 10, rv_data: dict | Non
     if result.night is not None:
         add("First night", "night_altitude.png",
             night_figure(result.engine, result.night_grid, result.stages.science, result.night),
-            f"Altitude chart of the night of {result.night.get('date')} with the chosen blocks")
+            f"Schedule of the night of {result.night.get('date')}: the chosen blocks per target over each target's airmass")
     add("Campaign", "campaign_calendar.png",
         plots.campaign_figure(result.campaign, result.nights, [a.name for a in ranked]),
         "Occultation windows and RV visits per night, targets in rank order")

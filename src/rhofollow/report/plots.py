@@ -2,7 +2,7 @@
 
 Per target: the density comparison, the (e, omega) posterior, the occultation timing and the RV
 curves. For the run: the catalogue overview, the campaign calendar strip and (through
-:mod:`rhofollow.planning.altitude_plot`) the night's altitude chart. Write them with
+:mod:`rhofollow.report.night_chart`) the night's schedule chart. Write them with
 :func:`rhofollow.report.files.save_figure` (atomic PNG).
 
 omega is the RV-convention argument of periastron of the star: the transit happens at true anomaly
@@ -16,6 +16,7 @@ import numpy as np
 
 __all__ = ["COLOURS", "ecc_cmap", "evidence_cmap", "density_figure", "ecc_omega_figure",
            "occultation_figure", "rv_figure", "overview_figure", "campaign_figure", "rv_model_draws",
+           "record_k_draws", "k_summary", "highest_altitude_deg", "rises_at_site",
            "occultation_times"]
 
 #: Our palette: circular-orbit quantities warm, the independent star cool, plans green.
@@ -23,6 +24,23 @@ COLOURS = {"circ": "#c0603a", "star": "#2f6f8f", "ecc": "#2f6f8f", "plan": "#4f7
            "occ": "#b5532f", "rv": "#2a7f86", "ink": "#222222", "grid": "#d9d9d9"}
 
 _PROB_STOPS = ["#f6f1e4", "#d9e8c9", "#8cc5b0", "#3f8f9f", "#2d4f7c", "#24153f"]
+
+
+def highest_altitude_deg(dec_deg, latitude_deg):
+    """Geometric altitude (deg) of a target at upper culmination: 90 - |latitude - declination|.
+
+    Common practice, no source (spherical astronomy of the meridian transit). NaN in, NaN out.
+    """
+    return 90.0 - np.abs(np.asarray(latitude_deg, float) - np.asarray(dec_deg, float))
+
+
+def rises_at_site(dec_deg, site) -> bool:
+    """False when the target never climbs above the site's altitude limit (per-target plots skip it);
+    True when it does or when its declination is unknown."""
+    if dec_deg is None:
+        return True
+    h = float(highest_altitude_deg(dec_deg, site.latitude_deg))
+    return not (np.isfinite(h) and h < site.constraints.min_altitude_deg)
 
 
 def _plt():
@@ -94,9 +112,10 @@ def density_figure(record: dict):
     lo = min(_q(rc, "q025"), _q(rs, "q025")) / 1.6
     hi = max(_q(rc, "q975"), _q(rs, "q975")) * 1.6
     x = np.geomspace(lo, hi, 600)
-    fig, ax = plt.subplots(figsize=(7.2, 4.4))
-    curves = [(rc, COLOURS["circ"], "transit, circular orbit assumed  ρ_circ"),
-              (rs, COLOURS["star"], "independent star  ρ*  (" + record.get("route_star", "") + ")")]
+    fig, ax = plt.subplots(figsize=(7.2, 5.0))
+    route = record.get("route_star", "")
+    curves = [(rc, COLOURS["circ"], "ρ_circ: from the transit, circular orbit assumed"),
+              (rs, COLOURS["star"], "ρ*: the independent star" + (f", {route}" if route else ""))]
     top = 0.0
     for q, c, lab in curves:
         y = _split_lognormal(q, x)
@@ -112,7 +131,7 @@ def density_figure(record: dict):
     ax.set_xscale("log")
     _plain_log_axis(ax.xaxis)
     ax.set_xlim(lo, hi)
-    ax.set_ylim(-0.25 * top, 1.18 * top)
+    ax.set_ylim(-0.25 * top, 1.5 * top)  # headroom: the numbers sit above the curves
     ax.axhline(0, color="0.5", lw=0.6)
     ax.set_yticks([])
     ax.set_xlabel("stellar density ρ (g cm$^{-3}$)")
@@ -121,13 +140,13 @@ def density_figure(record: dict):
     txt = (f"ρ_circ / ρ* = {_fmt_q(ratio)}\n"
            f"mismatch {record.get('density_ratio_sigma', float('nan')):.1f} σ;  "
            f"smallest e that explains it: {record.get('ecc_min', float('nan')):.2f}\n"
-           f"favoured: {record.get('favoured', '?')}")
+           f"favoured: {str(record.get('favoured', '?')).replace('_', ' ')}")
     ax.text(0.99, 0.97, txt, transform=ax.transAxes, ha="right", va="top", fontsize=8.5,
             bbox={"fc": "white", "ec": "0.7", "lw": 0.6})
-    ax.legend(loc="upper left", fontsize=8.5, frameon=False)
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.14), fontsize=8.5, frameon=False)
     ax.set_title(f"{record['name']}: density from the transit vs the star "
                  "(bars: 68 % and 95 % intervals)", fontsize=10)
-    ax.text(0.0, -0.2, "ρ_circ > ρ*: transit shorter than circular (near periastron); ρ_circ < ρ*: longer "
+    ax.text(0.0, -0.36, "ρ_circ > ρ*: transit shorter than circular (near periastron); ρ_circ < ρ*: longer "
             "(near apastron) or diluted.", transform=ax.transAxes, fontsize=7.5, color="0.35")
     fig.tight_layout()
     return fig
@@ -228,7 +247,7 @@ def occultation_figure(samples, occ_record: dict, campaign_windows: list | None 
     plt = _plt()
     events = (occ_record.get("events") or [])[:max_events]
     n = 1 + len(events)
-    fig, axes = plt.subplots(n, 1, figsize=(7.2, 2.3 + 2.1 * len(events)), squeeze=False)
+    fig, axes = plt.subplots(n, 1, figsize=(7.2, 2.3 + 2.4 * len(events)), squeeze=False)
     axes = axes[:, 0]
     got = occultation_times(samples)
     ax = axes[0]
@@ -241,7 +260,8 @@ def occultation_figure(samples, occ_record: dict, campaign_windows: list | None 
     ax.hist(np.mod(phase, 1.0), bins=60, range=(0, 1), weights=w, color=COLOURS["occ"], alpha=0.8,
             histtype="stepfilled")
     ax.axvline(0.5, color="0.3", ls="--", lw=1)
-    ax.text(0.505, 0.95, "circular orbit", transform=ax.get_xaxis_transform(), fontsize=7.5, va="top")
+    ax.text(0.505, 0.95, "circular orbit", transform=ax.get_xaxis_transform(), fontsize=7.5, va="top",
+            bbox={"fc": "white", "ec": "none", "alpha": 0.85, "pad": 1})
     ax.set_xlim(0, 1)
     ax.set_yticks([])
     ax.set_xlabel("occultation phase after mid-transit (orbital periods)")
@@ -257,8 +277,8 @@ def occultation_figure(samples, occ_record: dict, campaign_windows: list | None 
         lo, hi = np.quantile(hrs, [0.002, 0.998])
         for a, b in ev["window_bjd_tdb"]:
             lo, hi = min(lo, (a - med) * 24 - 1), max(hi, (b - med) * 24 + 1)
-        ax.hist(hrs, bins=70, range=(lo, hi), weights=w, color=COLOURS["occ"], alpha=0.8, histtype="stepfilled",
-                label="predicted mid-time")
+        counts, _, _ = ax.hist(hrs, bins=70, range=(lo, hi), weights=w, color=COLOURS["occ"], alpha=0.8,
+                               histtype="stepfilled", label="predicted mid-time")
         for j, (a, b) in enumerate(ev["region_bjd_tdb"]):
             ax.axvspan((a - med) * 24, (b - med) * 24, ymin=0, ymax=0.06, color="0.25",
                        label=f"{100 * coverage:.0f} % credible region" if j == 0 else None)
@@ -276,13 +296,15 @@ def occultation_figure(samples, occ_record: dict, campaign_windows: list | None 
                        label="observable block at the site" if k == 0 else None)
             k += 1
         ax.set_xlim(lo, hi)
+        ax.set_ylim(0, 1.45 * float(np.max(counts)) if np.max(counts) > 0 else 1.0)  # headroom for the key
         ax.set_yticks([])
+        ax.set_ylabel("probability")
         when = ev.get("mid_utc", "")[:16].replace("T", " ")
-        ax.set_xlabel(f"hours from the median mid-time (epoch {ev['epoch']}: {when} UTC)")
-        ax.legend(fontsize=7, loc="upper right", frameon=False)
-        if not k:
-            ax.text(0.01, 0.92, "no observable block at the site for this event", transform=ax.transAxes,
-                    fontsize=7.5, color="0.3", va="top")
+        ax.set_xlabel(f"hours from the median mid-time of epoch {ev['epoch']} ({when} UTC)")
+        ax.legend(fontsize=7, loc="upper center", ncol=4, frameon=False, columnspacing=1.2)
+        ax.set_title(f"epoch {ev['epoch']}: " + (f"{k} observable block(s) at the site" if k else
+                                                 "no observable block at the site"),
+                     fontsize=8.5, loc="left", color="0.25")
     fig.tight_layout()
     return fig
 
@@ -294,15 +316,15 @@ def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = 0
     """Posterior draws of the RV curve against phase from transit.
 
     Returns ``(phase, eccentric (D, n_phase), circular (D, n_phase), k (D,))`` in m/s. K per sample
-    is ``k`` when given, else drawn from the planet mass and the sample's e, i, M* and P
-    (:func:`rhofollow.rvplan.planet_mass_and_k`); ``weights`` replace the samples' weights.
+    is ``k`` when given, else the K the RV record of this target uses: drawn from the planet mass
+    and the sample's e, i, M* and P (:func:`rhofollow.rvplan.planet_mass_and_k`) with the record's
+    generator for (seed, target); ``weights`` replace the samples' weights.
     """
     from ..physics.rv import circular_shape, rv_shape
-    from ..rvplan import planet_mass_and_k
 
-    rng = np.random.default_rng(seed)
     if k is None:
-        _, k, _ = planet_mass_and_k(samples, rng)
+        k, _ = record_k_draws(samples, seed)
+    rng = np.random.default_rng(seed)
     w = samples.weights if weights is None else np.asarray(weights, float) / np.sum(weights)
     cw = np.cumsum(w)
     cw[-1] = 1.0
@@ -314,15 +336,49 @@ def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = 0
     return ph, ecc, circ, kk
 
 
-def _rv_update(samples, rv_data, jitter, seed):
-    """(weights, K per sample) of the posterior after the measured RVs (K marginal, offsets free)."""
-    from ..physics.rvupdate import conditional_k, rv_log_likelihood
+def record_k_draws(samples, seed: int = 0, relation: str = "auto"):
+    """(K per sample in m/s, weights): the very draws behind the RV record's ``k_ms`` for this seed."""
+    from ..rvplan import _rng, planet_mass_and_k
 
+    _, k, _ = planet_mass_and_k(samples, _rng(seed, samples.name, "mass"), relation)
+    return k, samples.weights
+
+
+def _rv_update(samples, rv_data, jitter, seed, k_mode="marginal"):
+    """(weights, K per sample) of the posterior after the measured RVs (offsets free), drawn as the
+    RV record's update draws them (same generator, same K mode)."""
+    from ..physics.rvupdate import conditional_k, rv_log_likelihood
+    from ..rvplan import _rng
+
+    k_mass, _ = record_k_draws(samples, seed)
     args = (rv_data.bjd_tdb, rv_data.rv_ms, rv_data.rv_err_ms, rv_data.groups(), samples.period,
             samples.t0, samples.e, samples.omega)
-    post = samples.reweighted(rv_log_likelihood(*args, jitter_ms=jitter))
-    k = conditional_k(*args, jitter_ms=jitter, rng=np.random.default_rng(seed))
+    post = samples.reweighted(rv_log_likelihood(*args, k_ms=k_mass if k_mode == "mass" else None,
+                                                jitter_ms=jitter))
+    if k_mode == "mass":
+        return post.weights, k_mass
+    k = conditional_k(*args, jitter_ms=jitter, rng=_rng(seed, samples.name, "kcond"))
     return post.weights, k
+
+
+def k_summary(rv_record: dict | None, k=None, weights=None) -> tuple[float, dict | None, str]:
+    """The K summary every report shows: ``(K, quantiles, which)`` in m/s.
+
+    K is the posterior-weighted median of K over the samples as the RV record reports it:
+    ``k_updated_ms["q50"]`` after measured RVs, else ``k_ms["q50"]``. Only without a record is it
+    computed, the same way, from the draws ``k`` with ``weights``.
+    """
+    from ..samples import quantile_dict
+
+    rec = rv_record or {}
+    for key, which in (("k_updated_ms", "after the measured RVs"), ("k_ms", "before any RV")):
+        q = rec.get(key)
+        if q and q.get("q50") is not None:
+            return float(q["q50"]), q, which
+    if k is None:
+        return float("nan"), None, "unknown"
+    q = quantile_dict(np.asarray(k, float), weights)
+    return q["q50"], q, "from the samples"
 
 
 def rv_figure(samples, rv_record: dict | None, visits: list | None = None, night_phases: list | None = None,
@@ -337,16 +393,29 @@ def rv_figure(samples, rv_record: dict | None, visits: list | None = None, night
     rec = rv_record or {}
     k = w = None
     if rv_data is not None:
-        w, k = _rv_update(samples, rv_data, float(rec.get("jitter_ms") or 0.0), seed)
+        w, k = _rv_update(samples, rv_data, float(rec.get("jitter_ms") or 0.0), seed,
+                          rec.get("k_mode", "marginal"))
         if not np.all(np.isfinite(w)) or w.sum() <= 0:
             k = w = None
     ph, ecc, circ, kk = rv_model_draws(samples, seed=seed, k=k, weights=w)
     fig, ax = plt.subplots(figsize=(8.6, 5.4))
     for row in ecc:
         ax.plot(ph, row, color=COLOURS["ecc"], lw=0.8, alpha=0.2)
-    kmed = float(np.median(kk))
-    ax.plot(ph, kmed * circ[0] / kk[0] if kk[0] > 0 else np.median(circ, axis=0), color=COLOURS["circ"],
-            lw=2.2, ls="--", label=f"circular orbit with the median K = {kmed:.1f} m/s")
+    from ..physics.rv import circular_shape
+
+    if k is None:
+        k, w_k = record_k_draws(samples, seed)
+    else:
+        w_k = w
+    if w is not None and not rec.get("k_updated_ms"):
+        # the record carries no update: summarise the update's draws the same way
+        kmed, kq, _ = k_summary({}, k, w_k)
+        which = "after the measured RVs"
+    else:
+        kmed, kq, which = k_summary(rec, k, w_k)
+    rng68 = f"; 68 %: {kq['q16']:.0f}-{kq['q84']:.0f} m/s" if kq else ""
+    ax.plot(ph, kmed * circular_shape(ph), color=COLOURS["circ"], lw=2.2, ls="--", gid="circular-k",
+            label=f"circular orbit, K = {kmed:.1f} m/s (posterior-weighted median {which}{rng68})")
     what = "updated by the measured RVs" if w is not None else "before any RV"
     ax.plot([], [], color=COLOURS["ecc"], lw=1.5, alpha=0.6,
             label=f"eccentric posterior, {what} ({ecc.shape[0]} draws)")
@@ -370,6 +439,11 @@ def rv_figure(samples, rv_record: dict | None, visits: list | None = None, night
         ax.errorbar(phase, v, yerr=err, fmt="o", color="black", ms=4, lw=1, capsize=2,
                     label=f"measured RVs ({rv_data.n}), instrument offsets removed")
         ymax = max(ymax, float(np.max(np.abs(v) + err)) * 1.15)
+    n_out = int(np.sum(np.max(np.abs(ecc), axis=1) > ymax)) if ecc.size else 0
+    if n_out:
+        ax.text(0.99, 0.98, f"{n_out} of {ecc.shape[0]} draws run beyond the plotted range (large K)",
+                transform=ax.transAxes, ha="right", va="top", fontsize=7.5, color="0.35",
+                bbox={"fc": "white", "ec": "none", "alpha": 0.85, "pad": 1})
     if visits:
         vp = [v["phase"] for v in visits if v.get("phase") is not None]
         ax.plot(vp, np.full(len(vp), -0.92 * ymax), "^", color=COLOURS["plan"], ms=8, mec="white",
@@ -416,24 +490,54 @@ def overview_figure(records: list[dict], periods: dict, label_top: int = 30):
                     linewidths=0.7, zorder=3)
     cb = fig.colorbar(sc, ax=ax, pad=0.02)
     cb.set_label("P(e > 0.1), posterior probability")
-    ax.axhline(1.0, color="0.3", ls="--", lw=1)
-    ax.text(0.005, 1.0, " densities agree (circular orbit)", transform=ax.get_yaxis_transform(), ha="left",
-            va="bottom", fontsize=8, color="0.3")
+    ax.axhline(1.0, color="0.3", ls="--", lw=1, label="ratio 1: the densities agree (circular orbit)")
+    ax.legend(loc="best", fontsize=8, frameon=True, framealpha=0.9, edgecolor="0.8")
     ax.margins(x=0.12, y=0.1)
     ax.set_xscale("log")
     ax.set_yscale("log")
     _plain_log_axis(ax.xaxis)
     _plain_log_axis(ax.yaxis)
-    order = np.argsort(-np.nan_to_num(p))[:label_top]
-    for i in order:
-        ax.annotate(ok[i]["name"], (per[i], y[i]), xytext=(5, 4), textcoords="offset points", fontsize=7.5)
     ax.set_xlabel("orbital period (days)")
     ax.set_ylabel("ρ_circ / ρ*  (median, 68 % bars)")
     ax.set_title(f"Catalogue overview: {len(ok)} assessed targets; above 1: transit shorter than a "
                  "circular orbit allows", fontsize=10)
     ax.grid(True, which="both", color=COLOURS["grid"], lw=0.5)
     fig.tight_layout()
+    order = np.argsort(-np.nan_to_num(p))[:label_top]
+    _place_labels(ax, per[order], y[order], [ok[i]["name"] for i in order])
     return fig
+
+
+def _place_labels(ax, xs, ys, names, fontsize=7.5):
+    """Name each point where its label overlaps no label placed before it (tries eight offsets
+    around the point; keeps the first offset when none is free). Call after the layout is final."""
+    fig = ax.figure
+    renderer = fig.canvas.get_renderer()
+    offsets = [(5, 4, "left", "bottom"), (5, -4, "left", "top"), (-5, 4, "right", "bottom"),
+               (-5, -4, "right", "top"), (0, 7, "center", "bottom"), (0, -7, "center", "top"),
+               (9, 0, "left", "center"), (-9, 0, "right", "center")]
+    taken = []
+    leg = ax.get_legend()
+    if leg is not None:
+        taken.append(leg.get_window_extent(renderer))
+    for x, y, name in zip(xs, ys, names):
+        best = None
+        for dx, dy, ha, va in offsets:
+            a = ax.annotate(name, (x, y), xytext=(dx, dy), textcoords="offset points", fontsize=fontsize,
+                            ha=ha, va=va)
+            bb = a.get_window_extent(renderer).expanded(1.05, 1.1)
+            inside = ax.get_window_extent(renderer).contains(bb.x0, bb.y0) and \
+                ax.get_window_extent(renderer).contains(bb.x1, bb.y1)
+            if inside and not any(bb.overlaps(t) for t in taken):
+                best = (a, bb)
+                break
+            a.remove()
+        if best is None:
+            dx, dy, ha, va = offsets[0]
+            a = ax.annotate(name, (x, y), xytext=(dx, dy), textcoords="offset points", fontsize=fontsize,
+                            ha=ha, va=va)
+            best = (a, a.get_window_extent(renderer))
+        taken.append(best[1])
 
 
 def campaign_figure(campaign: dict, nights: list | None = None, order: list[str] | None = None,
@@ -456,7 +560,7 @@ def campaign_figure(campaign: dict, nights: list | None = None, order: list[str]
     if nights:
         xs = [_dt.datetime.combine(g.date, _dt.time(12)) for g in nights]
         axn.bar(xs, [g.duration_hours for g in nights], width=0.8, color="#2d4f7c", alpha=0.8)
-    axn.set_ylabel("dark h", fontsize=8)
+    axn.set_ylabel("dark hours", fontsize=8)
     axn.tick_params(labelsize=7)
     axn.set_title(f"{campaign.get('site', '')}: campaign {campaign.get('start')} to {campaign.get('end')} "
                   "(each night plotted at its local evening date)", fontsize=10)
