@@ -41,14 +41,14 @@ LEGEND = ("mismatch: |ln(ρ_circ/ρ★)| in units of its spread; 2lnB: log Bayes
 
 def summary_table(records: list[dict], width: int = 80) -> FittedTable:
     """The terminal table, one row per target, with the columns that fit ``width`` (densities g/cm³)."""
-    cols = [Col("target", justify="left"), Col("ρ_circ", drop=2, what="ρ_circ"),
-            Col("ρ★", drop=2, what="ρ★"), Col("ratio"), Col("mismatch"), Col("e_min", drop=3),
+    cols = [Col("target", justify="left"), Col("ρ_circ", drop=3, what="ρ_circ"),
+            Col("ρ★", drop=3, what="ρ★"), Col("ratio", drop=1), Col("mismatch"), Col("e_min", drop=4),
             Col("e [95%]", compact_header="e", what="e interval"), Col("P(e>0.1)"),
             Col("favoured", justify="left"), Col("2lnB", drop=1)]
     rows = []
     for r in records:
         if not r.get("ok"):
-            rows.append([r["name"], *["—"] * 7, Text("not assessed", style="red"), "—"])
+            rows.append([r["name"], *["—"] * 7, Text("failed", style="red"), "—"])
             continue
         e = r["ecc"]
         fav = r["favoured"].replace("_", " ")

@@ -117,9 +117,9 @@ def events_table(result: dict, width: int = 80) -> FittedTable:
     band = band_label(result.get("band"))
     cols = [Col("target", justify="left"), Col("phase [68%]", compact_header="phase", what="phase interval"),
             Col("P(occ)"), Col("duration h\n[68%]", compact_header="duration\nh", what="duration interval", drop=2),
-            Col(f"depth ppm @ {band}\n[68%]", compact_header=f"depth ppm\n@ {band}", drop=3,
+            Col(f"depth ppm @ {band}\n[68%]", compact_header=f"depth ppm\n@ {band}", drop=1,
                 what="depth interval"),
-            Col("events", drop=1), Col("next window (UTC)", justify="left", wrap=True)]
+            Col("events", drop=3), Col("next window (UTC)", justify="left", wrap=True)]
     rows = []
     for r in result["targets"]:
         if not r.get("ok"):

@@ -70,6 +70,7 @@ class Col:
     compact_header: str | None = None
     what: str | None = None
     style: str | None = None
+    max_width: int | None = None  # only for ``wrap`` columns: fold beyond this width
 
     def label(self) -> str:
         return self.what or " ".join(self.header.split())
@@ -113,7 +114,7 @@ def _lines(t: Text) -> list[str]:
 def _col_width(header: str, cells: list[Text], wrap: bool) -> int:
     """Width a column needs: its longest line, or its longest word when it may wrap."""
     texts = [Text(header)] + cells
-    if wrap:
+    if wrap:  # (a max_width only lowers what the column takes when there is room; the minimum is a word)
         return max((cell_len(w) for t in texts for w in t.plain.split()), default=1)
     return max(cell_len(line) for t in texts for line in _lines(t))
 
@@ -124,7 +125,8 @@ def _build(title, cols, rows, forms, row_styles, caption) -> Table:
                 padding=(0, 1))
     for c, compact in zip(cols, forms):
         head = c.compact_header if compact and c.compact_header else c.header
-        tab.add_column(head, justify=c.justify, no_wrap=not c.wrap, overflow="fold", style=c.style)
+        tab.add_column(head, justify=c.justify, no_wrap=not c.wrap, overflow="fold", style=c.style,
+                       max_width=c.max_width if c.wrap else None)
     for r, st in zip(rows, row_styles):
         tab.add_row(*r, style=st)
     return tab
@@ -182,7 +184,8 @@ def fit_table(title: str | None, cols: list[Col], rows: list[list], width: int, 
     kforms = [compact[i] for i in keep]
     krows = [[_text(_form(r[i], compact[i])) for i in keep] for r in rows]
     if needed() > width:  # too narrow even for the essentials: fold everything, cut nothing
-        kcols = [Col(c.header, c.justify, c.drop, True, c.compact_header, c.what, c.style) for c in kcols]
+        kcols = [Col(c.header, c.justify, c.drop, True, c.compact_header, c.what, c.style, c.max_width)
+                 for c in kcols]
     tab = _build(title, kcols, krows, kforms, row_styles, caption)
     return FittedTable(tab, left_out, shortened, width)
 
