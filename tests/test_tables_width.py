@@ -301,3 +301,13 @@ def test_assess_command_table_at_width(tmp_path, monkeypatch, capsys, columns):
         table.append(line)
     check_layout("\n".join(table), int(columns), [t["name"] for t in doc["targets"]],
                  [f"{t['p_ecc_gt_0p1']:.2f}" for t in doc["targets"]])
+
+
+def test_printed_priorities_show_the_ranking_order():
+    """Priorities that differ print differently (more decimals when needed), so the rank column never
+    contradicts the printed priority and mismatch tie-break."""
+    doc = plan_doc()
+    for t, p in zip(doc["targets"], (1.0, 0.99996, 0.99996, 0.9999)):
+        t["priority"] = p
+    text = render(plan_table(doc, 140), 140)
+    assert "1.00000" in text and "0.99996" in text and "0.99990" in text

@@ -121,6 +121,16 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args) 
     return written
 
 
+def _priority_digits(values: list[float], lo: int = 3, hi: int = 6) -> int:
+    """Fewest decimals (``lo``..``hi``) at which priorities that differ also print differently, so the
+    printed column shows the order the ranking uses (equal printed values are true ties)."""
+    distinct = sorted(set(values))
+    for nd in range(lo, hi + 1):
+        if len({f"{v:.{nd}f}" for v in distinct}) == len(distinct):
+            return nd
+    return hi
+
+
 def summary_table(doc: dict, width: int = 80, top: int | None = 8) -> FittedTable:
     """The ranked targets of a plan run (rank order), with the columns that fit ``width``.
 
@@ -136,14 +146,15 @@ def summary_table(doc: dict, width: int = 80, top: int | None = 8) -> FittedTabl
             Col("P(e>0.1)", drop=4), Col("e\nmedian", what="e median", drop=3),
             Col("favoured", justify="left", drop=2), Col("occ.\nwindows"), Col("RV visits\nplaced"),
             Col("RV visits\nto confirm", drop=5, what="RV visits to confirm")]
+    shown_t = [by_name[r[1]] for r in (_rows[:top] if top else _rows)]
+    nd = _priority_digits([float(t.get("priority") or 0.0) for t in shown_t])
     rows = []
-    for r in _rows[:top] if top else _rows:
-        t = by_name[r[1]]
+    for t in shown_t:
         rv, c = t.get("rv") or {}, t.get("campaign") or {}
         n = rv.get("n_epochs_confirm_ecc")
         sig = t.get("density_ratio_sigma")
         e = (t.get("ecc") or {}).get("q50")
-        rows.append([str(t["rank"]), t["name"], f"{t.get('priority', 0.0):.3f}",
+        rows.append([str(t["rank"]), t["name"], f"{float(t.get('priority') or 0.0):.{nd}f}",
                      "—" if sig is None else f"{sig:.1f}σ",
                      "—" if t.get("p_ecc_gt_0p1") is None else f"{t['p_ecc_gt_0p1']:.2f}",
                      "—" if e is None else f"{e:.2f}", str(t.get("favoured", "—")).replace("_", " "),
