@@ -3,7 +3,7 @@ PY ?= python3
 VENV ?= .venv
 BIN := $(VENV)/bin
 
-.PHONY: demo test venv bench clean
+.PHONY: demo test venv bench ci clean
 
 $(BIN)/rhofollow: pyproject.toml
 	$(PY) -m venv $(VENV)
@@ -18,6 +18,11 @@ demo: venv
 
 test: venv
 	$(BIN)/python -m pytest -q
+
+# What CI runs: a fresh clone under a ~150-character path, `make test` at COLUMNS=60, then the suite at
+# COLUMNS=200 (see .ci/run).
+ci:
+	bash .ci/run
 
 bench: venv
 	for f in bench/bench_*.py; do $(BIN)/python $$f || exit 1; done

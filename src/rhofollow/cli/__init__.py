@@ -36,7 +36,8 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: list[str] | None = None) -> int:
-    from .common import UserError, err_console
+    from .common import UserError
+    from .render import message
 
     parser = build_parser()
     args = parser.parse_args(argv)
@@ -46,16 +47,15 @@ def main(argv: list[str] | None = None) -> int:
     try:
         return int(args.func(args) or 0)
     except UserError as exc:
-        err_console().print(f"[bold red]error:[/] {exc}", highlight=False)
+        message(exc, "error")
         return 2
     except KeyboardInterrupt:
-        err_console().print("interrupted")
+        message("interrupted")
         return 130
     except Exception as exc:  # noqa: BLE001 - last line of defence, the user sees one sentence
         if args.debug:
             raise
-        err_console().print(f"[bold red]internal error:[/] {type(exc).__name__}: {exc} "
-                            "(run with --debug for the traceback)", highlight=False)
+        message(f"{type(exc).__name__}: {exc} (run with --debug for the traceback)", "internal error")
         return 3
 
 

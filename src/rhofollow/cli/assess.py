@@ -3,10 +3,11 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from rich.table import Table
+from rich.text import Text
 
 from .common import (add_assess_options, add_json_option, console, load_catalogue, report_row_issues,
                      write_json, atomic_write_text)
+from .render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run", "summary_table", "assessment_table"]
 
@@ -33,34 +34,34 @@ def _fmt(x, nd=2):
     return "—" if x is None else f"{x:.{nd}g}" if abs(x) < 1e-2 or abs(x) >= 1e3 else f"{x:.{nd}f}"
 
 
-def summary_table(records: list[dict]) -> Table:
-    """Rich table, one row per target (densities in g/cm^3)."""
-    tab = Table(title="Density mismatch and eccentricity (densities in g/cm³)", header_style="bold",
-                caption="mismatch: |ln(ρ_circ/ρ★)| in units of its spread; e: median [2.5–97.5 %]; "
-                "2lnB: log Bayes factor of the favoured explanation over the next best "
-                "(Kass & Raftery 1995: >2 positive, >6 strong, >10 very strong); ?: unreliable quantiles "
-                "(effective sample size below the floor)", caption_justify="left")
-    tab.add_column("target", no_wrap=True)
-    for col in ("ρ_circ", "ρ★", "ratio", "mismatch", "e_min", "e", "P(e>0.1)"):
-        tab.add_column(col, justify="right", no_wrap=True)
-    tab.add_column("favoured", no_wrap=True)
-    tab.add_column("2lnB", justify="right", no_wrap=True)
+LEGEND = ("mismatch: |ln(ρ_circ/ρ★)| in units of its spread; 2lnB: log Bayes "
+          "factor of the favoured explanation over the next best (Kass & Raftery 1995: >2 positive, >6 "
+          "strong, >10 very strong); ?: unreliable quantiles (effective sample size below the floor).")
+
+
+def summary_table(records: list[dict], width: int = 80) -> FittedTable:
+    """The terminal table, one row per target, with the columns that fit ``width`` (densities g/cm³)."""
+    cols = [Col("target", justify="left"), Col("ρ_circ", drop=3, what="ρ_circ"),
+            Col("ρ★", drop=3, what="ρ★"), Col("ratio", drop=1), Col("mismatch"), Col("e_min", drop=4),
+            Col("e [95%]", compact_header="e", what="e interval"), Col("P(e>0.1)"),
+            Col("favoured", justify="left"), Col("2lnB", drop=1)]
+    rows = []
     for r in records:
         if not r.get("ok"):
-            tab.add_row(r["name"], *["—"] * 7, "[red]not assessed[/]", "—")
+            rows.append([r["name"], *["—"] * 7, Text("failed", style="red"), "—"])
             continue
         e = r["ecc"]
         fav = r["favoured"].replace("_", " ")
         lnb = r.get("ln_bayes_factor")
-        style = {"eccentric": "bold", "circular": "", "blend": "italic", "other host": "italic"}.get(fav, "")
-        mark = "?" if r.get("reliable") is False else ""   # ?: unreliable (low ESS)
-        tab.add_row(
-            r["name"] + mark, _fmt(r["rho_circ_cgs"]["q50"]), _fmt(r["rho_star_cgs"]["q50"]),
+        style = {"eccentric": "bold", "blend": "italic", "other host": "italic"}.get(fav, "")
+        rows.append([
+            r["name"] + (" ?" if r.get("reliable") is False else ""), _fmt(r["rho_circ_cgs"]["q50"]), _fmt(r["rho_star_cgs"]["q50"]),
             _fmt(r["density_ratio"]["q50"]), f"{r['density_ratio_sigma']:.1f}σ", f"{r['ecc_min']:.2f}",
-            "n/a" if None in (e["q50"], e["q025"], e["q975"]) else f"{e['q50']:.2f} [{e['q025']:.2f}–{e['q975']:.2f}]",
-            f"{r['p_ecc_gt_0p1']:.2f}",
-            f"[{style}]{fav}[/]" if style else fav, "—" if lnb is None else f"{min(2 * lnb, 999):.1f}")
-    return tab
+            "n/a" if None in (e["q50"], e["q025"], e["q975"]) else
+            (f"{e['q50']:.2f} [{e['q025']:.2f}–{e['q975']:.2f}]", f"{e['q50']:.2f}"),
+            f"{r['p_ecc_gt_0p1']:.2f}", Text(fav, style=style),
+            "—" if lnb is None else f"{min(2 * lnb, 999):.1f}"])
+    return fit_table("Density mismatch and eccentricity (densities in g/cm³)", cols, rows, width)
 
 
 def assessment_table(records: list[dict]):
@@ -131,13 +132,16 @@ def run(args) -> int:
     assessments = _stream(result.targets, args)
     records = [a.record for a in assessments]
     con = console()
-    con.print(summary_table(records))
+    fitted = summary_table(records, con.width)
+    con.print(fitted.table)
+    table_note(fitted)
+    say(LEGEND, style="dim")
     for a in assessments:
         for w in a.warnings:
-            con.print(f"[yellow]{a.name}:[/] {w}", highlight=False)
+            message(f"{a.name}: {w}", "warning")
         for e in a.errors:
-            con.print(f"[red]{a.name}:[/] {e}", highlight=False)
-    con.print(f"[dim]{CAUTION}[/]")
+            message(f"{a.name}: {e}", "error")
+    say(CAUTION, style="dim")
     n_bad = result.n_failed + sum(not a.ok for a in assessments)
     payload = {"source": str(args.catalog), "prior": args.ecc_prior, "seed": args.seed,
                "n_rows": result.n_rows, "n_failed": n_bad, "targets": records,

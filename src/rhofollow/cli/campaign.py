@@ -2,8 +2,8 @@
 with the hours to request per instrument."""
 from __future__ import annotations
 
-from .common import UserError, add_json_option, add_plan_options, atomic_write_text, console, err_console, \
-    write_json
+from .common import UserError, add_json_option, add_plan_options, atomic_write_text, console, write_json
+from .render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run"]
 
@@ -38,9 +38,29 @@ def _date(s: str, opt: str):
         raise UserError(f"{opt} must be YYYY-MM-DD, got {s!r}") from None
 
 
+def campaign_table(doc: dict, plan, site_name: str, start, end, n_nights: int, width: int = 80) -> FittedTable:
+    """Per target: windows, RV visits and hours per instrument, with the columns that fit ``width``."""
+    insts = list(dict.fromkeys(plan.instruments.values()))
+    cols = ([Col("target", justify="left"), Col("occ.\nwindows"), Col("RV visits\nplaced"),
+             Col("RV visits\nneeded")] + [Col(f"{i}\nhours") for i in insts] + [Col("clashes", drop=1)])
+    rows, styles = [], []
+    for t in doc["targets"]:
+        clash = sum(x["clash"] for x in t["occultation_windows"] + t["rv_visits"])
+        need = t.get("rv_visits_needed")
+        rows.append([t["name"], str(len(t["occultation_windows"])), str(len(t["rv_visits"])),
+                     str(need) if need is not None else "no RV route",
+                     *[f"{t['hours'].get(i, 0.0):.2f}" for i in insts], str(clash) if clash else ""])
+        styles.append(None)
+    rows.append(["total", str(sum(len(t["occultation_windows"]) for t in doc["targets"])),
+                 str(sum(len(t["rv_visits"]) for t in doc["targets"])), "",
+                 *[f"{doc['hours_total'].get(i, 0.0):.2f}" for i in insts], ""])
+    styles.append("bold")
+    return fit_table(f"{site_name}: campaign {start} to {end} ({n_nights} nights with dark time)", cols, rows,
+                     width, row_styles=styles)
+
+
 def run(args) -> int:
-    from rich.progress import Progress
-    from rich.table import Table
+    from .common import count_progress
 
     from ..planning.campaign import NightVis, hours_table, plan_campaign, to_ical
     from ..planning.night import CAUTION, night_visibility
@@ -63,7 +83,7 @@ def run(args) -> int:
         raise UserError(f"no dark time at {site.name} between {start} and {end}")
     prep = prepare(args, site, jd_to_iso(grids[0].start_jd - 0.5), jd_to_iso(grids[-1].end_jd + 0.5))
     nights = []
-    with Progress(console=err_console(), transient=True) as prog:
+    with count_progress(len(grids), "visibility") as prog:
         task = prog.add_task("visibility", total=len(grids))
         for g in grids:
             nights.append(NightVis(str(g.date), night_visibility(eng, g, prep.science), g.start_jd, g.end_jd))
@@ -81,33 +101,21 @@ def run(args) -> int:
     if args.table:
         con.print(hours_table(plan, args.table), end="", highlight=False, markup=False, soft_wrap=True)
     else:
-        insts = list(dict.fromkeys(plan.instruments.values()))
-        tab = Table(title=f"{site.name}: campaign {start} to {end} ({len(nights)} nights with dark time)")
-        for col in ["target", "occ. windows", "RV visits placed/needed"] + [f"{i} h" for i in insts] + ["clashes"]:
-            tab.add_column(col, justify="left" if col == "target" else "right")
-        for t in doc["targets"]:
-            clash = sum(x["clash"] for x in t["occultation_windows"] + t["rv_visits"])
-            need = t.get("rv_visits_needed")
-            rv = f"{len(t['rv_visits'])}/{need}" if need is not None else "no RV route"
-            tab.add_row(t["name"], str(len(t["occultation_windows"])), rv,
-                        *[f"{t['hours'].get(i, 0.0):.2f}" for i in insts], str(clash) if clash else "")
-        tab.add_row("total", str(sum(len(t["occultation_windows"]) for t in doc["targets"])),
-                    str(sum(len(t["rv_visits"]) for t in doc["targets"])),
-                    *[f"{doc['hours_total'].get(i, 0.0):.2f}" for i in insts], "", style="bold")
-        con.print(tab)
-        con.print(f"Hours include {prep.overhead_h * 60:.0f} min slew + setup per block and the "
-                  "instrument overheads. 'no RV route': the eccentricity cannot be confirmed with RVs "
-                  "from this instrument; clashes: items that cannot share their night with more valuable "
-                  "ones (details in --json). " + CAUTION, highlight=False)
-    ec = err_console()
+        fitted = campaign_table(doc, plan, site.name, start, end, len(nights), con.width)
+        con.print(fitted.table)
+        table_note(fitted)
+        say(f"Hours include {prep.overhead_h * 60:.0f} min slew + setup per block and the instrument "
+            "overheads; 'no RV route': RVs from this instrument cannot confirm the eccentricity; clashes: "
+            "items that cannot share their night with more valuable ones (details in --json).")
+        message(CAUTION, "caution", to_stdout=True)
     for n in prep.notices:
-        ec.print(f"[yellow]notice:[/] {n}", highlight=False)
+        message(n, "notice")
     for s in prep.skipped:
-        ec.print(f"[dim]skipped:[/] {s['name']}: {s['reason']}", highlight=False)
+        message(f"{s['name']}: {s['reason']}", "skipped")
     if args.json:
         write_json(args.json, doc)
-        ec.print(f"wrote {args.json}", highlight=False)
+        message(f"wrote {args.json}")
     if args.ics:
         atomic_write_text(args.ics, to_ical(plan).decode("utf-8"))
-        ec.print(f"wrote {args.ics}", highlight=False)
+        message(f"wrote {args.ics}")
     return 0

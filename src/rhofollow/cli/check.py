@@ -5,7 +5,10 @@ problems, 2 when a file cannot be used at all.
 """
 from __future__ import annotations
 
-from .common import UserError, add_json_option, console, err_console, write_json
+from rich.text import Text
+
+from .common import UserError, add_json_option, console, write_json
+from .render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run", "report_dict"]
 
@@ -56,37 +59,31 @@ def report_dict(result) -> dict:
     }
 
 
-def _render(result) -> None:
-    from rich.table import Table
-    from rich.text import Text
+def problems_table(result, width: int = 80) -> FittedTable:
+    """The catalogue's problems, one row each; only the reason column folds."""
+    cols = [Col("row"), Col("name", justify="left"), Col("column", justify="left", wrap=True, max_width=20),
+            Col("kind", justify="left"), Col("reason", justify="left", wrap=True)]
+    rows = []
+    for i in sorted(result.issues, key=lambda i: (i.row, i.severity != "error")):
+        kind = Text("error", style="bold red") if i.severity == "error" else Text("warning", style="yellow")
+        rows.append([str(i.row) if i.row else "file", i.name, i.column, kind, i.reason])
+    return fit_table(f"Problems in {result.source}", cols, rows, width)
 
+
+def _render(result) -> None:
     out = console()
     if result.issues:
-        tab = Table(title=f"Problems in {result.source}", title_justify="left")
-        tab.add_column("row", justify="right")
-        tab.add_column("name")
-        tab.add_column("column")
-        tab.add_column("kind")
-        tab.add_column("reason", overflow="fold")
-        for i in sorted(result.issues, key=lambda i: (i.row, i.severity != "error")):
-            kind = Text("error", style="bold red") if i.severity == "error" \
-                else Text("warning", style="yellow")
-            tab.add_row(str(i.row) if i.row else "file", Text(i.name), Text(i.column), kind,
-                        Text(i.reason))
-        out.print(tab)
+        fitted = problems_table(result, out.width)
+        out.print(fitted.table)
+        table_note(fitted)
     n_warn = len(result.warnings)
-    style = "green" if result.ok else "bold red"
-    out.print(Text(f"{result.source}: {result.n_rows} rows read, {result.n_failed} failed, "
-                   f"{n_warn} warning{'s' if n_warn != 1 else ''}", style=style),
-              soft_wrap=True)
+    say(f"{result.source}: {result.n_rows} rows read, {result.n_failed} failed, "
+        f"{n_warn} warning{'s' if n_warn != 1 else ''}", style="green" if result.ok else "bold red")
 
 
 def _error(sentence: str) -> None:
-    """Print one error sentence on stderr (text taken literally, never as markup)."""
-    from rich.markup import escape
-
-    err_console().print(f"[bold red]error:[/] {escape(sentence)}", highlight=False,
-                        soft_wrap=True)
+    """Print one error sentence on stderr (text taken literally, never as markup, never wrapped)."""
+    message(sentence, "error")
 
 
 def _check_site(path: str) -> tuple[int, dict]:
@@ -107,16 +104,11 @@ def _check_site(path: str) -> tuple[int, dict]:
     except (OSError, ValueError) as exc:
         _error(f"site file {path}: {exc}")
         return 2, {"path": path, "ok": False, "problems": [str(exc)]}
-    from rich.text import Text
-
-    out = console()
     for prob in problems:
         prob = str(prob)
-        out.print(Text(prob if prob.startswith(str(path)) else f"{path}: {prob}", style="red"),
-                  soft_wrap=True)
-    out.print(Text(f"{path}: site file "
-                   + ("is valid" if not problems else f"has {len(problems)} problem(s)"),
-                   style="green" if not problems else "bold red"))
+        say(prob if prob.startswith(str(path)) else f"{path}: {prob}", style="red")
+    say(f"{path}: site file " + ("is valid" if not problems else f"has {len(problems)} problem(s)"),
+        style="green" if not problems else "bold red")
     return (1 if problems else 0), {"path": path, "ok": not problems, "problems": problems}
 
 

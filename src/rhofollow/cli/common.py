@@ -107,16 +107,27 @@ def add_plan_options(p) -> None:
                    "update the posteriors, visits done count, measured occultations are not re-planned")
 
 
+def _progress_columns(time_column):
+    """Progress-line columns: label, count and time never wrap; the bar is short (20 columns)."""
+    from rich.progress import BarColumn, MofNCompleteColumn, TextColumn
+    from rich.table import Column
+
+    return (TextColumn("[bold]{task.description:<18}", table_column=Column(no_wrap=True)),
+            BarColumn(bar_width=20),
+            MofNCompleteColumn(table_column=Column(no_wrap=True)),
+            time_column(table_column=Column(no_wrap=True)))
+
+
 def stage_progress(transient: bool = True):
     """Context manager: a rich Progress on stderr and a StageProgress callback drawing on it."""
     from contextlib import contextmanager
 
-    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+    from rich.progress import Progress, TimeElapsedColumn
 
     @contextmanager
     def _bars():
-        with Progress(TextColumn("[bold]{task.description:<18}"), BarColumn(), MofNCompleteColumn(),
-                      TimeElapsedColumn(), console=err_console(), transient=transient) as prog:
+        with Progress(*_progress_columns(TimeElapsedColumn), console=err_console(),
+                      transient=transient) as prog:
             def stage(label, total):
                 task = prog.add_task(label, total=max(1, total))
                 return lambda k=1: prog.advance(task, k)
@@ -127,15 +138,15 @@ def stage_progress(transient: bool = True):
 
 
 def report_row_issues(result, quiet: bool = False) -> None:
-    """Print the catalogue's row problems to stderr (one line each) and a summary line."""
-    ec = err_console()
+    """Print the catalogue's row problems to stderr (one line each, never wrapped) and a summary line."""
+    from .render import message
+
     for issue in result.issues:
-        colour = "red" if issue.severity == "error" else "yellow"
         if not quiet or issue.severity == "error":
-            ec.print(f"[{colour}]{issue.severity}:[/] {issue}", highlight=False, markup=True)
+            message(issue, issue.severity)
     if result.n_failed:
-        ec.print(f"{result.n_rows} rows read, {result.n_failed} failed validation and were skipped; "
-                 f"{len(result.targets)} go on.", highlight=False)
+        message(f"{result.n_rows} rows read, {result.n_failed} failed validation and were skipped; "
+                f"{len(result.targets)} go on.")
 
 
 def load_catalogue(path, require_coords: bool = False):
@@ -165,10 +176,10 @@ def checked_prior(args):
 
 def count_progress(total: int, label: str = "assessing"):
     """A transient rich progress bar on stderr (hidden for fewer than 5 items)."""
-    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+    from rich.progress import Progress, TimeRemainingColumn
 
-    prog = Progress(TextColumn("[bold]{task.description}"), BarColumn(), MofNCompleteColumn(),
-                    TimeRemainingColumn(), console=err_console(), transient=True, disable=total < 5)
+    prog = Progress(*_progress_columns(TimeRemainingColumn), console=err_console(), transient=True,
+                    disable=total < 5)
     return prog
 
 

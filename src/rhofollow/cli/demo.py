@@ -25,13 +25,13 @@ def register(subparsers):
 
 
 def run(args) -> int:
-    from .common import err_console
+    from .render import message
     from .plan import DEMO_DAYS, _print_summary, demo_paths, plan_to_folder, site_evening_date
 
     cat, site = demo_paths()
     start = site_evening_date(site)
     end = start + dt.timedelta(days=DEMO_DAYS)
-    err_console().print(f"Demo: {cat.name} at {site.name}, {start} to {end} (invented data).", highlight=False)
+    message(f"Demo: {cat.name} at {site.name}, {start} to {end} (invented data).")
     out = Path(args.out)
     written = plan_to_folder(cat, site, start, end, out, args)
     _print_summary(written, out)

@@ -3,10 +3,11 @@ how deep it is, and the observing windows of every event in a date range."""
 from __future__ import annotations
 
 import numpy as np
-from rich.table import Table
+from rich.text import Text
 
 from .common import (UserError, add_assess_options, add_json_option, console, err_console,
                      load_catalogue, report_row_issues, run_assessment, write_json)
+from .render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run", "parse_band", "read_filter_curve", "events_table"]
 
@@ -101,33 +102,49 @@ def _q(d, nd=2, scale=1.0):
             f"{d['q84'] * scale:.{nd}f}]")
 
 
-def events_table(result: dict) -> Table:
-    """Rich table: one row per target, with its first events."""
-    tab = Table(title="Occultations", header_style="bold",
-                caption="?: unreliable quantiles (effective sample size below the floor)")
-    for col, just in [("target", "left"), ("phase\nmedian [68%]", "right"),
-                      ("P(occ)", "right"), ("duration [h]\nmedian [68%]", "right"),
-                      ("depth [ppm]\nmedian [68%]", "right"), ("events", "right"),
-                      ("next window (UTC)", "left")]:
-        tab.add_column(col, justify=just)
+def band_label(band: dict | None) -> str:
+    """'2.15 µm' for a top-hat band, 'filter 1.9–2.4 µm' for a filter curve."""
+    band = band or {}
+    if band.get("filter"):
+        return f"filter {band['min_um']:g}–{band['max_um']:g} µm"
+    if "center_um" in band:
+        return f"{band['center_um']:g} µm"
+    return "band ?"
+
+
+def events_table(result: dict, width: int = 80) -> FittedTable:
+    """Terminal table: one row per target with its first window; columns chosen for ``width``."""
+    band = band_label(result.get("band"))
+    cols = [Col("target", justify="left"), Col("phase [68%]", compact_header="phase", what="phase interval"),
+            Col("P(occ)"), Col("duration h\n[68%]", compact_header="duration\nh", what="duration interval", drop=2),
+            Col(f"depth ppm @ {band}\n[68%]", compact_header=f"depth ppm\n@ {band}", drop=1,
+                what="depth interval"),
+            Col("events", drop=3), Col("next window (UTC)", justify="left", wrap=True)]
+    rows = []
     for r in result["targets"]:
         if not r.get("ok"):
-            tab.add_row(r["name"], *["—"] * 5, "[red]not assessed (see errors)[/]")
+            rows.append([r["name"], *["—"] * 5, Text("not assessed (see errors)", style="red")])
             continue
         evs = r.get("events", [])
         nxt = "—"
         if evs:
             w = evs[0].get("window_utc")
             if w:
-                nxt = "; ".join(f"{a[:16].replace('T', ' ')} → {b[:16].replace('T', ' ')}"
-                                for a, b in w)
+                nxt = "; ".join(f"{a[:16].replace('T', ' ')} → {b[11:16]}" if a[:10] == b[:10]
+                                else f"{a[:16].replace('T', ' ')} → {b[:16].replace('T', ' ')}" for a, b in w)
             else:
                 nxt = "; ".join(f"BJD {a:.3f} → {b:.3f}" for a, b in evs[0]["window_bjd_tdb"])
-        mark = "?" if r.get("reliable") is False else ""   # ?: unreliable (low ESS)
-        tab.add_row(r["name"] + mark, _q(r.get("occ_phase"), 3), f"{r.get('p_occultation', 0):.2f}",
-                    _q(r.get("occ_duration_h"), 2), _q(r.get("depth_ppm"), 0), str(len(evs)),
-                    nxt)
-    return tab
+        rows.append([r["name"] + (" ?" if r.get("reliable") is False else ""), _q2(r.get("occ_phase"), 3), f"{r.get('p_occultation', 0):.2f}",
+                     _q2(r.get("occ_duration_h"), 2), _q2(r.get("depth_ppm"), 0), str(len(evs)), nxt])
+    return fit_table("Occultations (medians; [68 %] intervals)", cols, rows, width)
+
+
+def _q2(d, nd):
+    """(full, compact) forms of a median with its 68 % interval."""
+    full = _q(d, nd)
+    if full == "—":
+        return full
+    return full, f"{d['q50']:.{nd}f}"
 
 
 def run(args) -> int:
@@ -156,16 +173,19 @@ def run(args) -> int:
     result["n_rows"] = cat.n_rows
     result["n_failed"] = cat.n_failed + sum(1 for r in result["targets"] if not r.get("ok"))
 
-    console().print(events_table(result))
-    ec = err_console()
+    fitted = events_table(result, console().width)
+    console().print(fitted.table)
+    table_note(fitted)
+    if any(r.get("reliable") is False for r in result["targets"]):
+        say("?: unreliable quantiles (effective sample size below the floor)", style="dim")
     for r in result["targets"]:
         for msg in r.get("errors", []):
-            ec.print(f"[red]error:[/] {r['name']}: {msg}", highlight=False)
+            message(f"{r['name']}: {msg}", "error")
         for msg in r.get("warnings", []):
-            ec.print(f"[yellow]warning:[/] {r['name']}: {msg}", highlight=False)
+            message(f"{r['name']}: {msg}", "warning")
     for msg in result.get("notices", []):
-        ec.print(f"[yellow]notice:[/] {msg}", highlight=False)
-    console().print(f"[italic]{result['caution']}[/]", highlight=False)
+        message(msg, "notice")
+    say(result["caution"], style="italic")
     if args.json:
         write_json(args.json, result)
     if args.ics:

@@ -9,7 +9,8 @@ from __future__ import annotations
 
 import argparse
 
-from .common import UserError, add_json_option, add_seed_option, console, err_console, write_json
+from .common import UserError, add_json_option, add_seed_option, console, write_json
+from .render import Col, FittedTable, fit_table, message, print_table, say, table_note
 
 __all__ = ["register", "run"]
 
@@ -135,13 +136,13 @@ def _ingest(args, fn) -> int:
             raise UserError(str(exc)) from None
     reports = reports if isinstance(reports, list) else [reports]
     for r in reports:
-        console().print(r.describe(), highlight=False, soft_wrap=True)
+        say(r.describe())
         for table, rows in r.added.items():
             for row in rows:
-                console().print(f"  + {table}: {_brief(row)}", highlight=False, soft_wrap=True)
+                say(f"  + {table}: {_brief(row)}")
         for table, rows in r.updated.items():
             for row in rows:
-                console().print(f"  ~ {table}: {row['name']}", highlight=False)
+                say(f"  ~ {table}: {row['name']}")
     if args.json:
         write_json(args.json, {"ledger": str(args.ledger),
                                "ingests": [r.to_dict() for r in reports]})
@@ -161,7 +162,7 @@ def _run_targets(args) -> int:
     except CatalogueError as exc:
         raise UserError(str(exc)) from None
     for issue in res.errors:
-        err_console().print(f"skipped: {issue}", highlight=False, soft_wrap=True)
+        message(issue, "skipped")
     if not res.targets:
         raise UserError(f"{args.catalog}: no valid rows to record")
     return _ingest(args, lambda lg: lg.add_targets(res.targets, str(args.catalog)))
@@ -207,7 +208,6 @@ def _run_done(args) -> int:
 def _run_show(args) -> int:
     from dataclasses import asdict
 
-    from rich.table import Table
     from rich.text import Text
 
     out = console()
@@ -227,55 +227,58 @@ def _run_show(args) -> int:
     if args.json:
         write_json(args.json, result)
     if not args.target:
-        tab = Table(title=f"Ledger {args.ledger}", title_justify="left")
-        for c in ("target", "catalogue", "RVs", "occ. timings", "non-detections", "done",
-                  "posteriors", "latest posterior (UTC)"):
-            tab.add_column(c, justify="left" if c in ("target", "latest posterior (UTC)")
-                           else "right")
-        for t in result["targets"]:
-            tab.add_row(Text(t["name"]), "yes" if t["has_catalogue_row"] else "no",
-                        str(t["n_rv"]), str(t["n_occ_detections"]),
-                        str(t["n_occ_non_detections"]), str(t["n_done"]), str(t["n_posteriors"]),
-                        t["latest_posterior_utc"] or "-")
-        out.print(tab)
-        out.print(f"{len(result['targets'])} targets, {len(result['ingests'])} ingests",
-                  highlight=False)
+        fitted = ledger_table(result, out.width)
+        out.print(fitted.table)
+        table_note(fitted)
+        say(f"{len(result['targets'])} targets, {len(result['ingests'])} ingests")
         return 0
     rec = result["target"]
     out.print(Text(rec["name"], style="bold"))
     if rec["rv_measurements"]:
-        tab = Table(title="RV measurements", title_justify="left")
-        for c in ("BJD_TDB", "RV (m/s)", "error (m/s)", "instrument"):
-            tab.add_column(c, justify="right" if c != "instrument" else "left")
-        for r in rec["rv_measurements"]:
-            tab.add_row(f"{r['bjd_tdb']:.5f}", f"{r['rv_ms']:.2f}", f"{r['rv_err_ms']:.2f}",
-                        Text(r["instrument"]))
-        out.print(tab)
+        cols = [Col("BJD_TDB"), Col("RV (m/s)"), Col("error (m/s)"), Col("instrument", justify="left")]
+        rows = [[f"{r['bjd_tdb']:.5f}", f"{r['rv_ms']:.2f}", f"{r['rv_err_ms']:.2f}", r["instrument"]]
+                for r in rec["rv_measurements"]]
+        print_table(out, "RV measurements", cols, rows)
     for o in rec["occultation_timings"]:
         if o["kind"] == "detection":
-            out.print(f"occultation seen: mid {o['mid_bjd_tdb']:.5f} BJD_TDB "
-                      f"+/- {o['mid_err_min']:.1f} min {o['instrument']}", highlight=False)
+            say(f"occultation seen: mid {o['mid_bjd_tdb']:.5f} BJD_TDB "
+                      f"+/- {o['mid_err_min']:.1f} min {o['instrument']}")
         else:
-            out.print(f"no occultation deeper than {o['depth_limit_ppm']:.0f} ppm in "
+            say(f"no occultation deeper than {o['depth_limit_ppm']:.0f} ppm in "
                       f"{o['window_start_bjd_tdb']:.4f}-{o['window_end_bjd_tdb']:.4f} BJD_TDB "
-                      f"{o['instrument']}", highlight=False)
+                      f"{o['instrument']}")
     for o in rec["observations"]:
-        out.print(f"done: {o['start_utc']} UTC {o['kind']} {o['instrument']} ({o['outcome']}) "
-                  f"{o['note']}", highlight=False)
+        say(f"done: {o['start_utc']} UTC {o['kind']} {o['instrument']} ({o['outcome']}) "
+                  f"{o['note']}")
     for v in rec["posterior_versions"]:
         e = v["summary"].get("ecc", {})
         txt = (f"e = {e['q50']:.3f} (+{e['q84'] - e['q50']:.3f} / -{e['q50'] - e['q16']:.3f})"
                if e else "")
-        out.print(f"posterior {v['created_utc']}: ESS {v['ess']:.0f} of {v['n_samples']} {txt}",
-                  highlight=False)
+        say(f"posterior {v['created_utc']}: ESS {v['ess']:.0f} of {v['n_samples']} {txt}")
     return 0
+
+
+def ledger_table(result: dict, width: int = 80) -> FittedTable:
+    """The ledger summary, one row per target, with the columns that fit ``width``."""
+    cols = [Col("target", justify="left"), Col("catalogue\nrow", drop=2, what="catalogue row"),
+            Col("RVs"), Col("occ.\ntimings"), Col("non-\ndetections"), Col("done"),
+            Col("posterior\nversions", drop=1, what="posterior versions"),
+            Col("latest posterior\n(UTC)", justify="left", compact_header="latest\nposterior",
+                what="latest posterior time")]
+    rows = []
+    for t in result["targets"]:
+        latest = t["latest_posterior_utc"] or "-"
+        rows.append([t["name"], "yes" if t["has_catalogue_row"] else "no", str(t["n_rv"]),
+                     str(t["n_occ_detections"]), str(t["n_occ_non_detections"]), str(t["n_done"]),
+                     str(t["n_posteriors"]), (latest, latest[:10])])
+    return fit_table(f"Ledger {result['ledger']}", cols, rows, width)
 
 
 def _run_export(args) -> int:
     with _open(args) as lg:
         paths = lg.export(args.folder)
     for p in paths:
-        console().print(f"wrote {p}", highlight=False)
+        say(f"wrote {p}")
     if args.json:
         write_json(args.json, {"ledger": str(args.ledger), "files": [str(p) for p in paths]})
     return 0
@@ -297,17 +300,16 @@ def _run_update(args) -> int:
     out = console()
     for r in records:
         if not r["ok"]:
-            err_console().print(f"{r['name']}: {'; '.join(r['errors'])}", highlight=False)
+            message(f"{r['name']}: {'; '.join(r['errors'])}", "error")
             continue
         e = r["ecc"]
-        out.print(f"{r['name']}: e = {e['q50']:.3f} [{e['q16']:.3f}, {e['q84']:.3f}] from "
+        say(f"{r['name']}: e = {e['q50']:.3f} [{e['q16']:.3f}, {e['q84']:.3f}] from "
                   f"{r['n_rv']} RVs, {r['n_occ_detections']} occultation timings, "
                   f"{r['n_occ_non_detections']} non-detections; ESS {r['ess']:.0f} "
                   f"(was {r['prior_ess']:.0f})"
-                  + ("" if r["stored_new_version"] else "; version already stored"),
-                  highlight=False)
+                  + ("" if r["stored_new_version"] else "; version already stored"))
         for w in r["warnings"]:
-            err_console().print(f"  warning: {w}", highlight=False)
+            message(f"{r['name']}: {w}", "warning")
     if args.json:
         write_json(args.json, {"ledger": str(args.ledger), "targets": records})
     return 0 if all(r["ok"] for r in records) else 1

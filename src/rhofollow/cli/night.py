@@ -4,8 +4,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-from .common import (UserError, add_json_option, add_plan_options, console, err_console, load_catalogue,
+from .common import (UserError, add_json_option, add_plan_options, console, load_catalogue,
                      report_row_issues, stage_progress, write_json)
+from .render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run", "prepare", "Prepared", "load_site_arg"]
 
@@ -82,10 +83,36 @@ def _utc(iso: str) -> str:
     return iso[11:16]
 
 
+def night_table(doc: dict, eng, night, site, date, instruments: dict, width: int = 80) -> FittedTable:
+    """The night's blocks in time order, with the columns that fit ``width``."""
+    from ..planning.tasks import jd_to_iso
+
+    tz = eng.local_time(night.start_jd).tzname()
+    title = (f"{site.name}: night of {date} ({_local(eng, night.start_jd)}-{_local(eng, night.end_jd)} {tz}, "
+             f"{_utc(jd_to_iso(night.start_jd))}-{_utc(jd_to_iso(night.end_jd))} UTC, "
+             f"{site.constraints.twilight} twilight)")
+    cols = [Col(f"local\n({tz})"), Col("UTC", drop=1, what="UTC times"), Col("target", justify="left"),
+            Col("what", justify="left", compact_header="what"), Col("instrument", justify="left", drop=3),
+            Col("block\nvalue"), Col("max\nairmass", drop=2, what="max airmass")]
+    rows = []
+    for b in doc["blocks"]:
+        if b["kind"] == "occultation":
+            what = f"occultation E{b['epoch']}"
+            if b.get("partial"):
+                what = (what + f" (part, {100 * b['p_catch']:.0f}% catch)",
+                        f"occ. E{b['epoch']} part {100 * b['p_catch']:.0f}%")
+            inst = instruments.get("occultation", "")
+        else:
+            what = f"RV at phase {b.get('phase', 0):.2f}"
+            inst = instruments.get("rv", "")
+        rows.append([f"{_local(eng, b['start_jd'])}-{_local(eng, b['end_jd'])}",
+                     f"{_utc(b['start_utc'])}-{_utc(b['end_utc'])}", b["name"], what, inst,
+                     f"{b['value']:.3f}", f"{b['airmass_max']:.2f}"])
+    return fit_table(title, cols, rows, width)
+
+
 def run(args) -> int:
     import datetime as dt
-
-    from rich.table import Table
 
     from ..planning.night import CAUTION, night_visibility, plan_night
     from ..planning.tasks import jd_to_iso
@@ -119,40 +146,25 @@ def run(args) -> int:
                 "notices": prep.notices, "seed": args.seed, "samples": args.samples})
 
     con = console()
-    tz = eng.local_time(night.start_jd).tzname()
-    tab = Table(title=f"{site.name}: night of {date} "
-                f"({_local(eng, night.start_jd)}-{_local(eng, night.end_jd)} {tz}, "
-                f"{_utc(jd_to_iso(night.start_jd))}-{_utc(jd_to_iso(night.end_jd))} UTC, "
-                f"{site.constraints.twilight} twilight)")
-    for col in (f"local ({tz})", "UTC", "target", "what", "value", "airmass"):
-        tab.add_column(col, justify="left" if col in ("target", "what") else "right", no_wrap=True)
-    for b in doc["blocks"]:
-        if b["kind"] == "occultation":
-            what = f"occultation E{b['epoch']} · {prep.instruments['occultation']}"
-            if b.get("partial"):
-                what += f" (part, {100 * b['p_catch']:.0f}% catch)"
-        else:
-            what = f"RV phase {b.get('phase', 0):.2f} · {prep.instruments['rv']}"
-        tab.add_row(f"{_local(eng, b['start_jd'])}-{_local(eng, b['end_jd'])}",
-                    f"{_utc(b['start_utc'])}-{_utc(b['end_utc'])}", b["name"], what, f"{b['value']:.3f}",
-                    f"≤ {b['airmass_max']:.2f}")
     if doc["blocks"]:
-        con.print(tab)
+        fitted = night_table(doc, eng, night, site, date, prep.instruments, con.width)
+        con.print(fitted.table)
+        table_note(fitted)
     else:
-        con.print(f"No block can be scheduled at {site.name} on the night of {date}.", highlight=False)
-    con.print(f"Total value {doc['total_value']:.3f} ({doc['method']}, {doc['solver_status']}); "
-              f"{prep.overhead_h * 60:.0f} min slew + setup between blocks. {CAUTION}", highlight=False)
-    ec = err_console()
+        say(f"No block can be scheduled at {site.name} on the night of {date}.")
+    say(f"Total value {doc['total_value']:.3f} ({doc['method']}, {doc['solver_status']}); "
+        f"{prep.overhead_h * 60:.0f} min slew + setup between blocks.")
+    message(CAUTION, "caution", to_stdout=True)
     for n in prep.notices:
-        ec.print(f"[yellow]notice:[/] {n}", highlight=False)
+        message(n, "notice")
     for s in doc["skipped"]:
-        ec.print(f"[dim]skipped:[/] {s['name']}: {s['reason']}", highlight=False)
+        message(f"{s['name']}: {s['reason']}", "skipped")
     if args.json:
         write_json(args.json, {k: v for k, v in doc.items()})
-        ec.print(f"wrote {args.json}", highlight=False)
+        message(f"wrote {args.json}")
     if args.plot:
         from ..report.night_chart import plot_night
 
         plot_night(args.plot, eng, night, prep.science, doc)
-        ec.print(f"wrote {args.plot}", highlight=False)
+        message(f"wrote {args.plot}")
     return 0

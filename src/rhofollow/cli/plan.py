@@ -9,7 +9,8 @@ from __future__ import annotations
 import datetime as dt
 from pathlib import Path
 
-from .common import UserError, add_seed_option, console, err_console, stage_progress
+from .common import UserError, add_seed_option, console, stage_progress
+from .render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run", "demo_paths", "plan_to_folder", "DEMO_DAYS"]
 
@@ -121,37 +122,73 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args) 
     return written
 
 
-def _print_summary(written: dict, out: Path, top: int = 8) -> None:
-    from rich.table import Table
+def _priority_digits(values: list[float], lo: int = 3, hi: int = 6) -> int:
+    """Fewest decimals (``lo``..``hi``) at which priorities that differ also print differently, so the
+    printed column shows the order the ranking uses (equal printed values are true ties)."""
+    distinct = sorted(set(values))
+    for nd in range(lo, hi + 1):
+        if len({f"{v:.{nd}f}" for v in distinct}) == len(distinct):
+            return nd
+    return hi
 
-    from ..report.summary import CAUTIONS, ranked_table
+
+def summary_table(doc: dict, width: int = 80, top: int | None = 8) -> FittedTable:
+    """The ranked targets of a plan run (rank order), with the columns that fit ``width``.
+
+    The rank follows the priority; equal priorities are ordered by the density mismatch, shown in
+    the column named as the tie-breaker.
+    """
+    from ..report.summary import ranked_table
+
+    _head, _rows = ranked_table(doc)  # the same targets, in the same order, as summary.md
+    by_name = {t["name"]: t for t in doc["targets"]}
+    cols = [Col("rank"), Col("target", justify="left"), Col("priority"),
+            Col("tie-break:\nmismatch σ", what="mismatch (tie-break)"),
+            Col("P(e>0.1)", drop=4), Col("e\nmedian", what="e median", drop=3),
+            Col("favoured", justify="left", drop=2), Col("occ.\nwindows"), Col("RV visits\nplaced"),
+            Col("RV visits\nto confirm", drop=5, what="RV visits to confirm")]
+    shown_t = [by_name[r[1]] for r in (_rows[:top] if top else _rows)]
+    nd = _priority_digits([float(t.get("priority") or 0.0) for t in shown_t])
+    rows = []
+    for t in shown_t:
+        rv, c = t.get("rv") or {}, t.get("campaign") or {}
+        n = rv.get("n_epochs_confirm_ecc")
+        sig = t.get("density_ratio_sigma")
+        e = (t.get("ecc") or {}).get("q50")
+        rows.append([str(t["rank"]), t["name"] + (" ?" if t.get("reliable") is False else ""), f"{float(t.get('priority') or 0.0):.{nd}f}",
+                     "—" if sig is None else f"{sig:.1f}σ",
+                     "—" if t.get("p_ecc_gt_0p1") is None else f"{t['p_ecc_gt_0p1']:.2f}",
+                     "—" if e is None else f"{e:.2f}", str(t.get("favoured", "—")).replace("_", " "),
+                     str(len(c.get("occultation_windows", []))), str(len(c.get("rv_visits", []))),
+                     str(n) if n else ("not possible" if rv else "—")])
+    shown = f"top {len(rows)} of {len(_rows)}" if top and len(_rows) > len(rows) else f"{len(rows)}"
+    return fit_table(f"{doc['site']}, {doc['start']} to {doc['end']}: {shown} targets by priority", cols, rows,
+                     width)
+
+
+def _print_summary(written: dict, out: Path, top: int = 8) -> None:
+    from ..report.summary import CAUTIONS
 
     doc = written["doc"]
-    _head, rows = ranked_table(doc, top)
-    tab = Table(title=f"{doc['site']}, {doc['start']} to {doc['end']}: top targets")
-    tab.caption = ("priority = P(eccentric explanation) × P(e>0.1) × testability; e: median; RVs: visits "
-                   "to confirm e > 0; planned: occultation windows / RV visits that fit at the site; ?: unreliable "
-                   "quantiles (low effective sample size), ranked after the reliable targets")
-    for col in ("#", "target", "priority", "e", "favoured", "RVs", "planned"):
-        tab.add_column(col, justify="left" if col in ("target", "favoured") else "right", no_wrap=True,
-                       min_width=len(col))
-    for r in rows:
-        tab.add_row(r[0], r[1], r[2], r[4].split(" ")[0], r[6].replace("_", " "),
-                    r[9].replace("not confirmable", "n/a"), r[10].replace(" ", ""))
     con = console()
-    con.print(tab)
+    fitted = summary_table(doc, con.width, top)
+    con.print(fitted.table)
+    table_note(fitted, "a wider terminal, summary.md or results.csv")
+    say("priority = P(eccentric explanation) × P(e>0.1) × testability; equal priorities rank by the larger "
+        "density mismatch; occ. windows and RV visits placed: what fits at the site in the date range; "
+        "?: unreliable quantiles (low effective sample size), ranked after the reliable targets.",
+        style="dim")
     tot = doc.get("hours_total", {})
     if tot:
-        con.print("Hours to request: " + ", ".join(f"{k} {v:.1f} h" for k, v in tot.items()), highlight=False)
+        say("Hours to request: " + ", ".join(f"{k} {v:.1f} h" for k, v in tot.items()))
     n_bad = sum(1 for t in doc["targets"] if not t.get("ok"))
     if n_bad:
-        con.print(f"{n_bad} target(s) could not be assessed (see summary.md).", highlight=False)
-    con.print(CAUTIONS[0], highlight=False)
-    con.print(f"Report: {out / 'summary.html'} (also summary.md, results.json/.ecsv/.csv, night.json, "
-              f"campaign.json, windows.ics, plots/, samples/)", highlight=False, soft_wrap=True)
-    ec = err_console()
+        say(f"{n_bad} target(s) could not be assessed (see summary.md).")
+    message(CAUTIONS[0], "caution", to_stdout=True)
+    say(f"Report: {out / 'summary.html'} (also summary.md, results.json/.ecsv/.csv, night.json, "
+        f"campaign.json, windows.ics, plots/, samples/)")
     for n in doc.get("notices", []):
-        ec.print(f"[yellow]notice:[/] {n}", highlight=False)
+        message(n, "notice")
 
 
 def site_evening_date(site_path) -> dt.date:
@@ -173,8 +210,8 @@ def run(args) -> int:
         site = args.site or site
         start = _date(args.start, "--start") if args.start else site_evening_date(site)
         end = _date(args.end, "--end") if args.end else start + dt.timedelta(days=DEMO_DAYS)
-        err_console().print(f"No catalogue given: running the bundled demo ({cat.name}, {Path(site).name}, "
-                            f"{start} to {end}).", highlight=False)
+        message(f"No catalogue given: running the bundled demo ({cat.name}, {Path(site).name}, "
+                f"{start} to {end}).")
     else:
         missing = [o for o, v in (("--site", args.site), ("--start", args.start), ("--end", args.end)) if not v]
         if missing:

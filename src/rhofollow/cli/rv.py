@@ -4,8 +4,11 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from .common import (UserError, add_assess_options, add_json_option, console, err_console, run_assessment,
+from rich.text import Text
+
+from .common import (UserError, add_assess_options, add_json_option, console, run_assessment,
                      write_json)
+from .render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run"]
 
@@ -54,13 +57,48 @@ def _fmt(q, digits=3):
     return f"{_num(q['q50'], digits)} ({_num(q['q16'], 2)}-{_num(q['q84'], 2)})"
 
 
-def run(args) -> int:
-    from rich.table import Table
+def rv_table(records: list[dict], instrument: str, fap: float, power: float, width: int = 80) -> FittedTable:
+    """The RV follow-up table with the columns that fit ``width``."""
+    from ..physics.rvconfirm import N_LADDER
 
+    cols = [Col("target", justify="left"), Col("K m/s (68%)", compact_header="K m/s", what="K interval"),
+            Col("Mp M⊕", drop=2), Col("σ m/s", drop=3, what="per-epoch σ"),
+            Col("epochs to\ndetect K", drop=1, what="epochs to detect K"), Col("epochs to\nconfirm e>0"),
+            Col("hours to\nconfirm e>0"), Col("best RV\nphases", justify="left", drop=4, what="best RV phases")]
+    rows = []
+    for r in records:
+        if not r["ok"]:
+            rows.append([r["name"], *["—"] * 6, Text("not assessed (see errors)", style="red")])
+            continue
+        n = r["n_epochs_confirm_ecc"]
+        rows.append([r["name"] + (" ?" if r.get("reliable") is False else ""), (_fmt(r["k_ms"]), _num(r["k_ms"]["q50"])), _num(r["mp_mearth"]["q50"]),
+                     f"{r['sigma_rv_ms']:.2f}", str(r["n_epochs_detect_k"] or "-"),
+                     str(n) if n else f">{N_LADDER[-1]}",
+                     f"{r['hours_confirm_ecc']:.1f}" if r["hours_confirm_ecc"] else "-",
+                     " ".join(f"{p:.2f}" for p in r["best_phases"][:2])])
+    return fit_table(f"RV follow-up on {instrument} (FAP {fap:g}, power {power:.0%})", cols, rows, width)
+
+
+def update_table(records: list[dict], fap: float, width: int = 80) -> FittedTable | None:
+    """The table of eccentricities updated from measured RVs (None when no target has RVs)."""
+    if not any("ecc_confirmed" in r for r in records):
+        return None
+    cols = [Col("target", justify="left"), Col("RVs"), Col("e (68%)"), Col("ω deg", drop=2),
+            Col("K m/s", drop=1), Col("LRT p"), Col("e > 0")]
+    rows = []
+    for r in records:
+        if "ecc_confirmed" in r and r.get("ecc_updated"):
+            rows.append([r["name"], str(r["n_rv"]), _fmt(r["ecc_updated"], 2),
+                         _num(r["omega_updated_deg"]["q50"]), _num(r["k_updated_ms"]["q50"]),
+                         f"{r['lrt_p_value']:.3g}",
+                         Text("yes", style="green") if r["ecc_confirmed"] else "no"])
+    return fit_table(f"Update from measured RVs (eccentric if LRT p < {fap:g})", cols, rows, width)
+
+
+def run(args) -> int:
     from ..io.catalogue import read_catalogue
     from ..io.instruments import InstrumentError, Spectrograph, read_instruments
     from ..io.rvdata import RVDataError, read_rv_data
-    from ..physics.rvconfirm import N_LADDER
     from ..rvplan import CAUTION, plan_rv
 
     if not 0 < args.fap < 1:
@@ -93,59 +131,38 @@ def run(args) -> int:
         if type(exc).__name__ == "CatalogueError":
             raise UserError(str(exc)) from None
         raise
-    ec = err_console()
     for issue in cat.issues:
-        ec.print(f"[yellow]{issue.severity}:[/] {issue}", highlight=False)
+        message(issue, issue.severity)
     if rv_data:
         unknown = sorted(set(rv_data) - {t.name for t in cat.targets})
         for name in unknown:
-            ec.print(f"[yellow]warning:[/] RVs of {name} ({rv_data[name].source}) match no catalogue target",
-                     highlight=False)
-    from rich.progress import Progress
+            message(f"RVs of {name} ({rv_data[name].source}) match no catalogue target", "warning")
+    from .common import count_progress
 
     assessments = run_assessment(cat.targets, args)
-    with Progress(console=ec, transient=True) as prog:
+    with count_progress(len(assessments), "RV planning") as prog:
         task2 = prog.add_task("RV planning", total=len(assessments))
         records = plan_rv(assessments, plan_inst, rv_data, fap=args.fap, power=args.power, seed=args.seed,
                           relation=args.relation, k_mode=args.k_mode, n_null=args.sims,
                           n_alt=min(400, args.sims), progress=lambda: prog.advance(task2))
 
-    with_data = any("ecc_confirmed" in r for r in records)
-    tab = Table(title=f"RV follow-up on {plan_inst.name} (FAP {args.fap:g}, power {args.power:.0%})")
-    for col in ("target", "K m/s", "Mp M⊕", "σ m/s", "N K", "N e", "hours", "phases"):
-        tab.add_column(col, justify="left" if col in ("target", "phases") else "right",
-                       no_wrap=col in ("target", "K m/s"))
-    for r in records:
-        if not r["ok"]:
-            tab.add_row(r["name"], "[red]" + "; ".join(r["errors"])[:70] + "[/]", *[""] * 6)
-            continue
-        n = r["n_epochs_confirm_ecc"]
-        mark = "?" if r.get("reliable") is False else ""   # ?: unreliable (low ESS)
-        tab.add_row(r["name"] + mark, _fmt(r["k_ms"]), _num(r["mp_mearth"]["q50"]), f"{r['sigma_rv_ms']:.2f}",
-                    str(r["n_epochs_detect_k"] or "-"), str(n) if n else f">{N_LADDER[-1]}",
-                    f"{r['hours_confirm_ecc']:.1f}" if r["hours_confirm_ecc"] else "-",
-                    " ".join(f"{p:.2f}" for p in r["best_phases"][:2]))
-    upd = None
-    if with_data:
-        upd = Table(title=f"Update from measured RVs (eccentric if LRT p < {args.fap:g})")
-        for col in ("target", "RVs", "e", "ω deg", "K m/s", "LRT p", "e > 0"):
-            upd.add_column(col, justify="left" if col == "target" else "right", no_wrap=True)
-        for r in records:
-            if "ecc_confirmed" in r and r.get("ecc_updated"):
-                upd.add_row(r["name"], str(r["n_rv"]), _fmt(r["ecc_updated"], 2),
-                            _num(r["omega_updated_deg"]["q50"]), _num(r["k_updated_ms"]["q50"]),
-                            f"{r['lrt_p_value']:.3g}", "[green]yes[/]" if r["ecc_confirmed"] else "no")
     con = console()
-    con.print(tab)
+    fitted = rv_table(records, plan_inst.name, args.fap, args.power, con.width)
+    con.print(fitted.table)
+    table_note(fitted)
+    upd = update_table(records, args.fap, con.width)
     if upd is not None:
-        con.print(upd)
-    con.print("K, Mp: median (68 % interval). N K / N e: epochs to detect K / to confirm e > 0; hours for "
-              "N e. Phases: orbital phases from mid-transit (0..1) where eccentric and circular orbits "
-              "differ most. ?: unreliable quantiles (effective sample size below the floor).", highlight=False)
-    con.print(f"[bold]Caution:[/] {CAUTION}", highlight=False)
+        con.print(upd.table)
+        table_note(upd)
+    say("K, Mp: median (68 % interval). Phases: orbital phases from mid-transit (0..1) where eccentric and "
+        "circular orbits differ most. ?: unreliable quantiles (effective sample size below the floor).",
+        style="dim")
+    message(CAUTION, "caution", to_stdout=True)
     for r in records:
+        for e in r.get("errors", []):
+            message(f"{r['name']}: {e}", "error")
         for w in r.get("warnings", []):
-            ec.print(f"[yellow]warning:[/] {r['name']}: {w}", highlight=False)
+            message(f"{r['name']}: {w}", "warning")
     if args.json:
         doc = {"command": "rv", "catalogue": str(args.catalog), "instrument": plan_inst.name,
                "instrument_file": plan_inst.source, "fap": args.fap, "power": args.power, "seed": args.seed,
