@@ -14,20 +14,36 @@ import numpy as np
 
 from .io.table_types import Measurement, Target
 from .physics import stars as st
-from .physics.eccentricity import (HYPOTHESES, best_possible_loglike, HypothesisSetup, Obs, StarPool, TransitObservables,
-                                   run_hypothesis)
+from .physics.eccentricity import (HYPOTHESES, MEASURED_STAR_HYPOTHESES, best_possible_loglike, HypothesisSetup, Obs,
+                                   StarPool, TransitObservables, run_hypothesis)
 from .physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior
+from .physics.transit import g_factor
 from .physics.sampling import draw_split_normal
 from .physics.transit import ars_from_t14_b, ecc_min_from_ratio, rho_from_ars, smo_invert
 from .samples import SampleSet, quantile_dict, reliability, weighted_quantiles
 
-__all__ = ["Assessment", "assess_target", "assess_catalogue", "target_seed", "READINGS",
-           "evidence_strength", "DEFAULT_N_SAMPLES", "ESS_FLOOR"]
+__all__ = ["Assessment", "assess_target", "assess_catalogue", "target_seed", "READINGS", "LABELS",
+           "evidence_strength", "DEFAULT_N_SAMPLES", "ESS_FLOOR", "CHI2_REJECT", "DEFAULT_RADIUS_RATIO",
+           "PRIOR_DRIVEN_DELTA", "REMAINING_LN_B", "ORBIT_TENSION_SIGMA"]
 
 DEFAULT_N_SAMPLES = 20000
-#: A target whose best sample misses the transit measurements by more than this chi^2 is reported as
-#: impossible rather than given a posterior (about 5 sigma for one or two measurements).
+#: An explanation whose best sample misses the transit measurements and the star's density by more than
+#: this chi^2 does not fit (about 5 sigma for one or two measurements). A row that no explanation with
+#: the measured star fits is kept and reported as a finding ("no explanation fits"), ranked low.
 CHI2_REJECT = 30.0
+#: Radius ratio assumed when the row gives neither rp_rs nor depth_ppm (a density route needs none):
+#: Rp/R* = 0.1 +- 0.05 (Jupiter around the Sun is 0.10; common practice, no source). It enters only
+#: the occultation depth and durations and the mass-radius estimate of K, each flagged by a warning.
+DEFAULT_RADIUS_RATIO = Obs(0.1, 0.05, 0.05)
+#: A bound of the 95 % e interval is called prior-driven when the same samples re-weighted to a
+#: uniform e prior move it by more than this (in e; common practice, no source).
+PRIOR_DRIVEN_DELTA = 0.05
+#: An explanation still "remains" when its evidence is within this many nats of the best one
+#: (2 ln B < 10, below "very strong" on the Kass & Raftery 1995 scale).
+REMAINING_LN_B = 5.0
+#: A measured orbit disagrees with the transit and star when the density ratio misses the measured
+#: orbit's g^3 by more than this many sigma of ln rho.
+ORBIT_TENSION_SIGMA = 3.0
 ESS_FLOOR = 2000.0
 HOURS = 1.0 / 24.0
 
@@ -47,7 +63,12 @@ READINGS = {
     "blend": "a circular orbit diluted by unresolved light from another star (a blend) explains it",
     "other_host": "a circular orbit around the companion star explains it (the planet may orbit the "
                   "other star)",
+    "star_density": "the star's density is misestimated: with the star's density free, the transit "
+                    "fits; check log g, the radius, the isochrone or asteroseismic solution",
 }
+#: Short names of the explanations for tables and warnings.
+LABELS = {"circular": "circular orbit", "eccentric": "eccentric orbit", "blend": "diluted transit (blend)",
+          "other_host": "another host star", "star_density": "misestimated stellar density"}
 
 
 def evidence_strength(ln_bayes: float) -> str:
@@ -121,22 +142,28 @@ def _split_summary(x: np.ndarray) -> Obs:
     return Obs(float(q50), max(q50 - q16, 1e-6), max(q84 - q50, 1e-6))
 
 
-def _radius_ratio(t: Target, warnings) -> Obs:
+def _radius_ratio(t: Target, warnings) -> Obs | None:
+    """Rp/R* from rp_rs or depth_ppm; None when the row gives neither."""
     if t.has("rp_rs"):
         return _obs(t, "rp_rs", warnings)
     if t.has("depth_ppm"):
         d = _obs(t, "depth_ppm", warnings, scale=1e-6)
         k = math.sqrt(d.value)
         return Obs(k, d.lo / (2 * k), d.hi / (2 * k))
-    raise _RowProblem("a radius ratio is needed: give 'rp_rs' or 'depth_ppm'")
+    return None
 
 
 def _circular_density_routes(t: Target, period: Obs, k: Obs, rng, n, warnings) -> dict:
     """Circular-orbit density draws (g/cm^3) from every transit route the row offers."""
     routes = {}
     p = _draw(rng, n, period, lower=0)
-    kk = _draw(rng, n, k, lower=0, upper=1)
-    if t.has("t14_h") and (t.has("t23_h") or t.has("b")):
+    kk = _draw(rng, n, k if k is not None else DEFAULT_RADIUS_RATIO, lower=0, upper=1)
+    if t.has("t14_h") and (t.has("t23_h") or t.has("b")) and k is None:
+        warnings.append("t14_h is given without rp_rs or depth_ppm: the duration route needs the radius "
+                        "ratio and is skipped")
+    elif t.has("t14_h") and not (t.has("t23_h") or t.has("b")):
+        warnings.append("t14_h is given without t23_h or b: the duration route is skipped")
+    if t.has("t14_h") and (t.has("t23_h") or t.has("b")) and k is not None:
         t14 = _draw(rng, n, _obs(t, "t14_h", warnings, HOURS), lower=0)
         if t.has("t23_h"):
             t23 = _draw(rng, n, _obs(t, "t23_h", warnings, HOURS), lower=0)
@@ -272,6 +299,7 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     else:
         t0 = Obs(t0m.value, t0m.err_lo or t0m.err_hi, t0m.err_hi or t0m.err_lo)
     k = _radius_ratio(t, warnings)
+    k_assumed = k is None
     n_mc = max(4000, n // 4)
     routes = _circular_density_routes(t, period, k, rng, n_mc, warnings)
     b_circ = routes.pop("_b", None)
@@ -283,7 +311,12 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
 
     contam = t.value("contam_frac", 0.0)
     contam = 0.0 if not math.isfinite(contam) else contam
-    if t.has("t14_h"):
+    if k_assumed:
+        k = DEFAULT_RADIUS_RATIO
+        warnings.append(f"no radius ratio (rp_rs or depth_ppm): Rp/R* = {k.value:g} +- {k.lo:g} assumed; "
+                        "the density route does not need it, but the occultation depth and durations and "
+                        "the planet radius behind K are rough")
+    if "durations" in routes:
         route = "durations"
         t23 = _obs(t, "t23_h", warnings, HOURS, required=False)
         bobs = _obs(t, "b", warnings, required=False) if t23 is None else None
@@ -300,10 +333,15 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     rho_circ_draws, rho_circ_label = routes.get("durations") or routes.get("a_rs") or routes.get("rho_circ")
 
     setup = HypothesisSetup(prior=prior, transit_prob=transit_prob)
-    if t.has("ecc"):
+    measured = t.has("ecc")
+    if measured:
         em = t.get("ecc")
-        setup.prior = measured_prior(em.value, em.err_lo or 0.01, em.err_hi or 0.01)
+        try:
+            setup.prior = measured_prior(em.value, em.err_lo or 0.01, em.err_hi or 0.01)
+        except ValueError as exc:
+            raise _RowProblem(str(exc)) from None
         setup.transit_prob = False
+        setup.orbit_measured = True
         if t.has("omega_deg"):
             om = t.get("omega_deg")
             setup.omega_measured = Obs(math.radians(om.value), math.radians(om.err_lo or 5.0),
@@ -319,24 +357,33 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     for hyp in hypotheses:
         if hyp == "other_host" and setup.companion is None:
             continue
-        m = n if hyp == "eccentric" else max(2000, n // 4)
+        if hyp == "eccentric":
+            m = n
+        elif hyp == "star_density":
+            m = max(1000, n // 8)
+        else:
+            m = max(2000, n // 4)
         floor = ess_floor if hyp == "eccentric" else min(ess_floor, m / 10)
         results[hyp] = run_hypothesis(hyp, obs, star, setup, m, rng, ess_floor=floor,
                                       extra_loglike=extra_loglike)
 
     ecc_res = results["eccentric"]
     lw = ecc_res.log_w
-    best_ll = max(float(np.max(r.aux["loglike"])) for r in results.values())
-    chi2 = 2 * (best_possible_loglike(obs) - best_ll)
-    if not np.any(np.isfinite(lw)) or not chi2 < CHI2_REJECT:
-        raise _RowProblem("no orbit, blend or host star reproduces the transit with this star "
-                          f"(best chi^2 = {chi2:.0f} against the transit measurements); check the "
-                          "durations, radius ratio, period and stellar parameters")
+    if not np.any(np.isfinite(lw)) or not any(np.any(np.isfinite(r.log_w)) for r in results.values()):
+        raise _RowProblem("no orbit, blend or host star gives this transit geometry with this star (every "
+                          "sample is physically impossible); check the durations, radius ratio and period")
+    # how far each explanation's best sample is from the transit measurements and the star's density
+    ll_best = best_possible_loglike(obs)
+    chi2 = {}
+    for h, r in results.items():
+        fit = r.aux["loglike"] if h == "star_density" else r.aux["loglike"] + r.aux["log_star"]
+        fit = fit[np.isfinite(fit)]
+        chi2[h] = float(2 * (ll_best - np.max(fit))) if fit.size else math.inf
     w = np.exp(lw - np.max(lw))
     w = w / w.sum()
     aux = ecc_res.aux
     meta = {"route_transit": route, "route_star": star_label, "prior": prior.name,
-            "row": t.row, "source": t.source}
+            "row": t.row, "source": t.source, "k_assumed": bool(k_assumed), "orbit_measured": bool(measured)}
     for key in ("ra_deg", "dec_deg", "vmag", "logg_cgs", "feh_dex", "jitter_ms", "mp_mearth",
                 "teff_k", "contam_frac"):
         if t.has(key):
@@ -361,11 +408,55 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     ln_ratio = np.log(ratio)
     sd = float(np.std(ln_ratio))
     ratio_sigma = float(abs(np.median(ln_ratio)) / sd) if sd > 0 else 0.0
+    orbit_tension = None
+    if measured:
+        # the density ratio the measured orbit predicts, g^3 (Kipping 2010), against the observed one
+        e_m = setup.prior.ppf(rng.random(nr))
+        w_m = (setup.omega_measured.ppf(rng.random(nr)) if setup.omega_measured is not None
+               else 2 * np.pi * rng.random(nr))
+        resid = ln_ratio - 3 * np.log(g_factor(e_m, w_m))
+        sdr = float(np.std(resid))
+        orbit_tension = float(abs(np.median(resid)) / sdr) if sdr > 0 else 0.0
+
     logz = {h: float(r.log_evidence) for h, r in results.items()}
     finite = {h: v for h, v in logz.items() if math.isfinite(v)}
-    order = sorted(finite, key=finite.get, reverse=True)
+    fits = {h for h in finite if chi2[h] < CHI2_REJECT}
+    core_fit = [h for h in finite if h in MEASURED_STAR_HYPOTHESES and h in fits]
+    if measured and orbit_tension is not None and orbit_tension > ORBIT_TENSION_SIGMA:
+        # the measured orbit stands; the explanations that keep it and the measured star are out
+        core_fit = [h for h in core_fit if h not in ("eccentric", "circular")]
+    if core_fit:
+        finding = "fits"
+        pool = core_fit
+    elif "star_density" in fits:
+        finding = "star density in question"
+        pool = [h for h in finite if h in fits]
+    else:
+        finding = "no explanation fits"
+        pool = list(finite)
+    if measured and orbit_tension is not None and orbit_tension > ORBIT_TENSION_SIGMA and finding == "fits":
+        finding = "measured orbit disagrees"
+    order = sorted(pool, key=finite.get, reverse=True)
     favoured = order[0] if order else "eccentric"
     ln_b = finite[order[0]] - finite[order[1]] if len(order) > 1 else float("inf")
+    remaining = [h for h in order if finite[h] > finite[order[0]] - REMAINING_LN_B] if order else []
+    p_expl = _explanation_probabilities({h: finite[h] for h in pool})
+    star_ln_b = None
+    if "star_density" in finite:
+        ref = [finite[h] for h in finite if h in MEASURED_STAR_HYPOTHESES]
+        if ref:
+            star_ln_b = finite["star_density"] - max(ref)
+    consistency = _consistency(finding, ratio_sigma, orbit_tension, chi2, remaining, favoured, star_ln_b,
+                               measured, t)
+    if finding != "fits":
+        warnings.append(consistency["check"])
+
+    p_gt = float(np.sum(w[samples.e > 0.1]))
+    p_gt_prior = float(prior.prob_above(0.1, transit_prob=transit_prob))
+    data_odds = _odds_ratio(p_gt, p_gt_prior, ess)
+    ecc_q = samples.quantiles("e")
+    uni = _uniform_prior_interval(samples.e, w, prior, measured, ecc_q)
+
     record = {
         "name": t.name, "ok": True, "errors": [], "warnings": warnings,
         "route_transit": rho_circ_label if route == "density" else "durations (forward model, b marginalised)",
@@ -374,23 +465,96 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
         "rho_star_cgs": rho_star_q,
         "density_ratio": quantile_dict(ratio),
         "density_ratio_sigma": ratio_sigma,
-        "ecc": samples.quantiles("e"),
+        "ecc": ecc_q,
         "omega_deg": _omega_quantiles(samples.omega, w),
         "ecc_min": float(ecc_min_from_ratio(np.median(ratio))),
-        "p_ecc_gt_0p1": float(np.sum(w[samples.e > 0.1])),
+        "p_ecc_gt_0p1": p_gt,
+        "p_ecc_gt_0p1_prior": p_gt_prior,
+        "ecc_odds_ratio": data_odds,
+        "ecc_data_weight": (data_odds / (1 + data_odds)) if math.isfinite(data_odds) else 1.0,
+        **uni,
         "ess": float(ess),
         "reliable": reliability(ess)[0],
         **({"reliability_note": reliability(ess)[1]} if not reliability(ess)[0] else {}),
         "n_samples": int(samples.n),
         "prior": prior.name,
+        "orbit_measured": bool(measured),
+        "radius_ratio_assumed": bool(k_assumed),
         "log_evidence": {h: (v if math.isfinite(v) else None) for h, v in logz.items()},
-        "p_explanation": _explanation_probabilities(finite),
+        "chi2_best": {h: (v if math.isfinite(v) else None) for h, v in chi2.items()},
+        "p_explanation": p_expl,
+        "p_explanation_prior": {h: 1.0 / len(p_expl) for h in p_expl} if p_expl else {},
         "favoured": favoured,
         "ln_bayes_factor": ln_b if math.isfinite(ln_b) else None,
         "evidence_strength": evidence_strength(ln_b) if math.isfinite(ln_b) else "only one explanation fits",
+        "star_density_ln_bayes_factor": star_ln_b,
+        "fits": finding == "fits",
+        "finding": finding,
+        "consistency": consistency,
         "reading": READINGS[favoured],
     }
     return Assessment(t.name, t, True, [], warnings, samples, record)
+
+
+def _odds_ratio(p: float, p0: float, ess: float) -> float:
+    """Posterior-to-prior odds of e > 0.1 (the Bayes factor of e > 0.1 against e <= 0.1), with the
+    posterior probability kept at least half a sample from 0 and 1."""
+    eps = 0.5 / max(ess, 1.0)
+    p = min(max(p, eps), 1 - eps)
+    p0 = min(max(p0, 1e-12), 1 - 1e-12)
+    return float((p / (1 - p)) / (p0 / (1 - p0)))
+
+
+_UNIFORM = None
+
+
+def _uniform_prior_interval(e, w, prior: EccPrior, measured: bool, ecc_q: dict) -> dict:
+    """The e interval under a uniform prior beside the default one (same samples re-weighted by the
+    prior ratio), and which bounds of the 95 % interval the prior sets."""
+    global _UNIFORM
+    if measured:
+        return {"ecc_uniform_prior": None, "ess_uniform_prior": None,
+                "ecc_bounds": {"lower": "measured orbit", "upper": "measured orbit"}}
+    if _UNIFORM is None:
+        _UNIFORM = parse_prior("uniform")
+    p_def = prior.pdf(e)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.where(p_def > 0, _UNIFORM.pdf(e) / p_def, 0.0)
+    wu = w * ratio
+    if not wu.sum() > 0:
+        return {"ecc_uniform_prior": None, "ess_uniform_prior": 0.0,
+                "ecc_bounds": {"lower": "unknown", "upper": "unknown"}}
+    wu = wu / wu.sum()
+    qu = quantile_dict(e, wu)
+    ess_u = float(1.0 / np.sum(wu * wu))
+    bounds = {side: ("prior" if abs(ecc_q[key] - qu[key]) > PRIOR_DRIVEN_DELTA else "data")
+              for side, key in (("lower", "q025"), ("upper", "q975"))}
+    return {"ecc_uniform_prior": qu, "ess_uniform_prior": ess_u, "ecc_bounds": bounds}
+
+
+def _consistency(finding, ratio_sigma, orbit_tension, chi2, remaining, favoured, star_ln_b, measured, t) -> dict:
+    """The consistency finding of a row: its size, the explanations that remain and what to check."""
+    size = orbit_tension if measured and orbit_tension is not None else ratio_sigma
+    rem = ", ".join(LABELS[h] for h in remaining) or "none"
+    if finding == "fits":
+        text = "the transit, the star and the explanations agree"
+    elif finding == "measured orbit disagrees":
+        text = (f"the measured orbit (e, omega) predicts a different transit density than observed "
+                f"({size:.1f} sigma in ln rho); the orbit is kept as measured. Remaining explanations: {rem}. "
+                "Check the stellar density (log g, radius), contaminating light or a companion star, and "
+                "the transit fit (a/R*, durations, b)")
+    elif finding == "star density in question":
+        text = (f"no explanation with the measured star fits ({size:.1f} sigma in ln rho"
+                + (" against the measured orbit" if measured else "") + "); only a misestimated stellar "
+                f"density does. Remaining explanations: {rem}. Check the star's log g, radius and "
+                "density route, a companion star, and the transit fit")
+    else:
+        text = (f"no explanation fits ({size:.1f} sigma in ln rho; best chi^2 "
+                f"{min(chi2.values()):.0f}). Check the durations, radius ratio, period and stellar "
+                "parameters")
+    return {"finding": finding, "tension_sigma_ln_rho": float(size),
+            "orbit_tension_sigma": orbit_tension, "remaining": remaining, "favoured": favoured,
+            "star_density_ln_bayes_factor": star_ln_b, "check": text}
 
 
 def assess_catalogue(targets, n_samples: int = DEFAULT_N_SAMPLES, prior: str | EccPrior = DEFAULT_PRIOR,

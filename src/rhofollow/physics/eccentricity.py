@@ -23,6 +23,18 @@ Hypotheses, each with a log-evidence from the same sampler (mean importance weig
   (common practice, no source), D = D_known / (1 - c).
 * ``other_host``: circular orbit around a companion star of density ``companion_rho``; its flux fraction
   f is given or ~ U(0.05, 0.5) (common practice, no source), D = 1/f.
+* ``star_density``: the star's density is misestimated: ln rho* free with a broad prior (normal about the
+  measured value, 0.5 dex), circular orbit (or the measured one). Its Bayes factor against the measured
+  star's explanations says whether the data call the stellar parameters into question.
+
+With a measured orbit (``ecc``, ``omega_deg`` with errors) every explanation but ``circular`` uses that
+orbit. The eccentric one samples (e, w) from the measurement and lets the transit inform only the star
+and the geometry: a "cut" of the transit's feedback on the orbit (Plummer 2015, Stat. Comput. 25, 37),
+so the RV orbit stands whatever the density says; disagreement shows in the evidences instead.
+
+The host density is proposed where the star's prior and the transit overlap (the product of their
+log-normal descriptions, mixed with each alone), so the evidence of an explanation far from the data is
+computed in its overlap region instead of in the tails of either.
 
 All arrays are in internal units: days, radians, g/cm^3.
 """
@@ -34,19 +46,28 @@ import numpy as np
 
 from .priors import EccPrior
 from .sampling import (adaptive_importance_sample, split_normal_ppf, split_normal_logpdf,
-                       ImportanceResult)
-from scipy.special import ndtr, ndtri
+                       ImportanceResult, _kish)
+from scipy.special import logsumexp, ndtr, ndtri
 
 from .constants import RHO_SUN_CGS
 from .transit import ars_from_rho, eccentric_durations, g_factor, inclination_from_b, rho_from_ars
 
 _RHO_PER_ARS3 = float(rho_from_ars(1.0, 1.0))  # g/cm^3 per (a/R*)^3 at P = 1 d
 
-__all__ = ["Obs", "TransitObservables", "StarPool", "HYPOTHESES", "run_hypothesis", "best_possible_loglike",
-           "BLEND_CONTAM_MAX", "OTHER_HOST_FLUX_RANGE"]
+__all__ = ["Obs", "TransitObservables", "StarPool", "HYPOTHESES", "MEASURED_STAR_HYPOTHESES", "run_hypothesis",
+           "best_possible_loglike", "BLEND_CONTAM_MAX", "OTHER_HOST_FLUX_RANGE", "STAR_FREE_SIGMA_LN",
+           "transit_ln_rho"]
 
-HYPOTHESES = ("circular", "eccentric", "blend", "other_host")
+HYPOTHESES = ("circular", "eccentric", "blend", "other_host", "star_density")
+#: Explanations that take the star's measured density at its word (the others free it).
+MEASURED_STAR_HYPOTHESES = ("circular", "eccentric", "blend", "other_host")
 BLEND_CONTAM_MAX = 0.9
+#: Broad prior of the ``star_density`` explanation: ln rho* normal about the measured value with this
+#: spread, 0.5 dex in density (a dwarf read as a subgiant or the reverse; common practice, no source).
+STAR_FREE_SIGMA_LN = 0.5 * 2.302585092994046
+#: Members per group of the measured-orbit ("cut") sampler: each drawn (e, w) carries this many draws
+#: of the star and geometry.
+CUT_GROUP = 4
 OTHER_HOST_FLUX_RANGE = (0.05, 0.5)
 
 
@@ -174,6 +195,7 @@ class HypothesisSetup:
     prior: EccPrior | None = None
     transit_prob: bool = True
     omega_measured: Obs | None = None   # known orbit: omega measurement (radians)
+    orbit_measured: bool = False        # ``prior`` is a published e measurement (MeasuredEcc)
     companion: StarPool | None = None
     companion_flux: float | None = None
     extra: dict = field(default_factory=dict)
@@ -260,20 +282,106 @@ def _make_proxy(hyp, dims, obs, host, setup):
     return proxy
 
 
+def _normal_logpdf(x, mu, sd):
+    z = (x - mu) / sd
+    return -0.5 * z * z - np.log(np.sqrt(2 * np.pi) * sd)
+
+
+def transit_ln_rho(obs: TransitObservables, period, k_true, b, ln_g3, dilution):
+    """The host density the transit implies for given orbit and geometry: (mean, sd) of ln rho (g/cm^3).
+
+    Durations: the exact circular a/R* at the measured T14, this b and k (Seager & Mallen-Ornelas 2003),
+    linearised in T14, moved by the photo-eccentric factor -3 ln g (Kipping 2010). Density route:
+    ln rho_circ - 3 ln g + (3/4) ln D (Kipping 2014, MNRAS 440, 2164).
+    """
+    if obs.route == "durations":
+        t14 = np.clip(np.full_like(period, obs.t14.value), 1e-6 * period, 0.499 * period)
+        t14_sd = 0.5 * (obs.t14.lo + obs.t14.hi)
+        x = np.pi * t14 / period
+        sx = np.sin(x)
+        chord2 = np.clip((1 + k_true) ** 2 - b * b, 1e-12, None)
+        a2 = b * b + chord2 / (sx * sx)
+        ln_rc = np.log(_RHO_PER_ARS3 * a2 ** 1.5 / period**2)
+        dln_dt = 1.5 * (-2 * chord2 * np.cos(x) / sx**3 * np.pi / period) / a2
+        sd = np.maximum(np.abs(dln_dt) * t14_sd, 1e-4)
+        return ln_rc - ln_g3, sd
+    rc = obs.ln_rho_circ
+    return rc.value - ln_g3 + 0.75 * np.log(dilution), np.full_like(ln_g3, 0.5 * (rc.lo + rc.hi))
+
+
+def _overlap_draw(rng_, m_t, s_t, star_sn, broad):
+    """Draw ln rho from the overlap proposal; return (ln_rho, log q, log prior).
+
+    The prior is the star's split normal (or, ``broad``, a normal about its mode with
+    STAR_FREE_SIGMA_LN). The proposal mixes 70 % of the Gaussian product of prior and transit (widened
+    1.3x), 15 % transit alone and 15 % prior alone (defensive mixture, Hesterberg 1995).
+    """
+    mu, lo, hi = star_sn
+    m = m_t.shape[0]
+    if broad:
+        lo = hi = STAR_FREE_SIGMA_LN
+    s_s = np.where(m_t < mu, lo, hi)
+    prec = 1.0 / s_t**2 + 1.0 / s_s**2
+    m_p = (m_t / s_t**2 + mu / s_s**2) / prec
+    s_p = 1.3 / np.sqrt(prec)
+    s_t2 = 1.2 * s_t
+    pick = rng_.random(m)
+    z = rng_.standard_normal(m)
+    from_prior = split_normal_ppf(rng_.random(m), mu, lo, hi)
+    ln_rho = np.where(pick < 0.7, m_p + s_p * z, np.where(pick < 0.85, m_t + s_t2 * z, from_prior))
+    log_prior = split_normal_logpdf(ln_rho, mu, lo, hi)
+    comps = np.stack([np.log(0.7) + _normal_logpdf(ln_rho, m_p, s_p),
+                      np.log(0.15) + _normal_logpdf(ln_rho, m_t, s_t2),
+                      np.log(0.15) + log_prior])
+    mx = comps.max(axis=0)
+    log_q = mx + np.log(np.exp(comps - mx).sum(axis=0))
+    return ln_rho, log_q, log_prior
+
+
+def _cut_sample(model, n, rng, group=CUT_GROUP):
+    """Measured-orbit sampler: groups of ``group`` draws share one (e, w) from the measurement (Latin
+    hypercube over its two quantile axes); each group's weights are normalised to the same total, so
+    the (e, w) marginal is the measurement's whatever the transit says (a cut, Plummer 2015). Further
+    data (``aux['_extra']``, RVs or occultation timings) re-weight the groups. The evidence is the mean
+    of the un-normalised weights (exact importance sampling: (e, w) are drawn from their prior)."""
+    ng = max(1, -(-n // group))
+    ug = np.empty((ng, 2))
+    for j in range(2):
+        ug[:, j] = (rng.permutation(ng) + rng.random(ng)) / ng
+    u = np.repeat(ug, group, axis=0)
+    log_w, aux = model(u, rng)
+    finite = np.isfinite(log_w)
+    log_z = float(logsumexp(log_w[finite]) - np.log(len(log_w))) if finite.any() else -np.inf
+    extra = aux.pop("_extra", None)
+    lw_t = log_w if extra is None else np.where(finite, log_w - extra, -np.inf)
+    g = lw_t.reshape(ng, group)
+    with np.errstate(invalid="ignore"):
+        mx = np.max(g, axis=1, keepdims=True)
+        norm = mx + np.log(np.sum(np.exp(g - np.where(np.isfinite(mx), mx, 0.0)), axis=1, keepdims=True))
+    ok = np.isfinite(norm)
+    cut = np.where(ok, g - np.where(ok, norm, 0.0), -np.inf).ravel()
+    if extra is not None:
+        cut = cut + extra
+    cut = np.where(np.isfinite(cut), cut, -np.inf)
+    return ImportanceResult(u, cut, aux, log_z, _kish(cut), 1, False)
+
+
 def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: HypothesisSetup,
                    n: int, rng: np.random.Generator, ess_floor: float = 2000.0, extra_loglike=None
                    ) -> ImportanceResult:
     """Importance-sample one hypothesis; returns weights, evidence and physical arrays in ``aux``.
 
     The adaptive grid covers the hypothesis' own parameters ((e, w) for ``eccentric``, the
-    contaminating fraction for ``blend``, the flux fraction for ``other_host``). The host density and
-    b are drawn from conditional proposals: ln rho_host from the observed circular density moved by
-    -3 ln g + (3/4) ln D (the photo-eccentric and photo-blend relations), b about the circular fit's b.
-    Their prior/proposal density ratios enter the weights, so the result is exact importance sampling
-    of the full likelihood; the proposals only make it efficient.
+    contaminating fraction for ``blend``, the flux fraction for ``other_host``). The host density is
+    drawn from the overlap proposal (:func:`_overlap_draw`) about the density the transit implies at
+    each sample's orbit, dilution and b (:func:`transit_ln_rho`), b about the circular fit's b. Their
+    prior/proposal density ratios enter the weights, so the result is exact importance sampling of the
+    full likelihood; the proposals only make it efficient. With a measured orbit the eccentric
+    hypothesis uses :func:`_cut_sample`.
 
     ``aux`` holds e, omega, b, k (true radius ratio of the host), period, t0, rho_star, mstar, rstar,
-    a_rs, inc, teff, dilution.
+    a_rs, inc, teff, dilution, loglike (transit), log_star (log prior density of the host density
+    relative to its peak: the star's tension).
 
     ``extra_loglike(aux) -> array`` adds the log-likelihood of further data (measured RVs, occultation
     timings) to the weights, so the proposal adapts to the joint posterior instead of re-weighting
@@ -282,6 +390,7 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
     if hyp not in HYPOTHESES:
         raise ValueError(f"unknown hypothesis {hyp!r}")
     dur = obs.route == "durations"
+    measured = setup.orbit_measured and setup.prior is not None
     if hyp == "eccentric":
         dims = ["e", "w"]
     elif hyp == "blend":
@@ -293,37 +402,37 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
     d = len(dims)
     col = {name: i for i, name in enumerate(dims)}
     host = setup.companion if hyp == "other_host" else star
-    rc = obs.ln_rho_circ
-    star_mu, star_lo, star_hi = host._fit()
-    # propose the host density from whichever constraint is sharper: the star's own measurement, or
-    # the transit (circular density moved by g^3)
-    from_star = rc is None or 0.5 * (star_lo + star_hi) < 0.5 * (rc.lo + rc.hi)
-    if dur:
-        t14_mu = obs.t14.value
-        t14_sd = 1.2 * 0.5 * (obs.t14.lo + obs.t14.hi)
+    star_sn = host._fit()
+    broad = hyp == "star_density"
+    peak = -np.log(0.5 * np.sqrt(2 * np.pi) * (star_sn[1] + star_sn[2]))  # split-normal mode density
     if dur and obs.b_circ is not None:
         b_mu = obs.b_circ.value
         b_sd = 1.5 * 0.5 * (obs.b_circ.lo + obs.b_circ.hi) + 0.03
     else:
         b_mu, b_sd = None, None
 
+    def orbit(u, m, rng_):
+        """(e, w, log prior factor) of this hypothesis."""
+        if hyp == "eccentric":
+            e = setup.prior.ppf(u[:, col["e"]])
+            uw = u[:, col["w"]]
+        elif measured and hyp != "circular":
+            e = setup.prior.ppf(rng_.random(m))
+            uw = rng_.random(m)
+        else:
+            return np.zeros(m), np.full(m, np.pi / 2), np.zeros(m)
+        w = setup.omega_measured.ppf(uw) if setup.omega_measured is not None else 2 * np.pi * uw
+        log_prior = np.zeros(m)
+        if setup.transit_prob and not measured:
+            log_prior = np.log((1 + e * np.sin(w)) / (1 - e * e) / setup.prior.mean_transit_boost)
+        return e, w, log_prior
+
     def model(u, rng_):
         m = u.shape[0]
         period = obs.period.draw(rng_, m)
         t0 = obs.t0.draw(rng_, m)
         k_obs = np.abs(obs.k.draw(rng_, m))
-        log_prior = np.zeros(m)
-        if hyp == "eccentric":
-            e = setup.prior.ppf(u[:, col["e"]])
-            if setup.omega_measured is not None:
-                w = setup.omega_measured.ppf(u[:, col["w"]])
-            else:
-                w = 2 * np.pi * u[:, col["w"]]
-            if setup.transit_prob:
-                log_prior = np.log((1 + e * np.sin(w)) / (1 - e * e) / setup.prior.mean_transit_boost)
-        else:
-            e = np.zeros(m)
-            w = np.full(m, np.pi / 2)
+        e, w, log_prior = orbit(u, m, rng_)
         dilution = np.full(m, obs.dilution_known)
         if hyp == "blend":
             dilution = dilution / (1 - BLEND_CONTAM_MAX * u[:, col["c"]])
@@ -354,50 +463,37 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
             b = np.full(m, np.nan)
             log_pq_b = np.zeros(m)
         ln_g3 = 3 * np.log(g_factor(e, w))
-        if from_star:
-            # the star is the sharper constraint: draw its density directly (prior = proposal)
-            ln_rho = np.log(host.take(rng_.random(m))[0])
-        elif dur:
-            # host density: the circular a/R* that a T14 drawn about its measurement implies at this b
-            # and k (exact circular relation, SMO 2003), moved by the photo-eccentric factor g^3
-            tdraw = t14_mu + t14_sd * rng_.standard_normal(m)
-            tdraw = np.clip(tdraw, 1e-6 * period, 0.499 * period)
-            x = np.pi * tdraw / period
-            sx = np.sin(x)
-            chord2 = np.clip((1 + k_true) ** 2 - b * b, 1e-12, None)
-            a2 = b * b + chord2 / (sx * sx)
-            ln_rc = np.log(_RHO_PER_ARS3 * a2 ** 1.5 / period**2)
-            dln_dt = 1.5 * (-2 * chord2 * np.cos(x) / sx**3 * np.pi / period) / a2
-            log_q_rho = (-0.5 * ((tdraw - t14_mu) / t14_sd) ** 2 - np.log(np.sqrt(2 * np.pi) * t14_sd)
-                         - np.log(np.abs(dln_dt)))
-            ln_rho = ln_rc - ln_g3
-        else:
-            ln_rc = split_normal_ppf(rng_.random(m), rc.value, rc.lo, rc.hi)
-            log_q_rho = split_normal_logpdf(ln_rc, rc.value, rc.lo, rc.hi)
-            ln_rho = ln_rc - ln_g3 + 0.75 * np.log(dilution)
-        log_p_rho = host.log_density_ln(ln_rho)
+        m_t, s_t = transit_ln_rho(obs, period, k_true, np.nan_to_num(b), ln_g3, dilution)
+        ln_rho, log_q_rho, log_p_rho = _overlap_draw(rng_, m_t, s_t, star_sn, broad)
+        if broad:
+            log_p_rho = _normal_logpdf(ln_rho, star_sn[0], STAR_FREE_SIGMA_LN)
         rho = np.exp(ln_rho)
-        if from_star:
-            log_q_rho = log_p_rho  # drawn from the star: prior and proposal cancel
         mstar, rstar, teff = host.at_density(rho, rng_)
         ll = _log_like_transit(obs, rho, period, k_true, b, e, w, dilution)
         log_w = ll + log_prior + log_p_rho - log_q_rho + log_pq_b
         a_rs = ars_from_rho(rho, period)
         aux = dict(e=e, omega=np.mod(w, 2 * np.pi), b=b, k=k_true, period=period, t0=t0,
                    rho_star=rho, mstar=mstar, rstar=rstar, a_rs=a_rs, teff=teff, dilution=dilution,
-                   loglike=np.where(np.isfinite(ll), ll, -np.inf))
+                   loglike=np.where(np.isfinite(ll), ll, -np.inf),
+                   log_star=split_normal_logpdf(ln_rho, *star_sn) - peak)
         if extra_loglike is not None:
             bb = b if dur else np.full(m, 0.5)
             with np.errstate(invalid="ignore"):
                 inc = inclination_from_b(bb, a_rs, e, w)
             aux["inc"] = np.where(np.isfinite(inc), inc, np.pi / 2)
-            log_w = log_w + extra_loglike(aux)
+            extra = extra_loglike(aux)
+            log_w = log_w + extra
+            if measured and hyp == "eccentric":
+                aux["_extra"] = np.where(np.isfinite(extra), extra, -np.inf)
         return np.where(np.isfinite(log_w), log_w, -np.inf), aux
 
-    proxy = _make_proxy(hyp, dims, obs, host, setup) if hyp == "eccentric" else None
-    res = adaptive_importance_sample(model, d, n, rng, ess_floor=ess_floor, proxy=proxy,
-                                     pool=(hyp == "eccentric"),
-                                     max_rounds=4 if extra_loglike is None else 10)
+    if hyp == "eccentric" and measured:
+        res = _cut_sample(model, n, rng)
+    else:
+        proxy = _make_proxy(hyp, dims, obs, host, setup) if hyp == "eccentric" else None
+        res = adaptive_importance_sample(model, d, n, rng, ess_floor=ess_floor, proxy=proxy,
+                                         pool=(hyp == "eccentric"),
+                                         max_rounds=4 if extra_loglike is None else 10)
     aux = res.aux
     if not dur:
         # b is not constrained by a density-only route: draw it from its measurement when given, else

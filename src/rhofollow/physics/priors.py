@@ -23,7 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-__all__ = ["EccPrior", "parse_prior", "PRIOR_NAMES", "DEFAULT_PRIOR", "measured_prior"]
+__all__ = ["EccPrior", "MeasuredEcc", "parse_prior", "PRIOR_NAMES", "DEFAULT_PRIOR", "measured_prior"]
 
 DEFAULT_PRIOR = "kipping13"
 E_MAX = 0.99
@@ -84,6 +84,26 @@ class EccPrior:
         mid = 0.5 * (self.e_grid[1:] + self.e_grid[:-1])
         return float(np.sum(pdf_mass * mid))
 
+    def pdf(self, e):
+        """Prior density at e (per unit e): the tabulated CDF's cell slope (0 outside [0, e_max))."""
+        e = np.asarray(e, dtype=float)
+        dens = np.diff(self.cdf) / np.diff(self.e_grid)
+        i = np.clip(np.searchsorted(self.e_grid, e, side="right") - 1, 0, len(dens) - 1)
+        return np.where((e >= 0) & (e < self.e_grid[-1]), dens[i], 0.0)
+
+    def prob_above(self, e_cut: float, transit_prob: bool = False) -> float:
+        """P(e > e_cut) under the prior, optionally times the transit-probability factor.
+
+        The factor (1 + e sin w)/(1 - e^2) averages to 1/(1 - e^2) over a uniform w, so the transit-
+        weighted prior on e is p(e)/(1 - e^2) normalised by ``mean_transit_boost`` (Kipping 2014b).
+        """
+        mass = np.diff(self.cdf)
+        mid = 0.5 * (self.e_grid[1:] + self.e_grid[:-1])
+        if transit_prob:
+            mass = mass / (1.0 - mid**2)
+        mass = mass / mass.sum()
+        return float(np.sum(mass[mid > e_cut]))
+
 
 def _tabulate(name: str, pdf, e_max: float, description: str) -> EccPrior:
     e = np.linspace(0.0, e_max, _NGRID)
@@ -135,16 +155,59 @@ def parse_prior(spec: str | None) -> EccPrior:
     return _tabulate(name, lambda e: np.ones_like(e), emax, desc)
 
 
+@dataclass(frozen=True)
+class MeasuredEcc(EccPrior):
+    """A published eccentricity measurement used as the distribution of e: a split normal with mode
+    ``value`` and widths ``err_lo``/``err_hi``, truncated to [0, e_max).
+
+    The inverse CDF is exact (closed form through the normal quantile function, scipy.special.ndtri),
+    so every draw lies where the measurement puts it: no tabulated cell can map a sliver of u onto a
+    wide range of e.
+    """
+
+    value: float = 0.0
+    err_lo: float = 0.01
+    err_hi: float = 0.01
+
+    def _bounds(self):
+        from .sampling import split_normal_cdf
+        c0 = float(split_normal_cdf(0.0, self.value, self.err_lo, self.err_hi))
+        c1 = float(split_normal_cdf(self.e_grid[-1], self.value, self.err_lo, self.err_hi))
+        return c0, c1
+
+    def ppf(self, u):
+        from .sampling import split_normal_ppf
+        c0, c1 = self._bounds()
+        uu = c0 + (c1 - c0) * np.clip(np.asarray(u, dtype=float), 0.0, 1.0)
+        e = split_normal_ppf(uu, self.value, self.err_lo, self.err_hi)
+        return np.clip(e, 0.0, np.nextafter(self.e_grid[-1], 0))
+
+    def pdf(self, e):
+        from .sampling import split_normal_logpdf
+        c0, c1 = self._bounds()
+        e = np.asarray(e, dtype=float)
+        dens = np.exp(split_normal_logpdf(e, self.value, self.err_lo, self.err_hi)) / (c1 - c0)
+        return np.where((e >= 0) & (e < self.e_grid[-1]), dens, 0.0)
+
+
 def measured_prior(value: float, err_lo: float, err_hi: float) -> EccPrior:
-    """A 'prior' that is a published eccentricity measurement: split normal truncated to [0, 0.99).
+    """The distribution of e from a published measurement (``ecc`` with its errors): split normal
+    truncated to [0, 0.99), with an exact inverse CDF (:class:`MeasuredEcc`).
 
     Used when the catalogue gives ``ecc`` (a known orbit): the measurement replaces the population prior.
+    The table (``e_grid``, ``cdf``) is kept for the moments; draws use the closed form.
     """
     slo = max(err_lo, 1e-4)
     shi = max(err_hi, 1e-4)
-
-    def pdf(e):
-        z = np.where(e < value, (e - value) / slo, (e - value) / shi)
-        return np.exp(-0.5 * z * z)
-
-    return _tabulate(f"measured e={value:g}", pdf, E_MAX, "published orbit")
+    from .sampling import split_normal_cdf
+    if split_normal_cdf(E_MAX, value, slo, shi) - split_normal_cdf(0.0, value, slo, shi) < 1e-12:
+        raise ValueError(f"measured eccentricity {value:g} lies entirely outside [0, {E_MAX:g})")
+    # the table must resolve the measurement: grid from the bounds, dense around the value
+    lo_e = max(0.0, value - 12 * slo)
+    hi_e = min(E_MAX, value + 12 * shi)
+    e = np.unique(np.concatenate([np.linspace(0.0, E_MAX, 513), np.linspace(lo_e, hi_e, 4097)]))
+    cdf = split_normal_cdf(e, value, slo, shi)
+    cdf = (cdf - cdf[0]) / (cdf[-1] - cdf[0])
+    mid = 0.5 * (e[1:] + e[:-1])
+    boost = float(np.sum(np.diff(cdf) / (1.0 - mid**2)))
+    return MeasuredEcc(f"measured e={value:g}", e, cdf, boost, "published orbit", float(value), slo, shi)

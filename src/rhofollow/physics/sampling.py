@@ -16,7 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.special import ndtr, ndtri, logsumexp
 
-__all__ = ["split_normal_ppf", "draw_split_normal", "split_normal_logpdf", "ImportanceResult",
+__all__ = ["split_normal_ppf", "split_normal_cdf", "draw_split_normal", "split_normal_logpdf", "ImportanceResult",
            "adaptive_importance_sample"]
 
 
@@ -30,7 +30,8 @@ def split_normal_ppf(u, mu, s_lo, s_hi):
     return np.where(u < p_lo, lo, hi)
 
 
-def _split_normal_cdf(x, mu, s_lo, s_hi):
+def split_normal_cdf(x, mu, s_lo, s_hi):
+    """CDF of the split normal (see :func:`split_normal_ppf`)."""
     p_lo = s_lo / (s_lo + s_hi)
     return np.where(x < mu, 2 * p_lo * ndtr((x - mu) / s_lo), p_lo + 2 * (1 - p_lo) * (ndtr((x - mu) / s_hi) - 0.5))
 
@@ -41,8 +42,8 @@ def draw_split_normal(rng, n, mu, s_lo, s_hi, lower=-np.inf, upper=np.inf):
         return np.full(n, float(mu))
     s_lo = s_lo if s_lo > 0 else s_hi
     s_hi = s_hi if s_hi > 0 else s_lo
-    c_lo = float(_split_normal_cdf(lower, mu, s_lo, s_hi)) if np.isfinite(lower) else 0.0
-    c_hi = float(_split_normal_cdf(upper, mu, s_lo, s_hi)) if np.isfinite(upper) else 1.0
+    c_lo = float(split_normal_cdf(lower, mu, s_lo, s_hi)) if np.isfinite(lower) else 0.0
+    c_hi = float(split_normal_cdf(upper, mu, s_lo, s_hi)) if np.isfinite(upper) else 1.0
     if c_hi - c_lo < 1e-12:
         raise ValueError("measurement lies entirely outside its physical bounds")
     u = c_lo + (c_hi - c_lo) * rng.random(n)
