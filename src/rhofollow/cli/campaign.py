@@ -62,6 +62,11 @@ def run(args) -> int:
     if not grids:
         raise UserError(f"no dark time at {site.name} between {start} and {end}")
     prep = prepare(args, site, jd_to_iso(grids[0].start_jd - 0.5), jd_to_iso(grids[-1].end_jd + 0.5))
+    if prep.stages is None:
+        from .night import nothing_to_plan
+
+        return nothing_to_plan("campaign", args, prep, {"start": str(start), "end": str(end),
+                                                        "timezone": site.timezone})
     nights = []
     with Progress(console=err_console(), transient=True) as prog:
         task = prog.add_task("visibility", total=len(grids))
@@ -70,12 +75,11 @@ def run(args) -> int:
             prog.advance(task)
     plan = plan_campaign(prep.science, nights, site=site.name, overhead_h=prep.overhead_h,
                          instruments=prep.instruments, model=prep.model)
+    from ..pipeline import campaign_document
+
+    full = campaign_document(plan, prep.stages, site, start, end, args.seed, args.samples, prep.catalogue)
+    # the terminal table lists the planned targets (failed ones are reported below it)
     doc = plan.to_dict()
-    doc["start"], doc["end"] = str(start), str(end)
-    doc["skipped"] = prep.skipped
-    doc["notices"] = prep.notices
-    doc.update({"seed": args.seed, "samples": args.samples, "timezone": site.timezone,
-                "overhead_h": prep.overhead_h})
 
     con = console()
     if args.table:
@@ -102,12 +106,17 @@ def run(args) -> int:
     ec = err_console()
     for n in prep.notices:
         ec.print(f"[yellow]notice:[/] {n}", highlight=False)
-    for s in prep.skipped:
+    for s in full["skipped"]:
         ec.print(f"[dim]skipped:[/] {s['name']}: {s['reason']}", highlight=False)
+    for t in full["targets"]:
+        for msg in t["errors"]:
+            ec.print(f"[red]error:[/] {t['name']}: {msg}", highlight=False)
+    for name, msg in prep.stages.unreachable.items():
+        ec.print(f"[yellow]warning:[/] {name}: {msg}", highlight=False)
     if args.json:
-        write_json(args.json, doc)
+        write_json(args.json, full)
         ec.print(f"wrote {args.json}", highlight=False)
     if args.ics:
         atomic_write_text(args.ics, to_ical(plan).decode("utf-8"))
         ec.print(f"wrote {args.ics}", highlight=False)
-    return 0
+    return full["exit_status"]

@@ -149,8 +149,11 @@ def run(args) -> int:
     report_row_issues(cat)
     assessments = run_assessment(cat.targets, args, label="assessing")
     result = predict_occultations(assessments, args.start, args.end, opts)
-    result["catalog"] = str(args.catalog)
-    result["seed"] = args.seed
+    from ..records import envelope
+
+    doc = envelope("eclipses", catalogue=cat, seed=args.seed, targets=result["targets"],
+                   caution=result["caution"],
+                   payload={k: v for k, v in result.items() if k not in ("targets", "caution")})
 
     console().print(events_table(result))
     ec = err_console()
@@ -163,10 +166,9 @@ def run(args) -> int:
         ec.print(f"[yellow]notice:[/] {msg}", highlight=False)
     console().print(f"[italic]{result['caution']}[/]", highlight=False)
     if args.json:
-        write_json(args.json, result)
+        write_json(args.json, doc)
     if args.ics:
         from ..io.calendar import write_ics
 
-        write_ics(args.ics, result)
-    n_ok = sum(1 for r in result["targets"] if r.get("ok"))
-    return 0 if n_ok or not result["targets"] else 1
+        write_ics(args.ics, doc)
+    return doc["exit_status"]

@@ -308,6 +308,11 @@ def _run_update(args) -> int:
                   highlight=False)
         for w in r["warnings"]:
             err_console().print(f"  warning: {w}", highlight=False)
+    from ..records import envelope
+
+    doc = envelope("log update", seed=args.seed, targets=records,
+                   payload={"ledger": str(args.ledger), "samples": args.samples, "jitter_ms": args.jitter,
+                            "stored": not args.no_store})
     if args.json:
-        write_json(args.json, {"ledger": str(args.ledger), "targets": records})
-    return 0 if all(r["ok"] for r in records) else 1
+        write_json(args.json, doc)
+    return doc["exit_status"]

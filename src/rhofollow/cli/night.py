@@ -38,6 +38,8 @@ class Prepared:
     model: object
     instruments: dict
     notices: list
+    stages: object = None
+    catalogue: object = None
 
 
 def load_site_arg(path):
@@ -61,7 +63,7 @@ def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
     cat = load_catalogue(args.catalog, require_coords=True)
     report_row_issues(cat)
     if not cat.targets:
-        raise UserError(f"{args.catalog}: no valid target rows to plan")
+        return Prepared(site, VisibilityEngine(site), [], [], 0.0, None, {}, [], None, cat)
     opts = PipelineOptions(samples=args.samples, seed=args.seed, ecc_prior=args.ecc_prior,
                            transit_weight=not args.no_transit_weight, workers=args.workers,
                            ledger=args.ledger)
@@ -71,7 +73,19 @@ def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
     except PipelineError as exc:
         raise UserError(str(exc)) from None
     return Prepared(site, VisibilityEngine(site), st.science, st.skipped, st.overhead_h, st.model,
-                    st.instruments, st.notices)
+                    st.instruments, st.notices, st, cat)
+
+
+def nothing_to_plan(command: str, args, prep: Prepared, payload: dict) -> int:
+    """Every catalogue row failed validation: say so, write the envelope (row errors only), exit 1."""
+    from ..records import envelope
+
+    err_console().print(f"{args.catalog}: no valid target rows to plan", highlight=False, soft_wrap=True)
+    doc = envelope(command, catalogue=prep.catalogue, seed=args.seed,
+                   payload=dict(payload, site=prep.site.name, samples=args.samples))
+    if args.json:
+        write_json(args.json, doc)
+    return doc["exit_status"]
 
 
 def _local(engine, jd: float) -> str:
@@ -109,14 +123,15 @@ def run(args) -> int:
         raise UserError(f"no dark time at {site.name} on the night of {date} "
                         f"({site.constraints.twilight} twilight never ends)")
     prep = prepare(args, site, jd_to_iso(night.start_jd - 0.5), jd_to_iso(night.end_jd + 0.5))
+    if prep.stages is None:
+        return nothing_to_plan("night", args, prep, {"date": str(date), "timezone": site.timezone})
     prep.engine = eng
     vis = night_visibility(eng, night, prep.science)
     plan = plan_night(prep.science, vis, site=site.name, night_start_jd=night.start_jd,
                       night_end_jd=night.end_jd, overhead_h=prep.overhead_h, model=prep.model)
-    plan.skipped = prep.skipped + plan.skipped
-    doc = plan.to_dict()
-    doc.update({"date": str(date), "timezone": site.timezone, "instruments": prep.instruments,
-                "notices": prep.notices, "seed": args.seed, "samples": args.samples})
+    from ..pipeline import night_document
+
+    doc = night_document(plan, prep.stages, site, date, args.seed, args.samples, prep.catalogue)
 
     con = console()
     tz = eng.local_time(night.start_jd).tzname()
@@ -147,12 +162,17 @@ def run(args) -> int:
         ec.print(f"[yellow]notice:[/] {n}", highlight=False)
     for s in doc["skipped"]:
         ec.print(f"[dim]skipped:[/] {s['name']}: {s['reason']}", highlight=False)
+    for t in doc["targets"]:
+        for msg in t["errors"]:
+            ec.print(f"[red]error:[/] {t['name']}: {msg}", highlight=False)
+    for name, msg in prep.stages.unreachable.items():
+        ec.print(f"[yellow]warning:[/] {name}: {msg}", highlight=False)
     if args.json:
-        write_json(args.json, {k: v for k, v in doc.items()})
+        write_json(args.json, doc)
         ec.print(f"wrote {args.json}", highlight=False)
     if args.plot:
         from ..planning.altitude_plot import plot_night
 
         plot_night(args.plot, eng, night, prep.science, doc)
         ec.print(f"wrote {args.plot}", highlight=False)
-    return 0
+    return doc["exit_status"]
