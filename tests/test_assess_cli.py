@@ -52,7 +52,12 @@ def test_bad_rows_are_skipped_and_exit_status_says_so(tmp_path, capsys):
     out = tmp_path / "a.json"
     assert main(["assess", str(cat), "--samples", "1000", "--json", str(out)]) == 1
     doc = json.loads(out.read_text())
-    assert [r["name"] for r in doc["targets"]] == ["HTS-101"] and doc["n_failed"] == 1
+    assert [r["name"] for r in doc["targets"]] == ["HTS-101"]
+    # one invalid row (three problems in it), no target that failed later
+    assert doc["n_rows_failed"] == 1 and doc["n_row_errors"] == len(doc["row_errors"]) == 3
+    assert doc["n_targets_failed"] == 0 and doc["n_ok"] == 1 and doc["exit_status"] == 1
+    assert doc["catalogue"] == str(cat) and doc["row_errors"][0]["row"] == 2
+    assert doc["row_errors"][0]["column"] == "t14_h"
     err = capsys.readouterr().err
     assert "row 2" in err and "t14_h" in err
 

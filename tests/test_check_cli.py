@@ -48,12 +48,17 @@ def test_failed_row_exits_1_and_names_row_and_column(bad_csv, tmp_path, capsys):
     assert "2 rows read, 1 failed, 0 warnings" in flat(cap.out)
     assert "period_d" in cap.out and "HTS-102" in cap.out
     assert "Traceback" not in cap.out + cap.err
-    rep = json.loads(js.read_text())["catalogue"]
-    assert rep["ok"] is False and rep["n_rows"] == 2 and rep["n_failed"] == 1
+    rep = json.loads(js.read_text())
+    assert rep["command"] == "check" and rep["catalogue"] == str(bad_csv)
+    assert rep["ok"] is False and rep["n_rows"] == 2 and rep["n_row_errors"] == 1
     (issue,) = rep["issues"]
     assert issue == {"row": 2, "name": "HTS-102", "column": "period_d", "severity": "error",
                      "reason": issue["reason"]} and "positive" in issue["reason"]
-    a, b = rep["targets"]
+    assert rep["row_errors"] == [{"file": str(bad_csv), "row": 2, "column": "period_d", "name": "HTS-102",
+                                  "reason": issue["reason"]}]
+    # targets: the valid rows only; rows: every data row
+    assert [t["name"] for t in rep["targets"]] == ["HTS-101"] and rep["exit_status"] == 1
+    a, b = rep["rows"]
     assert a == {"row": 1, "name": "HTS-101", "ok": True, "errors": [], "warnings": []}
     assert b["name"] == "HTS-102" and b["ok"] is False and "period_d" in b["errors"][0]
 
@@ -65,7 +70,8 @@ def test_json_matches_library_result(bad_csv, tmp_path, capsys):
     js = tmp_path / "r.json"
     main(["check", str(bad_csv), "--json", str(js)])
     capsys.readouterr()
-    assert json.loads(js.read_text())["catalogue"] == report_dict(read_catalogue(bad_csv))
+    doc, rep = json.loads(js.read_text()), report_dict(read_catalogue(bad_csv))
+    assert doc["rows"] == rep["targets"] and doc["issues"] == rep["issues"] and doc["ok"] == rep["ok"]
 
 
 @pytest.mark.parametrize("name, text", [("missing.csv", None), ("cat.xlsx", "x"),
@@ -79,7 +85,8 @@ def test_file_level_error_exits_2_with_one_sentence(tmp_path, capsys, name, text
     cap = capsys.readouterr()
     assert str(p) in cap.err and "Traceback" not in cap.err
     assert len(cap.err.strip().splitlines()) <= 3  # one sentence (wrapped by the terminal)
-    assert json.loads(js.read_text())["catalogue"]["ok"] is False
+    doc = json.loads(js.read_text())
+    assert doc["ok"] is False and doc["exit_status"] == 2 and str(p) in doc["file_error"]
 
 
 def test_warnings_are_counted(tmp_path, capsys):
@@ -107,11 +114,12 @@ def test_markup_in_reasons_is_printed_literally(tmp_path, capsys):
 def test_demo_malformed_file(capsys, tmp_path):
     js = tmp_path / "r.json"
     assert main(["check", str(EXAMPLES / "demo_malformed.csv"), "--json", str(js)]) == 1
-    rep = json.loads(js.read_text())["catalogue"]
-    good = [t["name"] for t in rep["targets"] if t["ok"]]
-    assert len(good) == 2 and rep["n_failed"] == rep["n_rows"] - 2
+    rep = json.loads(js.read_text())
+    good = [t["name"] for t in rep["rows"] if t["ok"]]
+    assert len(good) == 2 and [t["name"] for t in rep["targets"]] == good
+    assert len({e["row"] for e in rep["row_errors"] if e["row"]}) == rep["n_rows"] - 2
     # every failed row carries at least one error naming a column
-    assert all(t["errors"] for t in rep["targets"] if not t["ok"])
+    assert all(t["errors"] for t in rep["rows"] if not t["ok"])
 
 
 def test_nothing_to_check_is_a_user_error(capsys):
@@ -145,7 +153,7 @@ def test_site_ok_and_catalogue(monkeypatch, good_csv, tmp_path, site_file, capsy
     assert main(["check", str(good_csv), "--site", site_file, "--json", str(js)]) == 0
     rep = json.loads(js.read_text())
     assert rep["site"] == {"path": "s.toml", "ok": True, "problems": []}
-    assert rep["catalogue"]["ok"] is True
+    assert rep["ok"] is True and rep["catalogue"] == str(good_csv)
 
 
 def test_site_problems_exit_1(monkeypatch, site_file, capsys):

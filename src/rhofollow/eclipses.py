@@ -27,8 +27,7 @@ __all__ = ["CAUTION", "MAX_RANGE_YEARS", "EclipseInputError", "EclipseOptions", 
            "check_band", "bjd_tdb_to_utc", "predict_occultations"]
 
 #: Printed with every plan: the tool advises, the observatory decides.
-CAUTION = ("Advisory only: observatory safety limits (Sun avoidance, weather and wind limits, "
-           "dome rules) and the site's operations rules override any window or plan given here.")
+from .records import CAUTION  # noqa: E402  (one caution text for every output)
 
 #: Longest date range accepted (years): ephemeris errors grow with the epoch number.
 MAX_RANGE_YEARS = 20.0

@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 from typing import Callable
 
 __all__ = ["PipelineOptions", "Stages", "PipelineResult", "run_stages", "run_pipeline", "StageProgress",
-           "PipelineError"]
+           "PipelineError", "planner_targets", "night_document", "campaign_document"]
 
 #: ``progress(stage_label, total)`` starts a stage and returns ``advance(k=1)``.
 StageProgress = Callable[[str, int], Callable[..., None]]
@@ -68,7 +68,9 @@ class Stages:
     instruments : ``{"occultation": name, "rv": name}``; overhead_h : slew + setup per block (h);
     model : the planners' :class:`~rhofollow.planning.tasks.ValueModel`; notices : run-level messages
     (including one per target that failed a stage after its assessment; those are also in ``failures``);
-    prior : the eccentricity prior used (:class:`~rhofollow.physics.priors.EccPrior`).
+    prior : the eccentricity prior used (:class:`~rhofollow.physics.priors.EccPrior`);
+    unreachable : name -> warning for targets that never reach the site's altitude limit
+    (:func:`rhofollow.planning.reach.unreachable_targets`).
     """
 
     assessments: list
@@ -83,6 +85,7 @@ class Stages:
     prior: object
     timings: dict = field(default_factory=dict)
     failures: list = field(default_factory=list)
+    unreachable: dict = field(default_factory=dict)
 
 
 @dataclass
@@ -107,6 +110,13 @@ class PipelineResult:
     nights: list
     options: PipelineOptions
     timings: dict = field(default_factory=dict)
+    catalogue: object = None
+    command: str = "plan"
+
+    @property
+    def unreachable(self) -> dict:
+        """name -> warning of the targets that never reach the site's altitude limit (no plots for them)."""
+        return self.stages.unreachable
 
     @property
     def assessments(self):
@@ -299,6 +309,7 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
     from .eclipses import EclipseInputError, EclipseOptions, predict_occultations
     from .parallel import assess_parallel
     from .physics.priors import DEFAULT_PRIOR, parse_prior
+    from .planning.reach import unreachable_targets
     from .planning.tasks import ValueModel
     opts = options or PipelineOptions()
     progress = progress or _quiet
@@ -360,16 +371,80 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
                        partial_baseline_h=phot.baseline_h if phot else 1.0)
     names = {"occultation": phot.name if phot else "photometer",
              "rv": spec.name if spec else "spectrograph"}
+    unreachable = unreachable_targets(site, [(t.name, t.value("dec_deg")) for t in targets])
     return Stages(assessments, occ, rv, science, skipped, names,
-                  (site.slew_minutes + site.setup_minutes) / 60.0, model, notices, prior, timings, failures)
+                  (site.slew_minutes + site.setup_minutes) / 60.0, model, notices, prior, timings,
+                  failures, unreachable)
+
+
+def planner_targets(stages: Stages) -> list[dict]:
+    """One contract record per assessed target (input order): failed when its assessment, occultation
+    prediction or RV plan failed; warnings of every stage plus "never rises at the site"."""
+    from .records import merge_stage_records
+
+    recs = [a.record or {"name": a.name, "ok": a.ok, "errors": list(a.errors), "warnings": list(a.warnings)}
+            for a in stages.assessments]
+    extra = {n: [w] for n, w in stages.unreachable.items()}
+    return merge_stage_records([a.name for a in stages.assessments], recs, stages.occultations.get("targets", []),
+                               stages.rv, extra_warnings=extra)
+
+
+def night_document(plan, stages: Stages, site, date, seed, samples, catalogue=None,
+                   command: str = "night") -> dict:
+    """The ``night`` JSON: the output envelope (:mod:`rhofollow.records`) around the night plan.
+
+    Targets carry ``n_blocks`` (blocks chosen for them tonight) and ``never_rises``; the plan's keys
+    (``blocks``, ``total_value``, ...) and ``date``, ``timezone``, ``instruments``, ``notices``,
+    ``samples`` follow the envelope.
+    """
+    from .records import envelope
+
+    body = plan.to_dict()
+    skipped = stages.skipped + body.pop("skipped")
+    n_blocks: dict = {}
+    for b in body["blocks"]:
+        n_blocks[b["name"]] = n_blocks.get(b["name"], 0) + 1
+    targets = [dict(t, n_blocks=n_blocks.get(t["name"], 0), never_rises=t["name"] in stages.unreachable)
+               for t in planner_targets(stages)]
+    body.update({"date": str(date), "timezone": site.timezone, "instruments": stages.instruments,
+                 "notices": stages.notices, "samples": samples})
+    return envelope(command, catalogue=catalogue, seed=seed, targets=targets, skipped=skipped,
+                    caution=body["cautions"][0] if body.get("cautions") else None, payload=body)
+
+
+def campaign_document(plan, stages: Stages, site, start, end, seed, samples, catalogue=None,
+                      command: str = "campaign") -> dict:
+    """The ``campaign`` JSON: the output envelope around the campaign plan.
+
+    Every assessed target has the campaign keys (``occultation_windows``, ``rv_visits``, ``hours``,
+    ``rv_visits_needed``, ``n_windows_unobservable``, ``notes``; empty for a failed target) and
+    ``never_rises``.
+    """
+    from .records import envelope
+
+    body = plan.to_dict()
+    camp = {t["name"]: t for t in body.pop("targets")}
+    empty = {"occultation_windows": [], "rv_visits": [], "hours": {}, "rv_visits_needed": None,
+             "n_windows_unobservable": 0, "notes": []}
+    targets = []
+    for t in planner_targets(stages):
+        c = {k: v for k, v in camp.get(t["name"], empty).items() if k not in ("name", "ok", "errors", "warnings")}
+        targets.append(dict(t, **c, never_rises=t["name"] in stages.unreachable))
+    body.update({"start": str(start), "end": str(end), "notices": stages.notices, "samples": samples,
+                 "timezone": site.timezone, "overhead_h": stages.overhead_h})
+    return envelope(command, catalogue=catalogue, seed=seed, targets=targets, skipped=stages.skipped,
+                    caution=body["cautions"][0] if body.get("cautions") else None, payload=body)
 
 
 def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: PipelineOptions | None = None,
-                 progress: StageProgress | None = None, max_nights: int = 400) -> PipelineResult:
+                 progress: StageProgress | None = None, max_nights: int = 400,
+                 catalogue=None) -> PipelineResult:
     """The whole chain for the local evenings ``start`` .. ``end`` (inclusive) at ``site``.
 
     Runs :func:`run_stages` over the dark time of the range, then the visibility of every night, the
-    nightly plan of the first dark night and the campaign plan.
+    nightly plan of the first dark night and the campaign plan. ``catalogue`` (the reader's
+    :class:`~rhofollow.io.table_types.CatalogueResult`, optional) puts the catalogue path and its row
+    problems into the night and campaign documents.
 
     Raises
     ------
@@ -406,10 +481,7 @@ def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: Pipelin
     adv(1)
     nplan = plan_night(stages.science, vis0, site=site.name, night_start_jd=first.start_jd,
                        night_end_jd=first.end_jd, overhead_h=stages.overhead_h, model=stages.model)
-    nplan.skipped = stages.skipped + nplan.skipped
-    night_doc = nplan.to_dict()
-    night_doc.update({"date": str(first.date), "timezone": site.timezone, "instruments": stages.instruments,
-                      "notices": stages.notices, "seed": opts.seed, "samples": opts.samples})
+    night_doc = night_document(nplan, stages, site, first.date, opts.seed, opts.samples, catalogue)
     nights = []
     for g in grids:
         nights.append(NightVis(str(g.date), night_visibility(eng, g, stages.science), g.start_jd, g.end_jd))
@@ -420,11 +492,9 @@ def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: Pipelin
     adv = progress("scheduling", 1)
     cplan = plan_campaign(stages.science, nights, site=site.name, overhead_h=stages.overhead_h,
                           instruments=stages.instruments, model=stages.model)
-    camp = cplan.to_dict()
-    camp["start"], camp["end"] = str(start), str(end)
-    camp.update({"skipped": stages.skipped, "notices": stages.notices, "seed": opts.seed,
-                 "samples": opts.samples, "timezone": site.timezone, "overhead_h": stages.overhead_h})
+    camp = campaign_document(cplan, stages, site, start, end, opts.seed, opts.samples, catalogue)
     adv(1)
     timings["scheduling_s"] = time.perf_counter() - t
     timings["total_s"] = time.perf_counter() - t_all
-    return PipelineResult(site, eng, stages, start, end, night_doc, first, camp, cplan, grids, opts, timings)
+    return PipelineResult(site, eng, stages, start, end, night_doc, first, camp, cplan, grids, opts, timings,
+                          catalogue)

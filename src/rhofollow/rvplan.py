@@ -29,8 +29,7 @@ from .samples import SampleSet, quantile_dict, reliability, weighted_quantiles
 
 __all__ = ["CAUTION", "K_MODES", "rv_record", "plan_rv", "planet_mass_and_k"]
 
-CAUTION = ("Plans are advisory: observatory safety limits (Sun avoidance, weather and wind limits, "
-           "dome rules) and the site's operations rules override any plan made from these numbers.")
+from .records import CAUTION  # noqa: E402  (one caution text for every output)
 K_MODES = ("marginal", "mass")
 
 

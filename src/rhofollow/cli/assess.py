@@ -142,10 +142,10 @@ def run(args) -> int:
         for e in a.errors:
             message(f"{a.name}: {e}", "error")
     say(CAUTION, style="dim")
-    n_bad = result.n_failed + sum(not a.ok for a in assessments)
-    payload = {"source": str(args.catalog), "prior": args.ecc_prior, "seed": args.seed,
-               "n_rows": result.n_rows, "n_failed": n_bad, "targets": records,
-               "row_errors": [str(i) for i in result.errors]}
+    from ..records import envelope
+
+    payload = envelope("assess", catalogue=result, seed=args.seed, targets=records,
+                       payload={"prior": args.ecc_prior, "samples": args.samples, "caveat": CAUTION})
     if args.json:
         write_json(args.json, payload)
     if args.ecsv:
@@ -153,4 +153,4 @@ def run(args) -> int:
         buf = _io.StringIO()
         assessment_table(records).write(buf, format="ascii.ecsv")
         atomic_write_text(args.ecsv, buf.getvalue())
-    return 1 if n_bad else 0
+    return payload["exit_status"]

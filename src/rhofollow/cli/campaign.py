@@ -82,6 +82,11 @@ def run(args) -> int:
     if not grids:
         raise UserError(f"no dark time at {site.name} between {start} and {end}")
     prep = prepare(args, site, jd_to_iso(grids[0].start_jd - 0.5), jd_to_iso(grids[-1].end_jd + 0.5))
+    if prep.stages is None:
+        from .night import nothing_to_plan
+
+        return nothing_to_plan("campaign", args, prep, {"start": str(start), "end": str(end),
+                                                        "timezone": site.timezone})
     nights = []
     with count_progress(len(grids), "visibility") as prog:
         task = prog.add_task("visibility", total=len(grids))
@@ -90,12 +95,11 @@ def run(args) -> int:
             prog.advance(task)
     plan = plan_campaign(prep.science, nights, site=site.name, overhead_h=prep.overhead_h,
                          instruments=prep.instruments, model=prep.model)
+    from ..pipeline import campaign_document
+
+    full = campaign_document(plan, prep.stages, site, start, end, args.seed, args.samples, prep.catalogue)
+    # the terminal table lists the planned targets (failed ones are reported below it)
     doc = plan.to_dict()
-    doc["start"], doc["end"] = str(start), str(end)
-    doc["skipped"] = prep.skipped
-    doc["notices"] = prep.notices
-    doc.update({"seed": args.seed, "samples": args.samples, "timezone": site.timezone,
-                "overhead_h": prep.overhead_h})
 
     con = console()
     if args.table:
@@ -110,12 +114,17 @@ def run(args) -> int:
         message(CAUTION, "caution", to_stdout=True)
     for n in prep.notices:
         message(n, "notice")
-    for s in prep.skipped:
+    for s in full["skipped"]:
         message(f"{s['name']}: {s['reason']}", "skipped")
+    for t in full["targets"]:
+        for msg in t["errors"]:
+            message(f"{t['name']}: {msg}", "error")
+    for name, msg in prep.stages.unreachable.items():
+        message(f"{name}: {msg}", "warning")
     if args.json:
-        write_json(args.json, doc)
+        write_json(args.json, full)
         message(f"wrote {args.json}")
     if args.ics:
         atomic_write_text(args.ics, to_ical(plan).decode("utf-8"))
         message(f"wrote {args.ics}")
-    return 0
+    return full["exit_status"]

@@ -1,7 +1,9 @@
 """``rhofollow check``: validate a catalogue and/or a site file without computing anything.
 
 Exit status: 0 when every row passed, 1 when any row (or column) failed or the site file has
-problems, 2 when a file cannot be used at all.
+problems, 2 when a file cannot be used at all. With both a catalogue and ``--site``, every target
+that never reaches the site's altitude limit gets a warning (it would never be planned there).
+The JSON is the common envelope (:mod:`rhofollow.records`); ``rows`` lists every data row.
 """
 from __future__ import annotations
 
@@ -112,28 +114,60 @@ def _check_site(path: str) -> tuple[int, dict]:
     return (1 if problems else 0), {"path": path, "ok": not problems, "problems": problems}
 
 
+def _never_rising(site_path, result) -> dict[str, str]:
+    """name -> warning for the valid rows that never reach the site's altitude limit (empty if the site
+    cannot be read: its problems are reported by the site check)."""
+    try:
+        from rhofollow.planning.reach import unreachable_targets
+        from rhofollow.planning.site import load_site
+
+        site = load_site(site_path)
+    except Exception:  # noqa: BLE001 - the site check reports why the file is unusable
+        return {}
+    if site is None or not hasattr(site, "constraints"):
+        return {}
+    return unreachable_targets(site, [(t.name, t.value("dec_deg")) for t in result.targets])
+
+
 def run(args) -> int:
     from rhofollow.io.catalogue import CatalogueError, read_catalogue
+    from rhofollow.records import envelope
 
     if not args.catalog and not args.site:
         raise UserError("give a catalogue file to check, or --site FILE, or both")
     status = 0
     payload: dict = {}
+    result = None
     if args.catalog:
         try:
             result = read_catalogue(args.catalog, require_coords=args.require_coords)
         except CatalogueError as exc:
             _error(str(exc))
-            payload["catalogue"] = {"source": str(args.catalog), "ok": False,
-                                    "file_error": str(exc)}
+            payload["file_error"] = str(exc)
+            payload["ok"] = False
             status = 2
         else:
             _render(result)
-            payload["catalogue"] = report_dict(result)
+            rep = report_dict(result)
+            payload.update(ok=rep["ok"], n_warnings=rep["n_warnings"], issues=rep["issues"], rows=rep["targets"])
             status = 0 if result.ok else 1
+    never = {}
     if args.site:
         site_status, payload["site"] = _check_site(args.site)
         status = max(status, site_status)
+        if result is not None:
+            from rich.text import Text
+
+            never = _never_rising(args.site, result)
+            for name, msg in never.items():
+                console().print(Text(f"warning: {name}: {msg}", style="yellow"), soft_wrap=True)
+    targets = [] if result is None else [
+        {"name": t.name, "ok": True, "errors": [], "row": t.row,
+         "warnings": list(t.warnings) + ([never[t.name]] if t.name in never else []),
+         "never_rises": t.name in never} for t in result.targets]
+    doc = envelope("check", catalogue=result if result is not None else args.catalog, targets=targets,
+                   payload=payload)
+    doc["exit_status"] = status
     if args.json:
-        write_json(args.json, payload)
+        write_json(args.json, doc)
     return status

@@ -2,7 +2,9 @@
 
 The invented Heliotrope Transit Survey candidates (examples/hts_candidates.csv) at the invented Alto
 Quemado Observatory (site_configs/alto_quemado.toml), over the coming two months, with settings that
-keep the run short (8000 samples per target, 500 simulated RV tests).
+keep the run short (8000 samples per target, 500 simulated RV tests). The files are read from the
+package data (rhofollow/data/demo, see :mod:`rhofollow.demo_data`), so the demo works from a wheel.
+Exit status as every command (:mod:`rhofollow.records`).
 """
 from __future__ import annotations
 
@@ -33,6 +35,7 @@ def run(args) -> int:
     end = start + dt.timedelta(days=DEMO_DAYS)
     message(f"Demo: {cat.name} at {site.name}, {start} to {end} (invented data).")
     out = Path(args.out)
-    written = plan_to_folder(cat, site, start, end, out, args)
-    _print_summary(written, out)
-    return 0
+    written = plan_to_folder(cat, site, start, end, out, args, command="demo")
+    if written["result"] is not None:
+        _print_summary(written, out)
+    return written["doc"]["exit_status"]

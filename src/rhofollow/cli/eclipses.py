@@ -168,10 +168,11 @@ def run(args) -> int:
     report_row_issues(cat)
     assessments = run_assessment(cat.targets, args, label="assessing")
     result = predict_occultations(assessments, args.start, args.end, opts)
-    result["catalog"] = str(args.catalog)
-    result["seed"] = args.seed
-    result["n_rows"] = cat.n_rows
-    result["n_failed"] = cat.n_failed + sum(1 for r in result["targets"] if not r.get("ok"))
+    from ..records import envelope
+
+    doc = envelope("eclipses", catalogue=cat, seed=args.seed, targets=result["targets"],
+                   caution=result["caution"],
+                   payload={k: v for k, v in result.items() if k not in ("targets", "caution")})
 
     fitted = events_table(result, console().width)
     console().print(fitted.table)
@@ -187,10 +188,9 @@ def run(args) -> int:
         message(msg, "notice")
     say(result["caution"], style="italic")
     if args.json:
-        write_json(args.json, result)
+        write_json(args.json, doc)
     if args.ics:
         from ..io.calendar import write_ics
 
-        write_ics(args.ics, result)
-    # 0: every row and target gave predictions; 1: some failed (reported, the others listed)
-    return 1 if result["n_failed"] else 0
+        write_ics(args.ics, doc)
+    return doc["exit_status"]

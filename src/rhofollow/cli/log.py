@@ -310,6 +310,11 @@ def _run_update(args) -> int:
                   + ("" if r["stored_new_version"] else "; version already stored"))
         for w in r["warnings"]:
             message(f"{r['name']}: {w}", "warning")
+    from ..records import envelope
+
+    doc = envelope("log update", seed=args.seed, targets=records,
+                   payload={"ledger": str(args.ledger), "samples": args.samples, "jitter_ms": args.jitter,
+                            "stored": not args.no_store})
     if args.json:
-        write_json(args.json, {"ledger": str(args.ledger), "targets": records})
-    return 0 if all(r["ok"] for r in records) else 1
+        write_json(args.json, doc)
+    return doc["exit_status"]

@@ -39,6 +39,8 @@ class Prepared:
     model: object
     instruments: dict
     notices: list
+    stages: object = None
+    catalogue: object = None
 
 
 def load_site_arg(path):
@@ -62,7 +64,7 @@ def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
     cat = load_catalogue(args.catalog, require_coords=True)
     report_row_issues(cat)
     if not cat.targets:
-        raise UserError(f"{args.catalog}: no valid target rows to plan")
+        return Prepared(site, VisibilityEngine(site), [], [], 0.0, None, {}, [], None, cat)
     opts = PipelineOptions(samples=args.samples, seed=args.seed, ecc_prior=args.ecc_prior,
                            transit_weight=not args.no_transit_weight, workers=args.workers,
                            ledger=args.ledger)
@@ -72,7 +74,19 @@ def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
     except PipelineError as exc:
         raise UserError(str(exc)) from None
     return Prepared(site, VisibilityEngine(site), st.science, st.skipped, st.overhead_h, st.model,
-                    st.instruments, st.notices)
+                    st.instruments, st.notices, st, cat)
+
+
+def nothing_to_plan(command: str, args, prep: Prepared, payload: dict) -> int:
+    """Every catalogue row failed validation: say so, write the envelope (row errors only), exit 1."""
+    from ..records import envelope
+
+    message(f"{args.catalog}: no valid target rows to plan", "error")
+    doc = envelope(command, catalogue=prep.catalogue, seed=args.seed,
+                   payload=dict(payload, site=prep.site.name, samples=args.samples))
+    if args.json:
+        write_json(args.json, doc)
+    return doc["exit_status"]
 
 
 def _local(engine, jd: float) -> str:
@@ -136,14 +150,15 @@ def run(args) -> int:
         raise UserError(f"no dark time at {site.name} on the night of {date} "
                         f"({site.constraints.twilight} twilight never ends)")
     prep = prepare(args, site, jd_to_iso(night.start_jd - 0.5), jd_to_iso(night.end_jd + 0.5))
+    if prep.stages is None:
+        return nothing_to_plan("night", args, prep, {"date": str(date), "timezone": site.timezone})
     prep.engine = eng
     vis = night_visibility(eng, night, prep.science)
     plan = plan_night(prep.science, vis, site=site.name, night_start_jd=night.start_jd,
                       night_end_jd=night.end_jd, overhead_h=prep.overhead_h, model=prep.model)
-    plan.skipped = prep.skipped + plan.skipped
-    doc = plan.to_dict()
-    doc.update({"date": str(date), "timezone": site.timezone, "instruments": prep.instruments,
-                "notices": prep.notices, "seed": args.seed, "samples": args.samples})
+    from ..pipeline import night_document
+
+    doc = night_document(plan, prep.stages, site, date, args.seed, args.samples, prep.catalogue)
 
     con = console()
     if doc["blocks"]:
@@ -159,12 +174,17 @@ def run(args) -> int:
         message(n, "notice")
     for s in doc["skipped"]:
         message(f"{s['name']}: {s['reason']}", "skipped")
+    for t in doc["targets"]:
+        for msg in t["errors"]:
+            message(f"{t['name']}: {msg}", "error")
+    for name, msg in prep.stages.unreachable.items():
+        message(f"{name}: {msg}", "warning")
     if args.json:
-        write_json(args.json, {k: v for k, v in doc.items()})
+        write_json(args.json, doc)
         message(f"wrote {args.json}")
     if args.plot:
         from ..report.night_chart import plot_night
 
         plot_night(args.plot, eng, night, prep.science, doc)
         message(f"wrote {args.plot}")
-    return 0
+    return doc["exit_status"]

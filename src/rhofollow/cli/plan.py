@@ -62,16 +62,15 @@ def add_plan_options(p, demo: bool = False) -> None:
 
 
 def demo_paths() -> tuple[Path, Path]:
-    """The bundled demo catalogue and site, found relative to the package source."""
-    root = Path(__file__).resolve().parents[3]
-    cat = root / "examples" / "hts_candidates.csv"
-    site = root / "site_configs" / "alto_quemado.toml"
-    for path in (cat, site):
-        if not path.exists():
-            raise UserError(f"the bundled demo file {path} is missing; the demo runs from a source checkout "
-                            "(examples/ and site_configs/ beside src/); give a catalogue, --site, --start "
-                            "and --end instead")
-    return cat, site
+    """The bundled demo catalogue and site: package data (:mod:`rhofollow.demo_data`), so the demo
+    runs from a wheel as from a source checkout."""
+    from ..demo_data import demo_file
+
+    try:
+        return (demo_file("examples/hts_candidates.csv"), demo_file("site_configs/alto_quemado.toml"))
+    except FileNotFoundError as exc:
+        raise UserError(f"{exc}; reinstall rhofollow, or give a catalogue, --site, --start and --end "
+                        "instead") from None
 
 
 def _date(s: str, opt: str) -> dt.date:
@@ -81,8 +80,11 @@ def _date(s: str, opt: str) -> dt.date:
         raise UserError(f"{opt} must be YYYY-MM-DD, got {s!r}") from None
 
 
-def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args) -> dict:
-    """Run the pipeline and write the report folder; returns ``write_report``'s dict plus the result."""
+def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, command: str = "plan") -> dict:
+    """Run the pipeline and write the report folder; returns ``write_report``'s dict plus the result.
+
+    A catalogue without a valid row writes no folder: the dict then has ``doc`` (the envelope with the
+    row errors) and no ``files``."""
     from ..io.rvdata import RVDataError, read_rv_data
     from ..pipeline import PipelineError, PipelineOptions, run_pipeline
     from ..report.folder import write_report
@@ -107,15 +109,19 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args) 
     cat = load_catalogue(catalog, require_coords=True)
     report_row_issues(cat)
     if not cat.targets:
-        raise UserError(f"{catalog}: no valid target rows to plan")
+        from ..records import envelope
+
+        message(f"{catalog}: no valid target rows to plan; no report written", "error")
+        return {"doc": envelope(command, catalogue=cat, seed=args.seed), "files": [], "result": None}
     opts = PipelineOptions(samples=args.samples, seed=args.seed, ecc_prior=args.ecc_prior,
                            transit_weight=not args.no_transit_weight, workers=args.workers,
                            dask_address=args.dask, sims=args.sims, rv_data=rv_data)
     with stage_progress(transient=False) as stage:
         try:
-            result = run_pipeline(cat.targets, site, start, end, opts, progress=stage)
+            result = run_pipeline(cat.targets, site, start, end, opts, progress=stage, catalogue=cat)
         except PipelineError as exc:
             raise UserError(str(exc)) from None
+        result.command = command
         written = write_report(result, out, plot_targets=args.plot_targets, rv_data=rv_data, progress=stage)
     written["result"] = result
     written["n_row_errors"] = cat.n_failed
@@ -220,7 +226,9 @@ def run(args) -> int:
         start, end = _date(args.start, "--start"), _date(args.end, "--end")
     out = Path(args.out)
     written = plan_to_folder(cat, site, start, end, out, args)
-    _print_summary(written, out)
-    # 1 when a row or a target's stage failed (the others are in the report; notices say which)
-    failed = written["result"].stages.failures or any(not t.get("ok") for t in written["doc"]["targets"])
-    return 1 if failed or written.get("n_row_errors") else 0
+    if written["result"] is not None:
+        _print_summary(written, out)
+    status = written["doc"]["exit_status"]
+    if status == 0 and written["result"] is not None and written["result"].stages.failures:
+        status = 1  # a target's stage failed after its assessment (reported in notices)
+    return status

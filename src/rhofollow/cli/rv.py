@@ -163,9 +163,12 @@ def run(args) -> int:
             message(f"{r['name']}: {e}", "error")
         for w in r.get("warnings", []):
             message(f"{r['name']}: {w}", "warning")
+    from ..records import envelope
+
+    doc = envelope("rv", catalogue=cat, seed=args.seed, targets=records, caution=CAUTION,
+                   payload={"instrument": plan_inst.name, "instrument_file": plan_inst.source,
+                            "fap": args.fap, "power": args.power, "samples": args.samples,
+                            "rv_data": str(args.rv_data) if args.rv_data else None})
     if args.json:
-        doc = {"command": "rv", "catalogue": str(args.catalog), "instrument": plan_inst.name,
-               "instrument_file": plan_inst.source, "fap": args.fap, "power": args.power, "seed": args.seed,
-               "caution": CAUTION, "targets": records}
         write_json(args.json, doc)
-    return 0 if all(r["ok"] for r in records) and cat.ok else 1
+    return doc["exit_status"]

@@ -27,8 +27,7 @@ __all__ = ["NightPlan", "plan_night", "science_entry", "science_from_records", "
            "bjd_minus_jd", "CAUTION"]
 
 #: The caution every plan carries.
-CAUTION = ("Plans are advisory: Sun avoidance, weather and wind limits, dome rules and the site's "
-           "operations rules override any schedule this tool makes.")
+from ..records import CAUTION  # noqa: E402  (one caution text for every output)
 
 
 def science_entry(name: str, *, evidence: float, occultation: dict | None = None, rv: dict | None = None,

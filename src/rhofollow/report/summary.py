@@ -8,12 +8,13 @@ from __future__ import annotations
 import base64
 import html
 
+from ..records import CAUTION
+
 __all__ = ["assumptions", "CAUTIONS", "ranked_table", "markdown_summary", "html_summary"]
 
 #: Cautions every report carries.
 CAUTIONS = [
-    "Plans are advisory. Sun avoidance, weather and wind limits, dome rules and the site's operations "
-    "rules override any window, visit or schedule in this report.",
+    CAUTION,
     "Occultation windows come from the eccentricity posterior; a broad posterior gives windows longer than a "
     "night, which the plans then leave out rather than guess.",
     "The density mismatch can also come from a blend or from the planet orbiting another star; the "

@@ -109,16 +109,25 @@ def results_document(result, ranking: dict, assumptions: list[str], cautions: li
                                                   "n_windows_unobservable") if k in c} if c else {})
         targets.append(rec)
     targets.sort(key=lambda t: (t.get("rank") is None, t.get("rank") or 0, t["name"]))
+    # one meaning of failure (records.py): a target fails when any stage failed for it
+    from ..pipeline import planner_targets
+    from ..records import CAUTION, envelope
+
+    merged = {t["name"]: t for t in planner_targets(result.stages)}
+    for rec in targets:
+        m = merged.get(rec["name"])
+        if m is not None:
+            rec.update(ok=m["ok"], errors=m["errors"], warnings=m["warnings"])
     opts = result.options
-    return {
-        "command": "plan", "site": result.site.name, "start": str(result.start), "end": str(result.end),
-        "seed": opts.seed, "samples": opts.samples, "prior": result.stages.prior.name,
+    return envelope(getattr(result, "command", "plan"), catalogue=getattr(result, "catalogue", None),
+                    seed=opts.seed, targets=targets, skipped=result.stages.skipped, caution=CAUTION, payload={
+        "site": result.site.name, "start": str(result.start), "end": str(result.end),
+        "samples": opts.samples, "prior": result.stages.prior.name,
         "prior_description": result.stages.prior.description, "transit_weight": opts.transit_weight,
         "coverage": opts.coverage, "fap": opts.fap, "power": opts.power,
         "instruments": result.stages.instruments, "priority_rule": PRIORITY_RULE,
         "hours_total": result.campaign.get("hours_total", {}), "assumptions": assumptions,
-        "cautions": cautions, "notices": result.stages.notices, "targets": targets,
-    }
+        "cautions": cautions, "notices": result.stages.notices})
 
 
 def _q(rec: dict, key: str, prefix: str, row: dict, levels=("q16", "q50", "q84")) -> None:
