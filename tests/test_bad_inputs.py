@@ -111,9 +111,16 @@ def test_short_period_row_no_longer_sinks_eclipses(tmp_path):
     occ = predict_occultations(assessments, "2027-03-01", "2027-03-12")
     recs = {r["name"]: r for r in occ["targets"]}
     short = recs["SHORT-1"]
-    assert short["ok"] and short["events"] == []
-    assert short["occ_duration_h"] == {k: None for k in QUANTILE_LEVELS}
-    assert any("no occulting sample has an occultation duration" in w for w in short["warnings"])
+    assert short["ok"]
+    # With the measured-orbit / overlap-proposal sampler the row may no longer pile up at e ~ 0.99;
+    # either way it is contained: a degenerate posterior gives "not available", never an exception
+    # (the degenerate path itself is pinned by test_zero_weight_sample_set_is_contained_in_eclipses_and_rv).
+    if short["occ_duration_h"]["q50"] is None:
+        assert short["events"] == []
+        assert short["occ_duration_h"] == {k: None for k in QUANTILE_LEVELS}
+        assert any("no occulting sample has an occultation duration" in w for w in short["warnings"])
+    else:
+        assert short["occ_duration_h"]["q50"] > 0
     for g in ("GOOD-1", "GOOD-2"):
         assert recs[g]["ok"] and recs[g]["events"] and recs[g]["occ_duration_h"]["q50"] > 0
     out = write_json(tmp_path / "e.json", occ)
@@ -213,7 +220,7 @@ def test_eclipses_cli_exit_status_and_envelope_report_a_failed_target(tmp_path, 
                "--samples", "1000", "--json", str(out)])
     assert rc == 1
     doc = json.loads(out.read_text())
-    assert doc["n_failed"] == 1 and [t["ok"] for t in doc["targets"]] == [True, False]
+    assert doc["n_targets_failed"] == 1 and [t["ok"] for t in doc["targets"]] == [True, False]
 
 
 def test_task_building_failure_is_a_skip_not_a_crash(monkeypatch):
