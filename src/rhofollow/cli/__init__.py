@@ -48,6 +48,18 @@ def main(argv: list[str] | None = None) -> int:
     except UserError as exc:
         err_console().print(f"[bold red]error:[/] {exc}", highlight=False)
         return 2
+    except OSError as exc:
+        from ..io.atomic import NoSpaceError, is_no_space
+
+        if not (isinstance(exc, NoSpaceError) or is_no_space(exc)) or args.debug:
+            if args.debug:
+                raise
+            err_console().print(f"[bold red]internal error:[/] {type(exc).__name__}: {exc} "
+                                "(run with --debug for the traceback)", highlight=False)
+            return 3
+        msg = str(exc) if isinstance(exc, NoSpaceError) else f"no space left on {exc.filename or 'the disk'}"
+        err_console().print(f"[bold red]error:[/] {msg}", highlight=False)
+        return 2
     except KeyboardInterrupt:
         err_console().print("interrupted")
         return 130

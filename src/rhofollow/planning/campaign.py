@@ -21,8 +21,6 @@ occultation windows; items that still cannot share the night with more valuable 
 """
 from __future__ import annotations
 
-import csv
-import io
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -262,11 +260,9 @@ def hours_table(plan: CampaignPlan, fmt: str = "md") -> str:
                  str(sum(len(t["rv_visits"]) for t in plan.targets))]
                 + [f"{h:.2f}" for h in hs] + [f"{sum(hs):.2f}"])
     if fmt == "csv":
-        buf = io.StringIO()
-        w = csv.writer(buf, lineterminator="\n")
-        w.writerow(head)
-        w.writerows(rows)
-        return buf.getvalue()
+        from ..io.safety import csv_text
+
+        return csv_text(head, rows)
     if fmt == "md":
         lines = ["| " + " | ".join(head) + " |", "|" + "|".join(["---"] + ["---:"] * (len(head) - 1)) + "|"]
         lines += ["| " + " | ".join(r) + " |" for r in rows]
