@@ -542,6 +542,8 @@ class Ledger:
             self._conn.execute("PRAGMA foreign_keys = ON")
             self._migrate()
         except sqlite3.DatabaseError as exc:
+            if is_no_space(exc):
+                raise self._no_space() from exc
             raise LedgerError(f"{self.path}: not a usable ledger database ({exc})") from exc
         self.journal_mode = mode
 

@@ -1,4 +1,4 @@
-"""Safe forms of user-supplied text in output files: CSV cells and file names.
+"""Safe forms of user-supplied text in output files: CSV cells, file names and Markdown.
 
 CSV cells
     A spreadsheet evaluates a cell that starts with ``=``, ``+``, ``-`` or ``@`` (and some also
@@ -23,7 +23,7 @@ import io
 import math
 import re
 
-__all__ = ["FORMULA_TRIGGERS", "csv_cell", "csv_unquote", "csv_text", "file_stem", "MAX_STEM_BYTES"]
+__all__ = ["FORMULA_TRIGGERS", "csv_cell", "csv_unquote", "csv_text", "file_stem", "MAX_STEM_BYTES", "md_text"]
 
 #: First characters that make a spreadsheet treat a cell as a formula (plus tab and CR).
 FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
@@ -88,3 +88,20 @@ def file_stem(name: str) -> str:
     slug = re.sub(r"-{2,}", "-", slug).lstrip(".")
     slug = slug.encode("ascii")[:_SLUG_BYTES].decode("ascii").strip("-") or "target"
     return f"{slug}-{digest}"
+
+
+_MD_SPECIAL = re.compile(r"([\\`*_\[\]{}#|!~])")
+
+
+def md_text(text) -> str:
+    """Text safe inside Markdown (a table cell, a list item or a heading).
+
+    HTML is escaped (``<script>`` in a target name shows as text in an HTML-capable viewer),
+    Markdown punctuation is backslash-escaped (``|`` no longer splits a table row, ``*``/``_``
+    no longer format), and line breaks become spaces.
+    """
+    import html
+
+    s = html.escape(str(text), quote=False)
+    s = re.sub(r"[\r\n\t\v\f]+", " ", s)
+    return _MD_SPECIAL.sub(r"\\\1", s)

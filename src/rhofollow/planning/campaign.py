@@ -264,8 +264,11 @@ def hours_table(plan: CampaignPlan, fmt: str = "md") -> str:
 
         return csv_text(head, rows)
     if fmt == "md":
-        lines = ["| " + " | ".join(head) + " |", "|" + "|".join(["---"] + ["---:"] * (len(head) - 1)) + "|"]
-        lines += ["| " + " | ".join(r) + " |" for r in rows]
+        from ..io.safety import md_text
+
+        lines = ["| " + " | ".join(md_text(h) for h in head) + " |",
+                 "|" + "|".join(["---"] + ["---:"] * (len(head) - 1)) + "|"]
+        lines += ["| " + " | ".join(md_text(c) for c in r) + " |" for r in rows]
         return "\n".join(lines) + "\n"
 
     def esc(s):
