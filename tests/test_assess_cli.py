@@ -6,6 +6,7 @@ import pytest
 from astropy.table import Table
 
 from rhofollow.cli import main
+from rhofollow.io.safety import file_stem
 from rhofollow.samples import SampleSet
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -39,7 +40,7 @@ def test_json_contract_exports_and_samples(tmp_path, capsys):
     assert "other_host" not in recs["HTS-101"]["log_evidence"]
     t = Table.read(ecsv, format="ascii.ecsv")
     assert list(t["name"]) == ["HTS-101", "HTS-103", "HTS-111"] and str(t["rho_star_cgs_q50"].unit) == "g / cm3"
-    s = SampleSet.from_table(Table.read(sdir / "HTS-103.ecsv", format="ascii.ecsv"))
+    s = SampleSet.from_table(Table.read(sdir / f"{file_stem('HTS-103')}.ecsv", format="ascii.ecsv"))
     assert s.name == "HTS-103" and s.ess > 100
     assert s.quantiles("e")["q50"] == pytest.approx(recs["HTS-103"]["ecc"]["q50"], abs=1e-9)
     text = capsys.readouterr().out

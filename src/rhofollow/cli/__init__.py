@@ -49,6 +49,17 @@ def main(argv: list[str] | None = None) -> int:
     except UserError as exc:
         message(exc, "error")
         return 2
+    except OSError as exc:
+        from ..io.atomic import NoSpaceError, is_no_space
+
+        if not (isinstance(exc, NoSpaceError) or is_no_space(exc)) or args.debug:
+            if args.debug:
+                raise
+            message(f"{type(exc).__name__}: {exc} (run with --debug for the traceback)", "internal error")
+            return 3
+        msg = str(exc) if isinstance(exc, NoSpaceError) else f"no space left on {exc.filename or 'the disk'}"
+        message(msg, "error")
+        return 2
     except KeyboardInterrupt:
         message("interrupted")
         return 130

@@ -25,7 +25,7 @@ def register(subparsers) -> None:
     add_json_option(p)
     p.add_argument("--ecsv", metavar="PATH", help="write the per-target summary table as ECSV")
     p.add_argument("--samples-out", metavar="DIR",
-                   help="write each target's weighted posterior samples as DIR/<name>.ecsv")
+                   help="write each target's weighted posterior samples as DIR/<name-slug>-<hash>.ecsv")
     add_assess_options(p)
     p.set_defaults(func=run)
 
@@ -96,7 +96,9 @@ def write_samples(assessments, directory) -> int:
     for a in assessments:
         if a.samples is None:
             continue
-        safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in a.name)
+        from ..io.safety import file_stem
+
+        safe = file_stem(a.name)
         tab = a.samples.to_table()
         import io as _io
         buf = _io.StringIO()

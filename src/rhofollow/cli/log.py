@@ -25,6 +25,16 @@ def _ledger_parent() -> argparse.ArgumentParser:
     return p
 
 
+def _add_duplicate_options(s) -> None:
+    g = s.add_mutually_exclusive_group()
+    g.add_argument("--replace", action="store_const", const="replace", dest="duplicates",
+                   help="a measurement that repeats a stored one (same target and time within the "
+                   "errors) replaces it")
+    g.add_argument("--keep-both", action="store_const", const="keep_both", dest="duplicates",
+                   help="keep a measurement that repeats a stored one as an independent measurement")
+    s.set_defaults(duplicates="refuse")
+
+
 def register(subparsers) -> None:
     from ..io.ledger import OBSERVATION_KINDS, OBSERVATION_OUTCOMES
 
@@ -47,6 +57,7 @@ def register(subparsers) -> None:
                        "the file holds several targets (else give --target).")
     s.add_argument("file", metavar="FILE")
     s.add_argument("--target", metavar="NAME", help="target of a single-target file")
+    _add_duplicate_options(s)
     s.set_defaults(func=_run_rv)
 
     s = sub.add_parser("occultation", parents=[parent],
@@ -66,6 +77,7 @@ def register(subparsers) -> None:
                    help="smallest occultation depth the observation would have detected")
     s.add_argument("--band", type=float, metavar="MICRON", help="central wavelength of the band")
     s.add_argument("--instrument", default="", metavar="NAME")
+    _add_duplicate_options(s)
     s.set_defaults(func=_run_occultation)
 
     s = sub.add_parser("done", parents=[parent], help="record observations done (CSV or one)",
@@ -137,16 +149,34 @@ def _ingest(args, fn) -> int:
     reports = reports if isinstance(reports, list) else [reports]
     for r in reports:
         say(r.describe())
-        for table, rows in r.added.items():
-            for row in rows:
-                say(f"  + {table}: {_brief(row)}")
-        for table, rows in r.updated.items():
-            for row in rows:
-                say(f"  ~ {table}: {row['name']}")
+        n_rows = sum(len(v) for v in r.added.values()) + sum(len(v) for v in r.updated.values())
+        if n_rows <= _ECHO_ROWS:
+            for table, rows in r.replaced.items():
+                for row in rows:
+                    say(f"  - {table}: {_brief(row)}")
+            for table, rows in r.added.items():
+                for row in rows:
+                    say(f"  + {table}: {_brief(row)}")
+            for table, rows in r.updated.items():
+                for row in rows:
+                    say(f"  ~ {table}: {row['name']}")
+        else:
+            for table, rows in r.added.items():
+                if table == "targets":
+                    continue
+                n_t = len({row.get("target") for row in rows})
+                say(f"  added {len(rows)} {_WORDS.get(table, table)} for {n_t} "
+                    f"target{'' if n_t == 1 else 's'}")
     if args.json:
         write_json(args.json, {"ledger": str(args.ledger),
                                "ingests": [r.to_dict() for r in reports]})
     return 0
+
+
+#: Ingests adding at most this many rows list them one by one; larger ones are summarised.
+_ECHO_ROWS = 10
+_WORDS = {"rv_measurements": "RVs", "occultation_timings": "occultation timings",
+          "observations": "observations", "posterior_versions": "posterior versions"}
 
 
 def _brief(row: dict) -> str:
@@ -169,7 +199,8 @@ def _run_targets(args) -> int:
 
 
 def _run_rv(args) -> int:
-    return _ingest(args, lambda lg: lg.ingest_rv_file(args.file, target=args.target))
+    return _ingest(args, lambda lg: lg.ingest_rv_file(args.file, target=args.target,
+                                                      duplicates=args.duplicates))
 
 
 def _run_occultation(args) -> int:
@@ -177,7 +208,7 @@ def _run_occultation(args) -> int:
     if args.file:
         if args.target or any(v is not None for v in single):
             raise UserError("give either a FILE or one entry's options (--target ...), not both")
-        return _ingest(args, lambda lg: lg.ingest_occultation_file(args.file))
+        return _ingest(args, lambda lg: lg.ingest_occultation_file(args.file, duplicates=args.duplicates))
     if not args.target:
         raise UserError("give a FILE, or --target with --mid/--err-min or --window/--depth-limit")
     if args.window is not None:
@@ -190,7 +221,8 @@ def _run_occultation(args) -> int:
             raise UserError("--depth-limit belongs to a non-detection (--window START END)")
         kw = dict(kind="detection", mid_bjd_tdb=args.mid, mid_err_min=args.err_min)
     return _ingest(args, lambda lg: lg.add_occultation(args.target, band_um=args.band,
-                                                       instrument=args.instrument, **kw))
+                                                       instrument=args.instrument,
+                                                       duplicates=args.duplicates, **kw))
 
 
 def _run_done(args) -> int:

@@ -40,7 +40,7 @@ def add_plan_options(p, demo: bool = False) -> None:
         p.add_argument("--start", metavar="YYYY-MM-DD", help="local date of the first evening")
         p.add_argument("--end", metavar="YYYY-MM-DD", help="local date of the last evening")
     p.add_argument("--out", metavar="DIR", default="rhofollow-report" if demo else None,
-                   required=not demo, help="report folder (created; files in it are replaced)"
+                   required=not demo, help="report folder (created, or an earlier report folder replaced as a whole)"
                    + (" (default ./rhofollow-report)" if demo else ""))
     p.add_argument("--samples", type=int, default=8000 if demo else DEFAULT_N_SAMPLES, metavar="N",
                    help=f"posterior samples per target (default {8000 if demo else DEFAULT_N_SAMPLES})")
@@ -87,9 +87,15 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
     row errors) and no ``files``."""
     from ..io.rvdata import RVDataError, read_rv_data
     from ..pipeline import PipelineError, PipelineOptions, run_pipeline
-    from ..report.folder import write_report
+    from ..io.atomic import NoSpaceError
+    from ..report.folder import ReportFolderError, check_report_folder, write_report
     from .common import load_catalogue, report_row_issues
     from .night import load_site_arg
+
+    try:
+        check_report_folder(out)
+    except ReportFolderError as exc:
+        raise UserError(str(exc)) from None
 
     if args.samples < 500:
         raise UserError(f"--samples must be at least 500, got {args.samples}")
@@ -122,7 +128,11 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
         except PipelineError as exc:
             raise UserError(str(exc)) from None
         result.command = command
-        written = write_report(result, out, plot_targets=args.plot_targets, rv_data=rv_data, progress=stage)
+        try:
+            written = write_report(result, out, plot_targets=args.plot_targets, rv_data=rv_data,
+                                   progress=stage)
+        except (ReportFolderError, NoSpaceError) as exc:
+            raise UserError(str(exc)) from None
     written["result"] = result
     written["n_row_errors"] = cat.n_failed
     return written

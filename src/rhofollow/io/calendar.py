@@ -25,6 +25,8 @@ def windows_to_ics(result: dict) -> bytes:
     """
     from icalendar import Calendar, Event
 
+    from .safety import file_stem
+
     cal = Calendar()
     cal.add("prodid", _PRODID)
     cal.add("version", "2.0")
@@ -38,7 +40,7 @@ def windows_to_ics(result: dict) -> bytes:
             q = ev["mid_bjd_tdb"]
             for j, (a, b) in enumerate(ev["window_utc"]):
                 e = Event()
-                slug = "".join(c if c.isalnum() else "-" for c in rec["name"])
+                slug = file_stem(rec["name"])   # unique per exact name (a/b and a-b differ)
                 e.add("uid", f"{slug}-occ-{ev['epoch']}-{j}@rhofollow")
                 e.add("dtstamp", stamp)
                 e.add("dtstart", _dt(a))

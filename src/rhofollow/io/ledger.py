@@ -19,14 +19,22 @@ Guarantees
 * Idempotent: a file whose content hash was already taken adds nothing, and every row has a unique
   key, so overlapping files add only the rows that are new. A row whose key exists with different
   values is a conflict and rejects the file.
+* The same measurement twice is refused: a new RV of a target within :data:`RV_SAME_TIME_D` of a
+  stored one, a new occultation detection within :data:`OCC_SAME_SIGMA` combined 1-sigma errors
+  of a stored detection, or a non-detection window overlapping a stored one, raises
+  :class:`DuplicateMeasurementError` (nothing written) unless the ingest is told to ``replace``
+  the stored measurement or to ``keep_both``.
+* A full disk raises :class:`LedgerError` "no space left on ...; nothing was written" (the
+  transaction is rolled back).
 * Only parameterised SQL; table and column names come from constants in this module.
+* CSV files written by :meth:`Ledger.export` quote text cells a spreadsheet would run as a
+  formula (:mod:`rhofollow.io.safety`); the reader undoes that quoting.
 """
 from __future__ import annotations
 
 import csv
 import datetime as _dt
 import hashlib
-import io
 import json
 import math
 import os
@@ -35,12 +43,15 @@ import time
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
+from .atomic import is_no_space
+from .safety import csv_text, csv_unquote
 from .table_types import RowIssue
 
 __all__ = [
     "SCHEMA_VERSION", "DEFAULT_LEDGER", "LedgerError", "IngestError", "IngestReport", "Ledger",
     "RVMeasurement", "OccultationTiming", "Observation", "PosteriorVersion",
-    "OBSERVATION_KINDS", "OBSERVATION_OUTCOMES", "TIMING_KINDS",
+    "OBSERVATION_KINDS", "OBSERVATION_OUTCOMES", "TIMING_KINDS", "DuplicateMeasurementError",
+    "DUPLICATE_POLICIES", "RV_SAME_TIME_D", "OCC_SAME_SIGMA",
 ]
 
 SCHEMA_VERSION = 2
@@ -57,6 +68,16 @@ _MARKER_ENV = "RHOFOLLOW_TEST_INGEST_MARKER"
 
 _MAX_REPORTED_ISSUES = 20
 
+#: What to do with a measurement that repeats one already stored: refuse the ingest (default),
+#: replace the stored one, or keep both as independent measurements.
+DUPLICATE_POLICIES = ("refuse", "replace", "keep_both")
+#: Two RVs of one target closer in time than this are one measurement (60 s: shorter than an
+#: exposure plus read-out; common practice, no source).
+RV_SAME_TIME_D = 60.0 / 86400.0
+#: Two occultation detections of one target whose mid-times differ by less than this many
+#: combined 1-sigma errors are one measurement (separate events are a period apart).
+OCC_SAME_SIGMA = 3.0
+
 
 class LedgerError(Exception):
     """A problem with the ledger file itself (newer schema, not a ledger, ...)."""
@@ -72,6 +93,15 @@ class IngestError(LedgerError):
         more = len(self.issues) - _MAX_REPORTED_ISSUES
         tail = f"; and {more} more" if more > 0 else ""
         super().__init__(f"{source} rejected, nothing was written: {shown}{tail}")
+
+
+class DuplicateMeasurementError(IngestError):
+    """New measurements repeat stored ones; the ingest wrote nothing (see :data:`DUPLICATE_POLICIES`)."""
+
+    def __init__(self, source: str, issues: list[RowIssue]):
+        super().__init__(source, issues)
+        self.args = (self.args[0] + ". If it is the same measurement, give --replace to replace the "
+                     "stored one; if they are independent measurements, give --keep-both",)
 
 
 # --------------------------------------------------------------------------------------------
@@ -143,6 +173,7 @@ class IngestReport:
     already_ingested: bool = False
     added: dict[str, list[dict]] = field(default_factory=dict)
     updated: dict[str, list[dict]] = field(default_factory=dict)
+    replaced: dict[str, list[dict]] = field(default_factory=dict)
     duplicates: int = 0
     ingest_id: int | None = None
 
@@ -167,6 +198,9 @@ class IngestReport:
         s = f"{self.source}: added " + (", ".join(parts) if parts else "nothing")
         if upd:
             s += f"; updated {upd} target row(s)"
+        rep = sum(len(v) for v in self.replaced.values())
+        if rep:
+            s += f"; replaced {rep} stored measurement(s)"
         if self.duplicates:
             s += f"; {self.duplicates} row(s) already present"
         return s
@@ -289,7 +323,7 @@ def _read_csv(path: Path, required: tuple[str, ...], errs: _RowErrors) -> list[t
         errs.add(0, "", "no header line and no data")
         errs.raise_if_any()
     reader = csv.reader(lines)
-    header = [h.strip() for h in next(reader)]
+    header = [csv_unquote(h.strip()) for h in next(reader)]
     missing = [c for c in required if c not in header]
     for c in missing:
         errs.add(0, c, "required column is missing")
@@ -302,7 +336,7 @@ def _read_csv(path: Path, required: tuple[str, ...], errs: _RowErrors) -> list[t
         if len(cells) != len(header):
             errs.add(i, "", f"has {len(cells)} fields, the header has {len(header)}")
             continue
-        rows.append((i, {h: c.strip() for h, c in zip(header, cells)}))
+        rows.append((i, {h: csv_unquote(c.strip()) for h, c in zip(header, cells)}))
     if not rows and not errs.issues:
         errs.add(0, "", "header only, no data rows")
     return rows
@@ -344,10 +378,17 @@ def _utc(errs, i, row, col, *, required=True, name="") -> str | None:
     return t.isoformat(timespec="seconds")
 
 
+class _Rows(list):
+    """Parsed rows (dicts) with their data-row numbers in ``numbers``."""
+
+    numbers: list[int]
+
+
 def _check_within_file(table: str, rows: list[tuple[int, dict]], errs: _RowErrors) -> list[dict]:
     """Drop exact repeats inside one file; flag the same key with different values."""
     seen: dict[str, tuple[int, dict]] = {}
-    out = []
+    out = _Rows()
+    out.numbers = []
     vals = _KEYS[table][1]
     for i, r in rows:
         k = _row_key(table, r)
@@ -359,6 +400,7 @@ def _check_within_file(table: str, rows: list[tuple[int, dict]], errs: _RowError
             continue
         seen[k] = (i, r)
         out.append(r)
+        out.numbers.append(i)
     return out
 
 
@@ -500,6 +542,8 @@ class Ledger:
             self._conn.execute("PRAGMA foreign_keys = ON")
             self._migrate()
         except sqlite3.DatabaseError as exc:
+            if is_no_space(exc):
+                raise self._no_space() from exc
             raise LedgerError(f"{self.path}: not a usable ledger database ({exc})") from exc
         self.journal_mode = mode
 
@@ -514,7 +558,22 @@ class Ledger:
         self.close()
 
     def _begin(self):
-        self._conn.execute("BEGIN IMMEDIATE")
+        try:
+            self._conn.execute("BEGIN IMMEDIATE")
+        except sqlite3.OperationalError as exc:
+            if is_no_space(exc):
+                raise self._no_space() from exc
+            raise
+
+    def _rollback(self):
+        """Roll back if a transaction is open (SQLite ends it itself on some errors, a full disk
+        among them, and a second ROLLBACK would hide the real error)."""
+        if self._conn.in_transaction:
+            self._conn.execute("ROLLBACK")
+
+    def _no_space(self) -> LedgerError:
+        return LedgerError(f"no space left on {self.path.parent.absolute()} (ledger {self.path}); "
+                           "nothing was written")
 
     @property
     def schema_version(self) -> int:
@@ -545,8 +604,10 @@ class Ledger:
                 if v == 1:
                     self._migrate_v1_to_v2()
             c.execute("COMMIT")
-        except BaseException:
-            c.execute("ROLLBACK")
+        except BaseException as exc:
+            self._rollback()
+            if is_no_space(exc) and not isinstance(exc, LedgerError):
+                raise self._no_space() from exc
             raise
 
     def _migrate_v1_to_v2(self):
@@ -614,10 +675,62 @@ class Ledger:
         if cur.rowcount:
             report.added.setdefault("targets", []).append({"name": name, "catalogue": None})
 
+    def _same_measurements(self, table: str, rows: list[dict]) -> list[tuple[int, list[tuple]]]:
+        """(index in ``rows``, stored rows [(id, row dict)]) of each new row that repeats a stored
+        measurement under another key (an identical key is the idempotent re-ingest case)."""
+        if table not in ("rv_measurements", "occultation_timings") or not rows:
+            return []
+        cols = ("id", "row_key") + _KEYS[table][0] + _KEYS[table][1]
+        stored: dict[str, list[dict]] = {}
+        for name in sorted({r["target"] for r in rows}):
+            stored[name] = [dict(zip(cols, v)) for v in self._conn.execute(
+                f"SELECT {', '.join(cols)} FROM {table} WHERE target = ?", (name,))]
+        out = []
+        if table == "rv_measurements":
+            import numpy as np
+
+            arrays = {}
+            for name, old in stored.items():
+                old.sort(key=lambda o: o["bjd_tdb"])
+                arrays[name] = np.array([o["bjd_tdb"] for o in old], dtype=float)
+            for n, r in enumerate(rows):
+                t, old = arrays[r["target"]], stored[r["target"]]
+                lo, hi = np.searchsorted(t, [r["bjd_tdb"] - RV_SAME_TIME_D, r["bjd_tdb"] + RV_SAME_TIME_D],
+                                         side="left")
+                key = _row_key(table, r)
+                hits = [old[j] for j in range(lo, hi) if old[j]["row_key"] != key
+                        and abs(old[j]["bjd_tdb"] - r["bjd_tdb"]) <= RV_SAME_TIME_D]
+                if hits:
+                    out.append((n, hits))
+            return out
+        for n, r in enumerate(rows):
+            key = _row_key(table, r)
+            hits = []
+            for o in stored[r["target"]]:
+                if o["row_key"] == key or o["kind"] != r["kind"]:
+                    continue
+                if r["kind"] == "detection":
+                    tol = OCC_SAME_SIGMA * math.hypot(r["mid_err_min"], o["mid_err_min"]) / 1440.0
+                    same = abs(o["mid_bjd_tdb"] - r["mid_bjd_tdb"]) <= tol
+                else:
+                    same = (o["window_start_bjd_tdb"] < r["window_end_bjd_tdb"]
+                            and r["window_start_bjd_tdb"] < o["window_end_bjd_tdb"])
+                if same:
+                    hits.append(o)
+            if hits:
+                out.append((n, hits))
+        return out
+
     def _ingest(self, kind: str, source: str, content_hash: str, table: str | None,
-                rows: list[dict], target_rows: list[tuple[str, str | None, str]] = ()
-                ) -> IngestReport:
-        """Write parsed rows in one transaction; a content hash seen before adds nothing."""
+                rows: list[dict], target_rows: list[tuple[str, str | None, str]] = (),
+                duplicates: str = "refuse") -> IngestReport:
+        """Write parsed rows in one transaction; a content hash seen before adds nothing.
+
+        ``duplicates`` (one of :data:`DUPLICATE_POLICIES`) says what to do with a row that
+        repeats a stored measurement (see the module notes).
+        """
+        if duplicates not in DUPLICATE_POLICIES:
+            raise ValueError(f"duplicates must be one of {DUPLICATE_POLICIES}, got {duplicates!r}")
         report = IngestReport(source=source, kind=kind, content_hash=content_hash)
         delay = float(os.environ.get(_DELAY_ENV, "0") or 0)
         marker = os.environ.get(_MARKER_ENV)
@@ -649,6 +762,22 @@ class Ledger:
                     report.updated.setdefault("targets", []).append(rec)
                 else:
                     report.duplicates += 1
+            if duplicates != "keep_both":
+                same = self._same_measurements(table, rows) if table else []
+                if same and duplicates == "refuse":
+                    numbers = getattr(rows, "numbers", None)
+                    issues = [RowIssue(source, numbers[n] if numbers else n + 1,
+                                       "window_start_bjd_tdb" if rows[n].get("kind") == "non_detection"
+                                       else _MEASURE_COL[table],
+                                       f"the same measurement as the ledger's {_describe(table, old[0])}"
+                                       + (f" (and {len(old) - 1} more)" if len(old) > 1 else ""),
+                                       name=rows[n]["target"]) for n, old in same]
+                    raise DuplicateMeasurementError(source, issues)
+                gone = {o["id"]: o for _n, old in same for o in old}
+                for oid, o in sorted(gone.items()):
+                    c.execute(f"DELETE FROM {table} WHERE id = ?", (oid,))
+                    report.replaced.setdefault(table, []).append(
+                        {k: o[k] for k in _KEYS[table][0] + _KEYS[table][1]})
             conflicts = []
             for n, row in enumerate(rows):
                 self._ensure_target(row["target"], iid, report)
@@ -671,36 +800,41 @@ class Ledger:
             c.execute("UPDATE ingests SET counts_json = ? WHERE id = ?",
                       (json.dumps(report.counts, sort_keys=True), iid))
             c.execute("COMMIT")
-        except BaseException:
-            c.execute("ROLLBACK")
+        except BaseException as exc:
+            self._rollback()
+            if is_no_space(exc) and not isinstance(exc, LedgerError):
+                raise self._no_space() from exc
             raise
         return report
 
     # -- ingest API
-    def ingest_rv_file(self, path: str | os.PathLike, target: str | None = None) -> IngestReport:
-        """Take in an RV CSV (bjd_tdb, rv_ms, rv_err_ms, instrument[, target])."""
+    def ingest_rv_file(self, path: str | os.PathLike, target: str | None = None, *,
+                       duplicates: str = "refuse") -> IngestReport:
+        """Take in an RV CSV (bjd_tdb, rv_ms, rv_err_ms, instrument[, target]); ``duplicates``
+        as in :data:`DUPLICATE_POLICIES`."""
         path = Path(path)
         errs = _RowErrors(str(path))
         rows = _parse_rv(path, target, errs)
         errs.raise_if_any()
         h = _sha256(b"rv\0" + (target or "").encode() + b"\0" + path.read_bytes())
-        return self._ingest("rv", str(path), h, "rv_measurements", rows)
+        return self._ingest("rv", str(path), h, "rv_measurements", rows, duplicates=duplicates)
 
-    def ingest_occultation_file(self, path: str | os.PathLike) -> IngestReport:
+    def ingest_occultation_file(self, path: str | os.PathLike, *, duplicates: str = "refuse") -> IngestReport:
         """Take in a CSV of occultation timings and non-detections (see module docs)."""
         path = Path(path)
         errs = _RowErrors(str(path))
         rows = _parse_occultations(path, errs)
         errs.raise_if_any()
         h = _sha256(b"occultation\0" + path.read_bytes())
-        return self._ingest("occultation", str(path), h, "occultation_timings", rows)
+        return self._ingest("occultation", str(path), h, "occultation_timings", rows,
+                            duplicates=duplicates)
 
     def add_occultation(self, target: str, *, kind: str = "detection",
                         mid_bjd_tdb: float | None = None, mid_err_min: float | None = None,
                         window_start_bjd_tdb: float | None = None,
                         window_end_bjd_tdb: float | None = None,
                         depth_limit_ppm: float | None = None, band_um: float | None = None,
-                        instrument: str = "") -> IngestReport:
+                        instrument: str = "", duplicates: str = "refuse") -> IngestReport:
         """Record one occultation timing or non-detection (validated like a CSV row)."""
         r = {k: ("" if v is None else str(v) if isinstance(v, str) else repr(float(v)))
              for k, v in dict(kind=kind, mid_bjd_tdb=mid_bjd_tdb, mid_err_min=mid_err_min,
@@ -715,7 +849,7 @@ class Ledger:
         errs.raise_if_any()
         h = _sha256(b"occultation-entry\0" + json.dumps(rec, sort_keys=True).encode())
         return self._ingest("occultation", f"occultation entry for {target}", h,
-                            "occultation_timings", [rec])
+                            "occultation_timings", [rec], duplicates=duplicates)
 
     def ingest_done_file(self, path: str | os.PathLike) -> IngestReport:
         """Take in a CSV of observations done (target, start_utc, kind[, end_utc, instrument,
@@ -861,12 +995,9 @@ class Ledger:
         paths.append(atomic_write_text(folder / "targets.jsonl", "".join(x + "\n" for x in lines)))
 
         def table_csv(fname, table, cols):
-            buf = io.StringIO()
-            w = csv.writer(buf, lineterminator="\n")
-            w.writerow(cols)
-            for r in c.execute(f"SELECT {', '.join(cols)} FROM {table} ORDER BY {_ORDER[table]}"):
-                w.writerow(["" if v is None else repr(v) if isinstance(v, float) else v for v in r])
-            paths.append(atomic_write_text(folder / fname, buf.getvalue()))
+            rows = ([repr(v) if isinstance(v, float) else v for v in r]
+                    for r in c.execute(f"SELECT {', '.join(cols)} FROM {table} ORDER BY {_ORDER[table]}"))
+            paths.append(atomic_write_text(folder / fname, csv_text(cols, rows)))
 
         table_csv("rv.csv", "rv_measurements",
                   ["target", "bjd_tdb", "rv_ms", "rv_err_ms", "instrument"])
@@ -939,6 +1070,20 @@ def _same(a, b) -> bool:
     if isinstance(a, float) and isinstance(b, float):
         return a == b or (math.isnan(a) and math.isnan(b))
     return a == b
+
+
+_MEASURE_COL = {"rv_measurements": "bjd_tdb", "occultation_timings": "mid_bjd_tdb"}
+
+
+def _describe(table: str, o: dict) -> str:
+    """A stored measurement in words (for the duplicate message)."""
+    inst = f" ({o['instrument']})" if o.get("instrument") else ""
+    if table == "rv_measurements":
+        return f"RV at BJD_TDB {o['bjd_tdb']:.5f}: {o['rv_ms']:g} +/- {o['rv_err_ms']:g} m/s{inst}"
+    if o["kind"] == "detection":
+        return f"occultation detection at BJD_TDB {o['mid_bjd_tdb']:.5f} +/- {o['mid_err_min']:g} min{inst}"
+    return (f"occultation non-detection over BJD_TDB {o['window_start_bjd_tdb']:.5f}-"
+            f"{o['window_end_bjd_tdb']:.5f}{inst}")
 
 
 def _brief(table: str, row: dict) -> str:

@@ -21,8 +21,6 @@ occultation windows; items that still cannot share the night with more valuable 
 """
 from __future__ import annotations
 
-import csv
-import io
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -262,14 +260,15 @@ def hours_table(plan: CampaignPlan, fmt: str = "md") -> str:
                  str(sum(len(t["rv_visits"]) for t in plan.targets))]
                 + [f"{h:.2f}" for h in hs] + [f"{sum(hs):.2f}"])
     if fmt == "csv":
-        buf = io.StringIO()
-        w = csv.writer(buf, lineterminator="\n")
-        w.writerow(head)
-        w.writerows(rows)
-        return buf.getvalue()
+        from ..io.safety import csv_text
+
+        return csv_text(head, rows)
     if fmt == "md":
-        lines = ["| " + " | ".join(head) + " |", "|" + "|".join(["---"] + ["---:"] * (len(head) - 1)) + "|"]
-        lines += ["| " + " | ".join(r) + " |" for r in rows]
+        from ..io.safety import md_text
+
+        lines = ["| " + " | ".join(md_text(h) for h in head) + " |",
+                 "|" + "|".join(["---"] + ["---:"] * (len(head) - 1)) + "|"]
+        lines += ["| " + " | ".join(md_text(c) for c in r) + " |" for r in rows]
         return "\n".join(lines) + "\n"
 
     def esc(s):

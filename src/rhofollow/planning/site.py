@@ -282,12 +282,17 @@ def _validate(doc: dict, base_dir: Path | None, check_files: bool, source: Path 
               + ", ".join(repr(t) for t in TWILIGHT_SUN_ALTITUDE_DEG))
         twilight = None
     moon_full = c.number(k, "min_moon_separation_deg", "constraints.", required=False, lo=0.0,
-                         hi=180.0, default=0.0)
+                         hi=180.0, default=None)
+    if "min_moon_separation_deg" not in k:
+        moon_full = 0.0
     moon_new = c.number(k, "min_moon_separation_new_deg", "constraints.", required=False, lo=0.0,
                         hi=180.0)
+    # compare the two only when both were given and valid: a rejected full-Moon value must not
+    # give a follow-on message with a value the user never wrote
     if moon_new is not None and moon_full is not None and moon_new > moon_full:
         c.add("constraints.min_moon_separation_new_deg",
               f"must not exceed min_moon_separation_deg (the full-Moon value), got {moon_new} > {moon_full}")
+    moon_full = 0.0 if moon_full is None else moon_full
     ignore_down = k.get("moon_ignore_below_horizon", False)
     if not isinstance(ignore_down, bool):
         c.add("constraints.moon_ignore_below_horizon", f"must be true or false, got {_show(ignore_down)}")

@@ -1,37 +1,113 @@
-"""Write the report folder of a ``plan`` run (every file atomically: write beside, then rename).
+"""Write the report folder of a ``plan`` run.
 
 Layout::
 
     summary.md  summary.html  results.json  results.ecsv  results.csv  night.json  campaign.json
     windows.ics  samples/<target>.ecsv  plots/*.png
 
-The summaries are written last, so a folder with a summary is a complete one.
+Every file is written into a fresh temporary folder beside the target folder, which is swapped
+in by renaming once the whole report is there (the folder it replaces is kept until then, and
+removed after). So a folder with a summary is a complete one, files of an earlier run never
+stay behind, and an interrupted run leaves the earlier report untouched and no half folder.
+Per-target file names are :func:`rhofollow.io.safety.file_stem` of the name: unique and bounded.
 """
 from __future__ import annotations
 
 import io
+import os
+import shutil
+import tempfile
 from pathlib import Path
 
+from ..io.atomic import NoSpaceError, is_no_space, new_dir_mode
+from ..io.safety import file_stem
 from .files import atomic_write_bytes, save_figure
 
-__all__ = ["write_report", "slug", "REPORT_FILES"]
+__all__ = ["write_report", "slug", "REPORT_FILES", "ReportFolderError", "check_report_folder"]
 
 #: Files every report folder holds (besides samples/ and plots/).
 REPORT_FILES = ("summary.md", "summary.html", "results.json", "results.ecsv", "results.csv", "night.json",
                 "campaign.json", "windows.ics")
+_REPORT_DIRS = ("samples", "plots")
+
+
+class ReportFolderError(Exception):
+    """The report folder cannot be (re)placed: it is a file, or holds files not of a report."""
 
 
 def slug(name: str) -> str:
-    """File-name-safe form of a target name."""
-    return "".join(c if c.isalnum() or c in "-_." else "-" for c in name)
+    """File-name stem of a target name (unique and bounded, see :func:`rhofollow.io.safety.file_stem`)."""
+    return file_stem(name)
+
+
+def check_report_folder(out_dir) -> Path:
+    """Check that ``out_dir`` can take a report: missing, empty, or an earlier report folder.
+
+    A folder holding anything else is refused rather than replaced, so pointing ``--out`` at a
+    folder of one's own never deletes its files.
+    """
+    out = Path(out_dir)
+    if out.exists() and not out.is_dir():
+        raise ReportFolderError(f"{out} exists and is not a folder; choose another --out")
+    if out.is_dir():
+        foreign = sorted(p.name for p in out.iterdir()
+                         if not (p.name in REPORT_FILES and p.is_file())
+                         and not (p.name in _REPORT_DIRS and p.is_dir()))
+        if foreign:
+            shown = ", ".join(foreign[:5]) + (f" and {len(foreign) - 5} more" if len(foreign) > 5 else "")
+            raise ReportFolderError(f"{out} holds files that are not part of a report ({shown}); it would be "
+                                    "replaced as a whole, so choose a new or empty folder for --out")
+    return out
 
 
 def _text(path: Path, text: str) -> Path:
     return atomic_write_bytes(path, text.encode("utf-8"))
 
 
-def write_report(result, out_dir, *, plot_targets: int = 10, rv_data: dict | None = None, progress=None) -> dict:
+def write_report(result, out_dir, **kw) -> dict:
     """Write every report file of ``result`` (:class:`rhofollow.pipeline.PipelineResult`) into ``out_dir``.
+
+    The report is built in a temporary folder beside ``out_dir`` and swapped in at the end (see
+    the module notes); keyword arguments as :func:`write_report_files`. The returned ``files``
+    are the final paths inside ``out_dir``. A full disk raises
+    :class:`rhofollow.io.atomic.NoSpaceError` with ``out_dir`` unchanged.
+    """
+    out = check_report_folder(out_dir).absolute()
+    parent = out.parent
+    try:
+        parent.mkdir(parents=True, exist_ok=True)
+        tmp = Path(tempfile.mkdtemp(prefix=f".{out.name[:100]}.", suffix=".partdir", dir=parent))
+    except OSError as exc:
+        if is_no_space(exc):
+            raise NoSpaceError(parent, f"nothing was written ({out} is unchanged)") from exc
+        raise
+    old = None
+    try:
+        os.chmod(tmp, new_dir_mode())
+        written = write_report_files(result, tmp, **kw)
+        if out.exists():
+            old = Path(tempfile.mkdtemp(prefix=f".{out.name[:100]}.", suffix=".old", dir=parent))
+            os.replace(out, old / "report")
+        os.replace(tmp, out)
+    except BaseException as exc:
+        if old is not None and (old / "report").exists() and not out.exists():
+            os.replace(old / "report", out)     # put the earlier report back
+        shutil.rmtree(tmp, ignore_errors=True)
+        if old is not None:
+            shutil.rmtree(old, ignore_errors=True)
+        if isinstance(exc, OSError) and is_no_space(exc):
+            raise NoSpaceError(parent, f"nothing was written ({out} is unchanged)") from exc
+        raise
+    if old is not None:
+        shutil.rmtree(old, ignore_errors=True)
+    written["files"] = [out / Path(f).relative_to(tmp) for f in written["files"]]
+    return written
+
+
+def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict | None = None,
+                       progress=None) -> dict:
+    """Write every report file of ``result`` (:class:`rhofollow.pipeline.PipelineResult`) into the
+    folder ``out_dir`` as it is (no swap; :func:`write_report` calls this on a temporary folder).
 
     Parameters
     ----------

@@ -9,6 +9,7 @@ import base64
 import html
 
 from ..records import CAUTION
+from ..io.safety import md_text
 
 __all__ = ["assumptions", "CAUTIONS", "ranked_table", "markdown_summary", "html_summary"]
 
@@ -83,8 +84,9 @@ def ranked_table(doc: dict, top: int | None = None) -> tuple[list[str], list[lis
 
 
 def _md_table(head, rows) -> str:
-    out = ["| " + " | ".join(head) + " |", "|" + "|".join("---" for _ in head) + "|"]
-    out += ["| " + " | ".join(c.replace("|", "/") for c in r) + " |" for r in rows]
+    """A Markdown table; every cell escaped (:func:`rhofollow.io.safety.md_text`)."""
+    out = ["| " + " | ".join(md_text(c) for c in head) + " |", "|" + "|".join("---" for _ in head) + "|"]
+    out += ["| " + " | ".join(md_text(c) for c in r) + " |" for r in rows]
     return "\n".join(out)
 
 
@@ -94,7 +96,8 @@ def _failed(doc):
 
 def markdown_summary(doc: dict, figures: dict[str, list[str]], night: dict | None) -> str:
     """Markdown text of the summary; ``figures`` maps a section title to relative PNG paths."""
-    lines = [f"# rhofollow plan: {doc['site']}, {doc['start']} to {doc['end']}", "",
+    e = md_text
+    lines = [f"# rhofollow plan: {e(doc['site'])}, {e(doc['start'])} to {e(doc['end'])}", "",
              f"> {CAUTIONS[0]}", ""]
     head, rows = ranked_table(doc)
     lines += ["## Targets by priority", "", _md_table(head, rows), ""]
@@ -103,7 +106,7 @@ def markdown_summary(doc: dict, figures: dict[str, list[str]], night: dict | Non
         lines += ["Hours to request (blocks + overheads): " + ", ".join(f"{k} {v:.1f} h" for k, v in tot.items()),
                   ""]
     if night is not None:
-        lines += [f"## First night ({night.get('date')})", ""]
+        lines += [f"## First night ({e(night.get('date'))})", ""]
         if night.get("blocks"):
             lines += [_md_table(["UTC", "target", "kind", "value", "max airmass"],
                                 [[f"{b['start_utc'][11:16]}-{b['end_utc'][11:16]}", b["name"], b["kind"],
@@ -111,15 +114,15 @@ def markdown_summary(doc: dict, figures: dict[str, list[str]], night: dict | Non
         else:
             lines += ["No block can be scheduled on the first night.", ""]
     for title, paths in figures.items():
-        lines += [f"## {title}", ""] + [f"![{title}]({p})" for p in paths] + [""]
+        lines += [f"## {e(title)}", ""] + [f"![{e(title)}]({p})" for p in paths] + [""]
     bad = _failed(doc)
     if bad:
-        lines += ["## Targets not assessed", ""] + [f"- {t['name']}: {'; '.join(t.get('errors', []))}"
+        lines += ["## Targets not assessed", ""] + [f"- {e(t['name'])}: {e('; '.join(t.get('errors', [])))}"
                                                     for t in bad] + [""]
     lines += ["## Assumptions", ""] + [f"- {a}" for a in doc.get("assumptions", [])] + [""]
     lines += ["## Cautions", ""] + [f"- {c}" for c in doc.get("cautions", CAUTIONS)] + [""]
     if doc.get("notices"):
-        lines += ["## Notices", ""] + [f"- {n}" for n in doc["notices"]] + [""]
+        lines += ["## Notices", ""] + [f"- {e(n)}" for n in doc["notices"]] + [""]
     lines += ["Files: results.json / results.ecsv / results.csv (per target), night.json, campaign.json, "
               "windows.ics, samples/*.ecsv (weighted posterior samples), plots/*.png.", ""]
     return "\n".join(lines)

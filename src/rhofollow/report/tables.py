@@ -9,7 +9,6 @@ e > 0 that fit in the range (0 when RVs cannot confirm it). Ties go to the large
 """
 from __future__ import annotations
 
-import csv
 import io
 import math
 
@@ -177,15 +176,14 @@ def flat_rows(doc: dict, periods: dict | None = None) -> list[dict]:
 
 
 def rows_to_csv(rows: list[dict]) -> str:
-    """CSV text (header from the first row; NaN written as an empty cell)."""
-    buf = io.StringIO()
+    """CSV text (header from the first row; NaN written as an empty cell; text cells that a
+    spreadsheet would run as a formula are quoted, see :mod:`rhofollow.io.safety`)."""
+    from ..io.safety import csv_text
+
     if not rows:
         return ""
-    w = csv.DictWriter(buf, fieldnames=list(rows[0]), lineterminator="\n")
-    w.writeheader()
-    for r in rows:
-        w.writerow({k: ("" if isinstance(v, float) and not math.isfinite(v) else v) for k, v in r.items()})
-    return buf.getvalue()
+    head = list(rows[0])
+    return csv_text(head, ([r.get(k) for k in head] for r in rows))
 
 
 def _unit_of(col: str) -> str:

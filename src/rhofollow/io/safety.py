@@ -1,0 +1,107 @@
+"""Safe forms of user-supplied text in output files: CSV cells, file names and Markdown.
+
+CSV cells
+    A spreadsheet evaluates a cell that starts with ``=``, ``+``, ``-`` or ``@`` (and some also
+    after a leading tab or carriage return) as a formula, so a target name such as
+    ``=HYPERLINK(...)`` would run when a collaborator opens the table. Every CSV the tool writes
+    goes through :func:`csv_text`, which prefixes such text cells with a single quote (the
+    common CSV-injection guidance, common practice, no source). Numbers stay numbers: a float or
+    int cell, and a text cell that is a plain decimal number such as ``-3.2``, are written as
+    they are. A text cell that already starts with a quote gets one more, so that
+    :func:`csv_unquote` undoes the quoting exactly (the ledger's export/import round trip).
+
+File names
+    :func:`file_stem` turns a target name into a bounded, unique file-name stem: a readable slug
+    plus the first 8 hex digits of the SHA-256 of the exact name, so ``a/b``, ``a-b`` and
+    ``a?b`` give three different files and a 300-character name still fits in 255 bytes.
+"""
+from __future__ import annotations
+
+import csv
+import hashlib
+import io
+import math
+import re
+
+__all__ = ["FORMULA_TRIGGERS", "csv_cell", "csv_unquote", "csv_text", "file_stem", "MAX_STEM_BYTES", "md_text"]
+
+#: First characters that make a spreadsheet treat a cell as a formula (plus tab and CR).
+FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
+_QUOTE = "'"
+_PLAIN_NUMBER = re.compile(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?")
+
+#: Longest stem :func:`file_stem` returns, in UTF-8 bytes (slug + "-" + 8 hex digits); leaves
+#: room for a suffix such as ``_ecc_omega.png`` well inside the usual 255-byte name limit.
+MAX_STEM_BYTES = 80
+_SLUG_BYTES = MAX_STEM_BYTES - 9
+
+
+def csv_cell(value):
+    """The value as it goes into a CSV cell: text that a spreadsheet would run is quoted.
+
+    None becomes an empty cell, a non-finite float an empty cell, other numbers are unchanged.
+    """
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return value
+    if isinstance(value, (int, float)):
+        return "" if isinstance(value, float) and not math.isfinite(value) else value
+    s = str(value)
+    if not s:
+        return s
+    if s[0] == _QUOTE:
+        return _QUOTE + s
+    if s[0] in FORMULA_TRIGGERS and not _PLAIN_NUMBER.fullmatch(s):
+        return _QUOTE + s
+    return s
+
+
+def csv_unquote(text: str) -> str:
+    """Undo :func:`csv_cell` on a cell read back (one leading quote before a trigger or a quote)."""
+    if len(text) >= 2 and text[0] == _QUOTE and (text[1] in FORMULA_TRIGGERS or text[1] == _QUOTE):
+        return text[1:]
+    return text
+
+
+def csv_text(header: list[str], rows) -> str:
+    """CSV text (``\\n`` line ends) of ``header`` and ``rows`` (iterables of cells), every cell
+    passed through :func:`csv_cell`."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow([csv_cell(h) for h in header])
+    for r in rows:
+        w.writerow([csv_cell(v) for v in r])
+    return buf.getvalue()
+
+
+def file_stem(name: str) -> str:
+    """A file-name stem for a target name: readable slug, then ``-`` and 8 hex digits of SHA-256.
+
+    The slug keeps letters, digits, ``-``, ``_`` and ``.`` (other characters become ``-``; a
+    leading ``.`` too, so no hidden or ``..`` names) and is cut to fit :data:`MAX_STEM_BYTES`.
+    The hash is of the exact UTF-8 name, so different names give different stems (up to a
+    2^-32 chance per pair).
+    """
+    digest = hashlib.sha256(name.encode("utf-8", "surrogatepass")).hexdigest()[:8]
+    slug = "".join(c if (c.isascii() and c.isalnum()) or c in "-_." else "-" for c in name)
+    slug = re.sub(r"-{2,}", "-", slug).lstrip(".")
+    slug = slug.encode("ascii")[:_SLUG_BYTES].decode("ascii").strip("-") or "target"
+    return f"{slug}-{digest}"
+
+
+_MD_SPECIAL = re.compile(r"([\\`*_\[\]{}#|!~])")
+
+
+def md_text(text) -> str:
+    """Text safe inside Markdown (a table cell, a list item or a heading).
+
+    HTML is escaped (``<script>`` in a target name shows as text in an HTML-capable viewer),
+    Markdown punctuation is backslash-escaped (``|`` no longer splits a table row, ``*``/``_``
+    no longer format), and line breaks become spaces.
+    """
+    import html
+
+    s = html.escape(str(text), quote=False)
+    s = re.sub(r"[\r\n\t\v\f]+", " ", s)
+    return _MD_SPECIAL.sub(r"\\\1", s)
