@@ -151,8 +151,11 @@ def test_interrupted_run_leaves_no_complete_looking_file(tmp_path, monkeypatch):
     rc = main(["plan", str(cat), "--site", str(SITE), *DATES, "--out", str(out), *FAST])
     assert rc == 130
     assert not (out / "summary.md").exists() and not (out / "summary.html").exists()
-    assert not list(out.rglob("*.part"))
-    json.loads((out / "results.json").read_text())  # what exists is complete
+    assert not list(tmp_path.rglob("*.part"))
+    # the report is built in a temporary folder and swapped in at the end: an interrupted first run
+    # leaves no report folder at all (and no half-built temporary folder beside it)
+    assert not out.exists()
+    assert sorted(p.name for p in tmp_path.iterdir() if p.is_dir()) == []
 
 
 def test_atomic_write_interrupted_midway(tmp_path, monkeypatch):
