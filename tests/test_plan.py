@@ -150,12 +150,10 @@ def test_interrupted_run_leaves_no_complete_looking_file(tmp_path, monkeypatch):
     monkeypatch.setattr(plots, "rv_figure", boom)
     rc = main(["plan", str(cat), "--site", str(SITE), *DATES, "--out", str(out), *FAST])
     assert rc == 130
-    assert not (out / "summary.md").exists() and not (out / "summary.html").exists()
-    assert not list(tmp_path.rglob("*.part"))
-    # the report is built in a temporary folder and swapped in at the end: an interrupted first run
-    # leaves no report folder at all (and no half-built temporary folder beside it)
+    # the report is built in a temporary folder and swapped in whole: nothing of it is left
     assert not out.exists()
-    assert sorted(p.name for p in tmp_path.iterdir() if p.is_dir()) == []
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".report.")]
+    assert not list(tmp_path.rglob("*.part"))
 
 
 def test_atomic_write_interrupted_midway(tmp_path, monkeypatch):

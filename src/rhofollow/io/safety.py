@@ -69,9 +69,13 @@ def csv_text(header: list[str], rows) -> str:
     passed through :func:`csv_cell`."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow([csv_cell(h) for h in header])
-    for r in rows:
-        w.writerow([csv_cell(v) for v in r])
+    # the csv module leaves a bare CR unquoted with "\n" line ends; such a (hostile) row is
+    # written with every text cell quoted so that readers keep it in one cell
+    wq = csv.writer(buf, lineterminator="\n", quoting=csv.QUOTE_NONNUMERIC)
+    for r in ([header], rows):
+        for row in r:
+            cells = [csv_cell(v) for v in row]
+            (wq if any(isinstance(c, str) and "\r" in c for c in cells) else w).writerow(cells)
     return buf.getvalue()
 
 
