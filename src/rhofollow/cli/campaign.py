@@ -66,7 +66,7 @@ def run(args) -> int:
         from .night import nothing_to_plan
 
         return nothing_to_plan("campaign", args, prep, {"start": str(start), "end": str(end),
-                                                        "timezone": site.timezone})
+                                                        "timezone": site.timezone, "hours_total": {}})
     nights = []
     with Progress(console=err_console(), transient=True) as prog:
         task = prog.add_task("visibility", total=len(grids))

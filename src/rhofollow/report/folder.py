@@ -81,7 +81,10 @@ def write_report(result, out_dir, *, plot_targets: int = 10, rv_data: dict | Non
 
     # figures: run-level first, then per target in rank order
     ranked = sorted((a for a in ok if ranking.get(a.name, {}).get("rank")), key=lambda a: ranking[a.name]["rank"])
-    chosen = ranked if plot_targets <= 0 else ranked[:plot_targets]
+    # a target that never reaches the site's altitude limit gets no per-target figures (its warning says why)
+    never = getattr(result, "unreachable", {}) or {}
+    plottable = [a for a in ranked if a.name not in never]
+    chosen = plottable if plot_targets <= 0 else plottable[:plot_targets]
     adv = progress("plotting", 3 + 4 * len(chosen))
     figs_md: dict[str, list[str]] = {}
     figs_html: dict[str, list[tuple[str, bytes]]] = {}
