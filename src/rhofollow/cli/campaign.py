@@ -86,7 +86,7 @@ def run(args) -> int:
         from .night import nothing_to_plan
 
         return nothing_to_plan("campaign", args, prep, {"start": str(start), "end": str(end),
-                                                        "timezone": site.timezone})
+                                                        "timezone": site.timezone, "hours_total": {}})
     nights = []
     with count_progress(len(grids), "visibility") as prog:
         task = prog.add_task("visibility", total=len(grids))

@@ -165,7 +165,7 @@ def run(args) -> int:
         raise UserError(f"{exc}") from None
 
     cat = load_catalogue(args.catalog)
-    report_row_issues(cat)
+    report_row_issues(cat, quiet=True)
     assessments = run_assessment(cat.targets, args, label="assessing")
     result = predict_occultations(assessments, args.start, args.end, opts)
     from ..records import envelope

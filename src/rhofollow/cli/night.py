@@ -151,7 +151,8 @@ def run(args) -> int:
                         f"({site.constraints.twilight} twilight never ends)")
     prep = prepare(args, site, jd_to_iso(night.start_jd - 0.5), jd_to_iso(night.end_jd + 0.5))
     if prep.stages is None:
-        return nothing_to_plan("night", args, prep, {"date": str(date), "timezone": site.timezone})
+        return nothing_to_plan("night", args, prep, {"date": str(date), "timezone": site.timezone,
+                                                     "blocks": [], "total_value": 0.0})
     prep.engine = eng
     vis = night_visibility(eng, night, prep.science)
     plan = plan_night(prep.science, vis, site=site.name, night_start_jd=night.start_jd,

@@ -157,9 +157,12 @@ def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict
 
     # figures: run-level first, then per target in rank order
     ranked = sorted((a for a in ok if ranking.get(a.name, {}).get("rank")), key=lambda a: ranking[a.name]["rank"])
-    # no per-target figures for a target that never climbs above the site's altitude limit
+    # no per-target figures for a target that never climbs above the site's altitude limit (its
+    # warning says why): the planners' list, and the geometric check for results built without it
+    never = getattr(result, "unreachable", {}) or {}
     site = getattr(result.engine, "site", None)
-    plottable = [a for a in ranked if site is None or plots.rises_at_site(a.samples.meta.get("dec_deg"), site)]
+    plottable = [a for a in ranked if a.name not in never
+                 and (site is None or plots.rises_at_site(a.samples.meta.get("dec_deg"), site))]
     chosen = plottable if plot_targets <= 0 else plottable[:plot_targets]
     adv = progress("plotting", 3 + 4 * len(chosen))
     figs_md: dict[str, list[str]] = {}

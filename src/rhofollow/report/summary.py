@@ -11,7 +11,7 @@ import html
 from ..records import CAUTION
 from ..io.safety import md_text
 
-__all__ = ["assumptions", "CAUTIONS", "ranked_table", "markdown_summary", "html_summary"]
+__all__ = ["assumptions", "CAUTIONS", "ranked_table", "first_night_table", "markdown_summary", "html_summary"]
 
 #: Cautions every report carries.
 CAUTIONS = [
@@ -83,6 +83,43 @@ def ranked_table(doc: dict, top: int | None = None) -> tuple[list[str], list[lis
     return head, rows[:top] if top else rows
 
 
+def _local_hm(iso_utc: str, tz) -> tuple[str, str]:
+    """('HH:MM', zone abbreviation) of an ISO UTC time in the time zone ``tz`` (a ZoneInfo)."""
+    import datetime as dt
+
+    t = dt.datetime.fromisoformat(iso_utc.replace("Z", "+00:00"))
+    if t.tzinfo is None:
+        t = t.replace(tzinfo=dt.timezone.utc)
+    loc = t.astimezone(tz)
+    return loc.strftime("%H:%M"), loc.tzname() or ""
+
+
+def first_night_table(night: dict) -> tuple[list[str], list[list[str]]]:
+    """(header, rows) of the first night's blocks: local time at the site (its IANA ``timezone``), UTC,
+    target, kind, value, max airmass. Without a usable time zone the local column is left out."""
+    from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+
+    try:
+        tz = ZoneInfo(night["timezone"]) if night.get("timezone") else None
+    except (ZoneInfoNotFoundError, ValueError):
+        tz = None
+    blocks = night.get("blocks", [])
+    rows, zones = [], []
+    for b in blocks:
+        row = [f"{b['start_utc'][11:16]}-{b['end_utc'][11:16]}", b["name"], b["kind"], _f(b["value"], 3),
+               _f(b["airmass_max"])]
+        if tz is not None:
+            (t0, z0), (t1, z1) = _local_hm(b["start_utc"], tz), _local_hm(b["end_utc"], tz)
+            zones += [z0, z1]
+            row.insert(0, f"{t0}-{t1}")
+        rows.append(row)
+    head = ["UTC", "target", "kind", "value", "max airmass"]
+    if tz is not None:
+        names = "/".join(dict.fromkeys(zones)) or night["timezone"]
+        head.insert(0, f"local ({names}, {night['timezone']})")
+    return head, rows
+
+
 def _md_table(head, rows) -> str:
     """A Markdown table; every cell escaped (:func:`rhofollow.io.safety.md_text`)."""
     out = ["| " + " | ".join(md_text(c) for c in head) + " |", "|" + "|".join("---" for _ in head) + "|"]
@@ -108,9 +145,7 @@ def markdown_summary(doc: dict, figures: dict[str, list[str]], night: dict | Non
     if night is not None:
         lines += [f"## First night ({e(night.get('date'))})", ""]
         if night.get("blocks"):
-            lines += [_md_table(["UTC", "target", "kind", "value", "max airmass"],
-                                [[f"{b['start_utc'][11:16]}-{b['end_utc'][11:16]}", b["name"], b["kind"],
-                                  _f(b["value"], 3), _f(b["airmass_max"])] for b in night["blocks"]]), ""]
+            lines += [_md_table(*first_night_table(night)), ""]
         else:
             lines += ["No block can be scheduled on the first night.", ""]
     for title, paths in figures.items():
@@ -156,9 +191,7 @@ def html_summary(doc: dict, figures: dict[str, list[tuple[str, bytes]]], night: 
     if night is not None:
         parts.append(f"<h2>First night ({e(str(night.get('date')))})</h2>")
         if night.get("blocks"):
-            parts.append(_html_table(["UTC", "target", "kind", "value", "max airmass"],
-                                     [[f"{b['start_utc'][11:16]}-{b['end_utc'][11:16]}", b["name"], b["kind"],
-                                       _f(b["value"], 3), _f(b["airmass_max"])] for b in night["blocks"]]))
+            parts.append(_html_table(*first_night_table(night)))
         else:
             parts.append("<p>No block can be scheduled on the first night.</p>")
     for title, figs in figures.items():
