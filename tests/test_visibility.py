@@ -428,3 +428,21 @@ def test_property_window_fraction_bounds(ra, dec, start, hours):
     assert 0.0 <= res.fraction[0] <= 1.0
     if hours > 14:   # longer than any night at latitude -30 (common practice, no source)
         assert not res.in_one_night[0] and not res.fully_observable[0]
+
+
+def test_cli_gives_one_concise_notice_for_dates_past_the_tables(capsys):
+    """night past the installed tables: one 'notice:' line, no raw warning with a source line
+    (issue: a raw OfflineTablesWarning and then a second notice were printed)."""
+    from rhofollow.cli import main
+
+    offline.reset_notice()
+    root = Path(__file__).resolve().parents[1]
+    rc = main(["night", str(root / "examples" / "hts_candidates.csv"), "--site",
+               str(root / "site_configs" / "alto_quemado.toml"), "--date", "2029-05-01",
+               "--samples", "500"])
+    err = capsys.readouterr().err
+    offline.reset_notice()
+    assert rc in (0, 1)
+    notices = [ln for ln in err.splitlines() if "tables" in ln and ln.startswith("notice:")]
+    assert len(notices) == 1, err
+    assert "OfflineTablesWarning" not in err and "warnings.warn" not in err

@@ -167,8 +167,15 @@ def bjd_tdb_to_utc(bjd_tdb, ra_deg, dec_deg, location=None, as_iso=True):
 
 
 def _notice(caught) -> str:
+    """The run's one notice about dates past the installed tables ("" if none, or already given)."""
     if not caught:
         return ""
+    from .planning import offline
+
+    with offline._LOCK:
+        if offline._STATE["notice_given"]:
+            return ""
+        offline._STATE["notice_given"] = True
     return ("some times lie beyond the installed Earth-orientation or leap-second tables "
             "(no download attempted); UTC is extrapolated and may be off by a leap second")
 

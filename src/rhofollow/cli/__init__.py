@@ -36,6 +36,27 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Run one command; offline-table notices print as one ``notice:`` line (no source line)."""
+    import warnings
+
+    from ..planning.offline import OfflineTablesWarning
+    from .render import message
+
+    shown = warnings.showwarning
+
+    def show(msg, category, filename, lineno, file=None, line=None):
+        if issubclass(category, OfflineTablesWarning):
+            message(str(msg), "notice")
+        else:
+            shown(msg, category, filename, lineno, file, line)
+
+    with warnings.catch_warnings():     # restores the filters and showwarning afterwards
+        warnings.simplefilter("always", OfflineTablesWarning)   # a notice, never an error
+        warnings.showwarning = show
+        return _main(argv)
+
+
+def _main(argv: list[str] | None = None) -> int:
     from .common import UserError
     from .render import message
 
