@@ -81,3 +81,28 @@ def test_circular_evidence_far_from_the_data_matches_the_integral():
     z, _ = integrate.quad(f, math.log(1.4) - 1, math.log(7.0) + 1, points=[math.log(1.4 * math.sqrt(5))])
     res = run_hypothesis("circular", obs, pool, HypothesisSetup(), 4000, np.random.default_rng(1))
     assert res.log_evidence == pytest.approx(math.log(z), abs=0.1)
+
+
+def test_ranking_rewards_what_the_data_show_and_puts_unexplained_rows_last():
+    """priority = P(eccentric explanation) x B/(1+B) x testability (README, Ranking): a target the
+    data say nothing about (posterior odds = prior odds, B = 1) scores 0.5 even though its posterior
+    P(e > 0.1) equals the prior's ~0.7; a row no explanation fits ranks after the others.
+    (Ranking rule of this project, common practice, no source.)"""
+    from types import SimpleNamespace
+
+    from rhofollow.report.tables import rank_targets
+
+    def a(name, p_gt, weight, fits=True):
+        return SimpleNamespace(name=name, ok=True, record={
+            "p_ecc_gt_0p1": p_gt, "ecc_data_weight": weight, "fits": fits,
+            "p_explanation": {"eccentric": 1.0}, "density_ratio_sigma": 1.0, "reliable": True})
+
+    names = ("PRIOR-ONLY", "DATA-SAY-ECC", "NOTHING-FITS")
+    result = SimpleNamespace(
+        assessments=[a("PRIOR-ONLY", 0.70, 0.5), a("DATA-SAY-ECC", 0.65, 0.9), a("NOTHING-FITS", 0.99, 0.99, False)],
+        occultations={"targets": [{"name": n, "p_occultation": 1.0} for n in names]},
+        rv=[], campaign={"targets": [{"name": n, "occultation_windows": [1]} for n in names]})
+    r = rank_targets(result)
+    assert r["PRIOR-ONLY"]["priority"] == pytest.approx(0.5)
+    assert r["DATA-SAY-ECC"]["priority"] == pytest.approx(0.9)
+    assert [r[n]["rank"] for n in ("DATA-SAY-ECC", "PRIOR-ONLY", "NOTHING-FITS")] == [1, 2, 3]

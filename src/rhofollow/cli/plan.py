@@ -190,7 +190,8 @@ def _print_summary(written: dict, out: Path, top: int = 8) -> None:
     fitted = summary_table(doc, con.width, top)
     con.print(fitted.table)
     table_note(fitted, "a wider terminal, summary.md or results.csv")
-    say("priority = P(eccentric explanation) × P(e>0.1) × testability; equal priorities rank by the larger "
+    say("priority = P(eccentric explanation) × W × testability, W = B/(1+B) of the posterior-to-prior odds "
+        "of e > 0.1; equal priorities rank by the larger "
         "density mismatch; occ. windows and RV visits placed: what fits at the site in the date range; "
         "?: unreliable quantiles (low effective sample size), ranked after the reliable targets.",
         style="dim")

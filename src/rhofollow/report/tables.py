@@ -17,11 +17,13 @@ from ..samples import QUANTILE_LEVELS
 __all__ = ["PRIORITY_RULE", "rank_targets", "results_document", "flat_rows", "rows_to_csv", "rows_to_ecsv",
            "COLUMN_UNITS"]
 
-PRIORITY_RULE = ("priority = P(eccentric explanation) x P(e > 0.1) x testability; P(eccentric explanation) "
-                 "= the eccentric orbit's share of the explanations' evidence (equal prior odds); testability = max(P(occultation) if an occultation "
+PRIORITY_RULE = ("priority = P(eccentric explanation) x W x testability; P(eccentric explanation) "
+                 "= the eccentric orbit's share of the explanations' evidence (equal prior odds); W = B/(1+B) "
+                 "with B the posterior-to-prior odds of e > 0.1 (what the data add to the prior: 0.5 when they "
+                 "say nothing); testability = max(P(occultation) if an occultation "
                  "window is observable from the site in the range, fraction of the RV visits needed to "
                  "confirm e > 0 that fit in the range); targets with unreliable quantiles (effective "
-                 "sample size below the floor) rank after all reliable ones")
+                 "sample size below the floor) and targets no explanation fits rank after all others")
 
 #: Units of the flat table's columns (ECSV); a column absent here is dimensionless or text.
 COLUMN_UNITS = {"period_d": "d", "rho_circ_cgs": "g / cm3", "rho_star_cgs": "g / cm3", "omega_deg": "deg",
@@ -53,7 +55,11 @@ def rank_targets(result) -> dict:
         t_rv = min(1.0, len(c.get("rv_visits", [])) / need) if need > 0 else 0.0
         test = max(t_occ, t_rv)
         p_model = _num((rec.get("p_explanation") or {}).get("eccentric"), 1.0)
-        out[a.name] = {"priority": round(p_model * _num(rec.get("p_ecc_gt_0p1")) * test, 6),
+        # W rewards what the data show, not the prior: B/(1+B) of the posterior-to-prior odds of
+        # e > 0.1 (a target without information scores 0.5, not the prior's P(e > 0.1) ~ 0.7)
+        w_data = _num(rec.get("ecc_data_weight", rec.get("p_ecc_gt_0p1")))
+        out[a.name] = {"priority": round(p_model * w_data * test, 6), "ecc_data_weight": rec.get("ecc_data_weight"),
+                       "fits": rec.get("fits", True) is not False,
                        "testability": round(test, 6), "p_eccentric_explanation": round(p_model, 6),
                        "p_ecc_gt_0p1": rec.get("p_ecc_gt_0p1"),
                        "reliable": rec.get("reliable") is not False,
@@ -61,7 +67,8 @@ def rank_targets(result) -> dict:
     # Targets with unreliable quantiles (effective sample size below samples.RELIABLE_ESS) rank
     # after every reliable one: their priority is not known well enough to compete.
     ok = sorted((n for n, v in out.items() if v.get("p_ecc_gt_0p1") is not None),
-                key=lambda n: (not out[n]["reliable"], -out[n]["priority"], -out[n]["_tie"], n))
+                key=lambda n: (not out[n]["reliable"], not out[n]["fits"], -out[n]["priority"], -out[n]["_tie"],
+                               n))
     for i, n in enumerate(ok, 1):
         out[n]["rank"] = i
     for v in out.values():
