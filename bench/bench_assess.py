@@ -14,8 +14,8 @@ import time
 
 import numpy as np
 
-from rhofollow.io.table_types import Measurement as M, Target
-from rhofollow.parallel import assess_parallel
+from rhofollow.core.types import Measurement as M, Target
+from rhofollow.core.executor import assess_parallel
 from rhofollow.physics.priors import parse_prior
 from rhofollow.physics.transit import ars_from_rho, eccentric_durations
 

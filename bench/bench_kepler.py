@@ -4,7 +4,7 @@
    against a plain scalar loop of scipy.optimize.newton per element on a subset (same run).
    Prints solves per second of both and the ratio.
 2. Occultation events over one year for many targets with 20,000 weighted samples each
-   (rhofollow.eclipses.predict_occultations: timing, durations, depth, windows, UTC), and the
+   (rhofollow.stages.occultations.predict_occultations: timing, durations, depth, windows, UTC), and the
    per-epoch summary stage against a plain baseline (full re-sort and generic weighted
    quantiles for every epoch).
 
@@ -19,11 +19,11 @@ import time
 
 import numpy as np
 
-from rhofollow.eclipses import predict_occultations
+from rhofollow.stages.occultations import predict_occultations
 from rhofollow.physics.constants import DAY_S, G_SI
 from rhofollow.physics.kepler import solve_kepler, transit_to_occultation_time
 from rhofollow.physics.windows import shortest_interval, summarise_events
-from rhofollow.samples import SampleSet, weighted_quantiles
+from rhofollow.core.samples import SampleSet, weighted_quantiles
 
 
 def bench_solver(n: int, n_scalar: int, rng) -> None:

@@ -26,15 +26,15 @@ ROOT = HERE.parent
 def _chunk_records(args):
     """assess -> eclipses -> rv for one chunk; returns only the records (samples are dropped)."""
     targets, samples, sims, with_rv = args
-    from rhofollow.assess import assess_catalogue
-    from rhofollow.eclipses import predict_occultations
+    from rhofollow.stages.assess import assess_catalogue
+    from rhofollow.stages.occultations import predict_occultations
     from rhofollow.io.instruments import read_instrument
 
     a = assess_catalogue(targets, n_samples=samples, seed=7)
     occ = predict_occultations(a, "2027-01-01", "2027-12-31")["targets"]
     rv = []
     if with_rv:
-        from rhofollow.rvplan import plan_rv
+        from rhofollow.stages.rv import plan_rv
 
         spec = read_instrument(ROOT / "site_configs/instruments/aq_vel.toml")
         rv = plan_rv(a, spec, seed=7, n_null=sims, n_alt=min(400, sims))
@@ -47,7 +47,7 @@ def run_mode(rows, samples, sims, workers, with_rv, chunk=20):
 
     targets = synthetic_rows(rows, seed=3)
     for t in targets:  # the RV stage needs a magnitude
-        from rhofollow.io.table_types import Measurement
+        from rhofollow.core.types import Measurement
         t.values.setdefault("vmag", Measurement(10.5))
     jobs = [(targets[i:i + chunk], samples, sims, with_rv) for i in range(0, rows, chunk)]
     t0 = time.perf_counter()

@@ -37,7 +37,7 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "src"))
 
-from rhofollow.planning.offline import configure_offline  # noqa: E402
+from rhofollow.core.timescales import configure_offline  # noqa: E402
 from rhofollow.planning.site import Constraints, load_site  # noqa: E402
 from rhofollow.planning.visibility import VisibilityEngine  # noqa: E402
 

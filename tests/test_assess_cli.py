@@ -7,7 +7,7 @@ from astropy.table import Table
 
 from rhofollow.cli import main
 from rhofollow.io.safety import file_stem
-from rhofollow.samples import SampleSet
+from rhofollow.core.samples import SampleSet
 
 ROOT = Path(__file__).resolve().parents[1]
 QKEYS = {"q025", "q16", "q50", "q84", "q975"}

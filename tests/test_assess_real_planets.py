@@ -23,9 +23,9 @@ import math
 import numpy as np
 import pytest
 
-from rhofollow.assess import assess_target
-from rhofollow.io.table_types import Measurement as M
-from rhofollow.io.table_types import Target
+from rhofollow.stages.assess import assess_target
+from rhofollow.core.types import Measurement as M
+from rhofollow.core.types import Target
 from rhofollow.physics.transit import eccentric_durations, transit_impact_parameter
 
 N_SAMPLES = 8000

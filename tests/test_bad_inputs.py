@@ -15,19 +15,19 @@ from types import SimpleNamespace
 import numpy as np
 import pytest
 
-from rhofollow import eclipses as eclipses_mod
-from rhofollow import rvplan as rvplan_mod
-from rhofollow.assess import assess_catalogue
+from rhofollow.stages import occultations as eclipses_mod
+from rhofollow.stages import rv as rvplan_mod
+from rhofollow.stages.assess import assess_catalogue
 from rhofollow.cli import main
 from rhofollow.cli.common import write_json
-from rhofollow.eclipses import predict_occultations
+from rhofollow.stages.occultations import predict_occultations
 from rhofollow.io.catalogue import PHYSICAL_RANGES, read_catalogue
 from rhofollow.io.instruments import Spectrograph, read_instruments
 from rhofollow.planning import tasks as tasks_mod
 from rhofollow.planning.tasks import ValueModel, VisGrid, jd_to_iso, occultation_tasks, rv_task
 from rhofollow.report.tables import rank_targets
-from rhofollow.rvplan import plan_rv
-from rhofollow.samples import (QUANTILE_LEVELS, RELIABLE_ESS, SampleSet, kish_ess, quantile_dict,
+from rhofollow.stages.rv import plan_rv
+from rhofollow.core.samples import (QUANTILE_LEVELS, RELIABLE_ESS, SampleSet, kish_ess, quantile_dict,
                                reliability, weighted_quantiles)
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -238,8 +238,7 @@ def test_task_building_failure_is_a_skip_not_a_crash(monkeypatch):
 
 
 def test_ledger_update_failure_stays_with_its_target(monkeypatch):
-    from rhofollow import ledger_update as lu
-
+    from rhofollow.stages import update as lu
     class FakeLedger:
         def rv_measurements(self, name):
             return [object()]
@@ -482,8 +481,7 @@ def test_random_sweep_no_row_sinks_the_run(tmp_path):
 
 
 def test_unexpected_assessment_failure_is_that_targets_error_in_plan(tmp_path, monkeypatch):
-    from rhofollow import assess as assess_mod
-
+    from rhofollow.stages import assess as assess_mod
     real = assess_mod._assess
 
     def flaky(t, *a, **k):

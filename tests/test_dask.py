@@ -7,7 +7,7 @@ import pytest
 distributed = pytest.importorskip("distributed")
 
 from rhofollow.io.catalogue import read_catalogue  # noqa: E402
-from rhofollow.parallel import assess_parallel  # noqa: E402
+from rhofollow.core.executor import assess_parallel  # noqa: E402
 from rhofollow.pipeline import PipelineOptions, run_stages  # noqa: E402
 from rhofollow.planning.site import load_site  # noqa: E402
 

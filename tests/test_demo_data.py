@@ -1,14 +1,14 @@
 """The demo scenario ships as package data (found from a wheel), identical to examples/ and site_configs/."""
 from pathlib import Path
 
-from rhofollow.demo_data import demo_file, demo_root, differences, source_files
+from rhofollow.io.demo_data import demo_file, demo_root, differences, source_files
 
 ROOT = Path(__file__).resolve().parents[1]
 
 
 def test_package_data_is_an_exact_copy_of_the_checkout():
     diffs = differences(ROOT, ROOT / "src" / "rhofollow" / "data" / "demo")
-    assert diffs == [], "run: python -m rhofollow.demo_data sync\n" + "\n".join(diffs)
+    assert diffs == [], "run: python -m rhofollow.io.demo_data sync\n" + "\n".join(diffs)
 
 
 def test_every_user_facing_data_file_is_shipped():

@@ -5,8 +5,8 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st, HealthCheck
 
-from rhofollow.assess import assess_target
-from rhofollow.io.table_types import Measurement as M, Target
+from rhofollow.stages.assess import assess_target
+from rhofollow.core.types import Measurement as M, Target
 from rhofollow.physics.transit import ars_from_rho, eccentric_durations, ecc_min_from_ratio
 
 

@@ -1,4 +1,4 @@
-"""Tests of the occultation library (rhofollow.eclipses), the iCalendar export and the
+"""Tests of the occultation library (rhofollow.stages.occultations), the iCalendar export and the
 `rhofollow eclipses` command."""
 import json
 import warnings
@@ -8,11 +8,11 @@ import numpy as np
 import pytest
 
 from rhofollow.cli import main
-from rhofollow.eclipses import (CAUTION, EclipseInputError, EclipseOptions, bjd_tdb_to_utc,
+from rhofollow.stages.occultations import (CAUTION, EclipseInputError, EclipseOptions, bjd_tdb_to_utc,
                                 predict_occultations)
 from rhofollow.io.calendar import windows_to_ics
 from rhofollow.physics.constants import DAY_S, G_SI
-from rhofollow.samples import SampleSet
+from rhofollow.core.samples import SampleSet
 
 EXAMPLE = Path(__file__).resolve().parents[1] / "examples" / "hts_candidates.csv"
 

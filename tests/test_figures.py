@@ -56,7 +56,7 @@ def _axes(fig):
 
 
 def test_night_chart_leads_with_the_schedule_timeline(night_plan):
-    from rhofollow.report.night_chart import KIND_COLOURS, night_figure
+    from rhofollow.report.schedule_chart import KIND_COLOURS, night_figure
 
     eng, night, sci, plan = night_plan
     fig = night_figure(eng, night, sci, plan)
@@ -85,7 +85,7 @@ def test_night_chart_leads_with_the_schedule_timeline(night_plan):
 
 
 def test_night_chart_has_an_airmass_strip_per_target(night_plan):
-    from rhofollow.report.night_chart import airmass_classes, night_figure
+    from rhofollow.report.schedule_chart import airmass_classes, night_figure
 
     eng, night, sci, plan = night_plan
     fig = night_figure(eng, night, sci, plan)
@@ -116,7 +116,7 @@ def test_night_chart_has_an_airmass_strip_per_target(night_plan):
 
 
 def test_airmass_classes_end_at_the_limit():
-    from rhofollow.report.night_chart import airmass_classes
+    from rhofollow.report.schedule_chart import airmass_classes
 
     assert airmass_classes(2.0) == [1.15, 1.3, 1.5, 2.0]
     assert airmass_classes(1.4) == [1.15, 1.3, 1.4]
@@ -124,7 +124,7 @@ def test_airmass_classes_end_at_the_limit():
 
 
 def test_night_chart_marks_twilight_and_moon_on_a_sky_row(night_plan):
-    from rhofollow.report.night_chart import night_figure
+    from rhofollow.report.schedule_chart import night_figure
 
     eng, night, sci, plan = night_plan
     fig = night_figure(eng, night, sci, plan)
@@ -159,7 +159,7 @@ def test_night_chart_marks_twilight_and_moon_on_a_sky_row(night_plan):
 
 
 def test_night_chart_has_utc_and_local_time(night_plan):
-    from rhofollow.report.night_chart import night_figure
+    from rhofollow.report.schedule_chart import night_figure
 
     eng, night, sci, plan = night_plan
     fig = night_figure(eng, night, sci, plan)
@@ -182,7 +182,7 @@ def test_night_chart_has_utc_and_local_time(night_plan):
 
 
 def test_night_chart_without_blocks_and_lane_limit(night_plan):
-    from rhofollow.report.night_chart import night_figure
+    from rhofollow.report.schedule_chart import night_figure
 
     eng, night, sci, plan = night_plan
     fig = night_figure(eng, night, sci, dict(plan, blocks=[]))
@@ -197,7 +197,7 @@ def test_night_chart_without_blocks_and_lane_limit(night_plan):
 
 
 def test_plot_night_writes_a_png(night_plan, tmp_path):
-    from rhofollow.report.night_chart import plot_night
+    from rhofollow.report.schedule_chart import plot_night
 
     eng, night, sci, plan = night_plan
     p = plot_night(tmp_path / "night.png", eng, night, sci, plan)
@@ -216,11 +216,11 @@ RV_CAT = ("name,period_d,t0_bjd,ra_deg,dec_deg,a_rs,a_rs_err,b,b_err,rp_rs,rp_rs
 
 @pytest.fixture(scope="module")
 def rv_case(tmp_path_factory):
-    from rhofollow.assess import assess_catalogue
+    from rhofollow.stages.assess import assess_catalogue
     from rhofollow.io.catalogue import read_catalogue
     from rhofollow.io.instruments import read_instrument
     from rhofollow.io.rvdata import read_rv_dir
-    from rhofollow.rvplan import plan_rv
+    from rhofollow.stages.rv import plan_rv
 
     p = tmp_path_factory.mktemp("rv") / "hts.csv"
     p.write_text(RV_CAT)
@@ -265,7 +265,7 @@ def test_rv_figure_k_after_measured_rvs_is_the_updated_record_k(rv_case):
 def test_rv_figure_draws_are_the_records_draws(rv_case):
     """The K draws behind the figure are the RV record's: their weighted quantiles equal ``k_ms``."""
     from rhofollow.report.plots import k_summary, record_k_draws
-    from rhofollow.samples import quantile_dict
+    from rhofollow.core.samples import quantile_dict
 
     s, rec, _, _ = rv_case
     k, w = record_k_draws(s, seed=11)

@@ -14,7 +14,7 @@ from hypothesis import given, settings, strategies as st
 
 from rhofollow.io import ledger as ledger_mod
 from rhofollow.io.ledger import IngestError, Ledger, LedgerError, SCHEMA_VERSION
-from rhofollow.io.table_types import Measurement, Target
+from rhofollow.core.types import Measurement, Target
 
 RV_HEADER = "target,bjd_tdb,rv_ms,rv_err_ms,instrument\n"
 

@@ -26,7 +26,7 @@ def _ledger(tmp_path, cat):
 
 
 def test_apply_ledger_updates_records_and_counts(tmp_path):
-    from rhofollow.assess import assess_catalogue
+    from rhofollow.stages.assess import assess_catalogue
     from rhofollow.io.catalogue import read_catalogue
     from rhofollow.pipeline import apply_ledger
 

@@ -12,10 +12,10 @@ import pytest
 
 from rhofollow.cli import main
 from rhofollow.io.ledger import Ledger
-from rhofollow.ledger_update import LedgerUpdateError, update_from_ledger
+from rhofollow.stages.update import LedgerUpdateError, update_from_ledger
 from rhofollow.physics import occultation_timing as ot
 from rhofollow.physics.rv import rv_curve
-from rhofollow.samples import SampleSet
+from rhofollow.core.samples import SampleSet
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 
@@ -244,8 +244,8 @@ def test_update_command_on_the_demo_catalogue(tmp_path, capsys):
 
 
 def test_apply_to_assessments_replaces_samples_of_targets_with_data(tmp_path):
-    from rhofollow.assess import Assessment
-    from rhofollow.ledger_update import apply_to_assessments
+    from rhofollow.stages.assess import Assessment
+    from rhofollow.stages.update import apply_to_assessments
 
     with_data = Assessment("HTS-194", None, True, samples=density_only_samples("HTS-194", 5000, 51))
     without = Assessment("HTS-195", None, True, samples=density_only_samples("HTS-195", 5000, 52))

@@ -13,9 +13,9 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from rhofollow.assess import ESS_FLOOR, assess_target
-from rhofollow.eclipses import predict_occultations
-from rhofollow.io.table_types import Measurement as M, Target
+from rhofollow.stages.assess import ESS_FLOOR, assess_target
+from rhofollow.stages.occultations import predict_occultations
+from rhofollow.core.types import Measurement as M, Target
 from rhofollow.physics.kepler import transit_to_occultation_time
 from rhofollow.physics.transit import ars_from_rho
 

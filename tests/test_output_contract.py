@@ -1,4 +1,4 @@
-"""The output contract shared by every command (rhofollow.records): envelope keys, counts that equal
+"""The output contract shared by every command (rhofollow.stages.records): envelope keys, counts that equal
 the lists they count, one meaning of failure and one exit-status policy (0 all good, 1 some rows or
 targets failed, 2 unusable input)."""
 from __future__ import annotations
@@ -12,7 +12,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from rhofollow.cli import main
-from rhofollow.records import CAUTION, ENVELOPE_KEYS, envelope, exit_status, merge_stage_records
+from rhofollow.stages.records import CAUTION, ENVELOPE_KEYS, envelope, exit_status, merge_stage_records
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "examples" / "hts_candidates.csv"
@@ -53,7 +53,7 @@ def _catalogue(path: Path, extra=()) -> Path:
 @pytest.fixture(autouse=True)
 def dense_fails(monkeypatch):
     """The assessment of DENSE fails (an injected row problem); every other target is untouched."""
-    import rhofollow.assess as assess_mod
+    import rhofollow.stages.assess as assess_mod
 
     real = assess_mod._assess
 
@@ -293,7 +293,7 @@ def test_merge_stage_records_one_meaning_of_failure():
 
 
 def test_one_caution_text_everywhere():
-    from rhofollow import eclipses, rvplan
+    from rhofollow.stages import occultations as eclipses, rv as rvplan
     from rhofollow.planning import night
     from rhofollow.report import summary
 

@@ -46,12 +46,12 @@ def test_json_contract_and_library_equality(cat, tmp_path):
     assert recs["HTS-104"]["ecc_confirmed"] is True
     assert recs["HTS-104"]["ecc_updated"]["q025"] < 0.41 < recs["HTS-104"]["ecc_updated"]["q975"]
     # The CLI JSON equals the library's records for the same inputs and seed.
-    from rhofollow.assess import assess_catalogue
+    from rhofollow.stages.assess import assess_catalogue
     from rhofollow.cli.common import _clean
     from rhofollow.io.catalogue import read_catalogue
     from rhofollow.io.instruments import read_instrument
     from rhofollow.io.rvdata import read_rv_dir
-    from rhofollow.rvplan import plan_rv
+    from rhofollow.stages.rv import plan_rv
 
     a = assess_catalogue(read_catalogue(cat).targets, n_samples=600, seed=7)
     lib = plan_rv(a, read_instrument(VEL), read_rv_dir(ROOT / "examples/rv", {"AQ-VEL"}), seed=7,

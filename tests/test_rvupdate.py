@@ -7,8 +7,8 @@ from rhofollow.io.instruments import Spectrograph
 from rhofollow.io.rvdata import RVData
 from rhofollow.physics.rv import rv_curve, rv_shape
 from rhofollow.physics.rvupdate import conditional_k, lrt_on_data, rv_log_likelihood
-from rhofollow.rvplan import rv_record
-from rhofollow.samples import SampleSet
+from rhofollow.stages.rv import rv_record
+from rhofollow.core.samples import SampleSet
 
 P, T0 = 8.7, 2460100.25
 INST = Spectrograph(name="TEST-SPEC", precision_ref_ms=1.5, vmag_ref=9.0, exposure_ref_s=900.0,

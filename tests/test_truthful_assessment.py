@@ -5,8 +5,8 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from rhofollow.assess import assess_target
-from rhofollow.io.table_types import Measurement as M, Target
+from rhofollow.stages.assess import assess_target
+from rhofollow.core.types import Measurement as M, Target
 from rhofollow.physics.eccentricity import HypothesisSetup, Obs, StarPool, TransitObservables, run_hypothesis
 from rhofollow.physics.priors import measured_prior
 from rhofollow.physics.transit import ars_from_rho

@@ -22,7 +22,7 @@ from astropy.time import Time
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from rhofollow.planning import offline
+from rhofollow.core import timescales as offline
 from rhofollow.planning.site import Constraints, Site, load_site
 from rhofollow.planning.visibility import (NightGrid, VisibilityEngine, datetime_to_jd,
                                            jd_to_datetime_utc)

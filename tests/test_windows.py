@@ -8,7 +8,7 @@ from rhofollow.physics.kepler import transit_to_occultation_time
 from rhofollow.physics.windows import (QUANTILE_PROBS, candidate_epochs, credible_region,
                                        shortest_interval, sorted_weighted_quantiles,
                                        summarise_events, widen)
-from rhofollow.samples import weighted_quantiles
+from rhofollow.core.samples import weighted_quantiles
 
 
 def test_shortest_interval_normal():

@@ -61,9 +61,9 @@ class PipelineOptions:
 class Stages:
     """assess -> eclipses -> rv outputs plus the planners' inputs.
 
-    assessments : list of :class:`rhofollow.assess.Assessment` (input order);
-    occultations : the dict of :func:`rhofollow.eclipses.predict_occultations`;
-    rv : list of RV records (:func:`rhofollow.rvplan.plan_rv`), empty without a spectrograph;
+    assessments : list of :class:`rhofollow.stages.assess.Assessment` (input order);
+    occultations : the dict of :func:`rhofollow.stages.occultations.predict_occultations`;
+    rv : list of RV records (:func:`rhofollow.stages.rv.plan_rv`), empty without a spectrograph;
     science, skipped : :func:`rhofollow.planning.night.science_from_records`;
     instruments : ``{"occultation": name, "rv": name}``; overhead_h : slew + setup per block (h);
     model : the planners' :class:`~rhofollow.planning.tasks.ValueModel`; notices : run-level messages
@@ -139,7 +139,7 @@ def _quiet(label, total):
 
 
 def _instruments(site):
-    from .io.instruments import InstrumentError, Photometer, Spectrograph, read_instruments
+    from rhofollow.io.instruments import InstrumentError, Photometer, Spectrograph, read_instruments
 
     try:
         insts = read_instruments(site.instruments) if site.instruments else {}
@@ -152,7 +152,7 @@ def _instruments(site):
 
 def _rv_chunk(args):
     """Worker: RV records of one chunk of assessments (module level so it pickles)."""
-    from .rvplan import plan_rv
+    from rhofollow.stages.rv import plan_rv
 
     chunk, spec, rv_data, kw = args
     return plan_rv(chunk, spec, rv_data, **kw)
@@ -163,8 +163,8 @@ def _rv_records(assessments, spec, opts: PipelineOptions, kw: dict, advance) -> 
 
     Each target's RV draws depend on (seed, name, stage) only, so every mode gives the same records.
     """
-    from .parallel import chunked
-    from .rvplan import plan_rv
+    from rhofollow.core.executor import chunked
+    from rhofollow.stages.rv import plan_rv
 
     workers = max(1, int(opts.workers or 1))
     if not opts.dask_address and (workers <= 1 or len(assessments) < 2):
@@ -200,12 +200,12 @@ def apply_ledger(path, assessments) -> tuple[dict, set, list]:
     eccentricity summaries of its record, and returns (RV visits done per target, targets whose
     occultation was measured, notices).
     """
-    from .io.ledger import Ledger, LedgerError
+    from rhofollow.io.ledger import Ledger, LedgerError
     import sqlite3
 
-    from .eclipses import describe_failure
-    from .ledger_update import apply_to_assessments
-    from .samples import kish_ess, reliability
+    from rhofollow.stages.occultations import describe_failure
+    from rhofollow.stages.update import apply_to_assessments
+    from rhofollow.core.samples import kish_ess, reliability
 
     try:
         lg = Ledger(path)
@@ -242,8 +242,8 @@ def _assess_one_by_one(targets, opts: PipelineOptions, prior) -> list:
     """Assess target by target in this process; an unexpected failure becomes that target's error.
 
     Each target's draws depend on (seed, name) only, so the results equal the batch's."""
-    from .assess import Assessment, assess_target
-    from .eclipses import describe_failure
+    from rhofollow.stages.assess import Assessment, assess_target
+    from rhofollow.stages.occultations import describe_failure
 
     out = []
     for t in targets:
@@ -272,8 +272,8 @@ def stage_failures(assessments, occ_targets, rv_records) -> list[str]:
 def _science_contained(assessments, occ_targets, rv_records, n_done):
     """:func:`~rhofollow.planning.night.science_from_records` target by target: a target whose
     science entry cannot be built is skipped with the reason; the others are planned."""
-    from .eclipses import describe_failure
-    from .planning.night import science_from_records
+    from rhofollow.stages.occultations import describe_failure
+    from rhofollow.planning.night import science_from_records
 
     failed = stage_failures(assessments, occ_targets, rv_records)
     occ = {r["name"]: r for r in occ_targets or []}
@@ -306,11 +306,11 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
     options : :class:`PipelineOptions`
     progress : optional stage-progress callback (:data:`StageProgress`)
     """
-    from .eclipses import EclipseInputError, EclipseOptions, predict_occultations
-    from .parallel import assess_parallel
-    from .physics.priors import DEFAULT_PRIOR, parse_prior
-    from .planning.reach import unreachable_targets
-    from .planning.tasks import ValueModel
+    from rhofollow.stages.occultations import EclipseInputError, EclipseOptions, predict_occultations
+    from rhofollow.core.executor import assess_parallel
+    from rhofollow.physics.priors import DEFAULT_PRIOR, parse_prior
+    from rhofollow.planning.reach import unreachable_targets
+    from rhofollow.planning.tasks import ValueModel
     opts = options or PipelineOptions()
     progress = progress or _quiet
     try:
@@ -380,7 +380,7 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
 def planner_targets(stages: Stages) -> list[dict]:
     """One contract record per assessed target (input order): failed when its assessment, occultation
     prediction or RV plan failed; warnings of every stage plus "never rises at the site"."""
-    from .records import merge_stage_records
+    from rhofollow.stages.records import merge_stage_records
 
     recs = [a.record or {"name": a.name, "ok": a.ok, "errors": list(a.errors), "warnings": list(a.warnings)}
             for a in stages.assessments]
@@ -391,13 +391,13 @@ def planner_targets(stages: Stages) -> list[dict]:
 
 def night_document(plan, stages: Stages, site, date, seed, samples, catalogue=None,
                    command: str = "night") -> dict:
-    """The ``night`` JSON: the output envelope (:mod:`rhofollow.records`) around the night plan.
+    """The ``night`` JSON: the output envelope (:mod:`rhofollow.stages.records`) around the night plan.
 
     Targets carry ``n_blocks`` (blocks chosen for them tonight) and ``never_rises``; the plan's keys
     (``blocks``, ``total_value``, ...) and ``date``, ``timezone``, ``instruments``, ``notices``,
     ``samples`` follow the envelope.
     """
-    from .records import envelope
+    from rhofollow.stages.records import envelope
 
     body = plan.to_dict()
     skipped = stages.skipped + body.pop("skipped")
@@ -420,7 +420,7 @@ def campaign_document(plan, stages: Stages, site, start, end, seed, samples, cat
     ``rv_visits_needed``, ``n_windows_unobservable``, ``notes``; empty for a failed target) and
     ``never_rises``.
     """
-    from .records import envelope
+    from rhofollow.stages.records import envelope
 
     body = plan.to_dict()
     camp = {t["name"]: t for t in body.pop("targets")}
@@ -443,7 +443,7 @@ def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: Pipelin
 
     Runs :func:`run_stages` over the dark time of the range, then the visibility of every night, the
     nightly plan of the first dark night and the campaign plan. ``catalogue`` (the reader's
-    :class:`~rhofollow.io.table_types.CatalogueResult`, optional) puts the catalogue path and its row
+    :class:`~rhofollow.core.types.CatalogueResult`, optional) puts the catalogue path and its row
     problems into the night and campaign documents.
 
     Raises
@@ -451,10 +451,10 @@ def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: Pipelin
     PipelineError
         End before start, too many nights, no dark time in the range, bad prior or instrument file.
     """
-    from .planning.campaign import NightVis, plan_campaign
-    from .planning.night import night_visibility, plan_night
-    from .planning.tasks import jd_to_iso
-    from .planning.visibility import VisibilityEngine
+    from rhofollow.planning.campaign import NightVis, plan_campaign
+    from rhofollow.planning.night import night_visibility, plan_night
+    from rhofollow.planning.tasks import jd_to_iso
+    from rhofollow.planning.visibility import VisibilityEngine
 
     opts = options or PipelineOptions()
     progress = progress or _quiet

@@ -8,7 +8,7 @@ import argparse
 import importlib
 import sys
 
-from .. import __version__
+from rhofollow import __version__
 
 #: Command modules in the order they appear in ``--help``. A module that is not present yet is
 #: skipped, so commands can be added one file at a time.
@@ -39,8 +39,8 @@ def main(argv: list[str] | None = None) -> int:
     """Run one command; offline-table notices print as one ``notice:`` line (no source line)."""
     import warnings
 
-    from ..planning.offline import OfflineTablesWarning
-    from .render import message
+    from rhofollow.core.timescales import OfflineTablesWarning
+    from rhofollow.cli.render import message
 
     shown = warnings.showwarning
 
@@ -57,8 +57,8 @@ def main(argv: list[str] | None = None) -> int:
 
 
 def _main(argv: list[str] | None = None) -> int:
-    from .common import UserError
-    from .render import message
+    from rhofollow.cli.common import UserError
+    from rhofollow.cli.render import message
 
     parser = build_parser()
     args = parser.parse_args(argv)
@@ -71,7 +71,7 @@ def _main(argv: list[str] | None = None) -> int:
         message(exc, "error")
         return 2
     except OSError as exc:
-        from ..io.atomic import NoSpaceError, is_no_space
+        from rhofollow.io.atomic import NoSpaceError, is_no_space
 
         if not (isinstance(exc, NoSpaceError) or is_no_space(exc)) or args.debug:
             if args.debug:

@@ -5,9 +5,9 @@ from pathlib import Path
 
 from rich.text import Text
 
-from .common import (add_assess_options, add_json_option, console, load_catalogue, report_row_issues,
+from rhofollow.cli.common import (add_assess_options, add_json_option, console, load_catalogue, report_row_issues,
                      write_json, atomic_write_text)
-from .render import Col, FittedTable, fit_table, message, say, table_note
+from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run", "summary_table", "assessment_table"]
 
@@ -96,7 +96,7 @@ def write_samples(assessments, directory) -> int:
     for a in assessments:
         if a.samples is None:
             continue
-        from ..io.safety import file_stem
+        from rhofollow.io.safety import file_stem
 
         safe = file_stem(a.name)
         tab = a.samples.to_table()
@@ -110,8 +110,8 @@ def write_samples(assessments, directory) -> int:
 
 def _stream(targets, args):
     """Assess in chunks, writing samples as they come and keeping only the records (bounded memory)."""
-    from ..parallel import assess_stream
-    from .common import checked_prior, count_progress
+    from rhofollow.core.executor import assess_stream
+    from rhofollow.cli.common import checked_prior, count_progress
 
     prior = checked_prior(args)
     kept = []
@@ -144,7 +144,7 @@ def run(args) -> int:
         for e in a.errors:
             message(f"{a.name}: {e}", "error")
     say(CAUTION, style="dim")
-    from ..records import envelope
+    from rhofollow.stages.records import envelope
 
     payload = envelope("assess", catalogue=result, seed=args.seed, targets=records,
                        payload={"prior": args.ecc_prior, "samples": args.samples, "caveat": CAUTION})

@@ -2,8 +2,8 @@
 with the hours to request per instrument."""
 from __future__ import annotations
 
-from .common import UserError, add_json_option, add_plan_options, atomic_write_text, console, write_json
-from .render import Col, FittedTable, fit_table, message, say, table_note
+from rhofollow.cli.common import UserError, add_json_option, add_plan_options, atomic_write_text, console, write_json
+from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run"]
 
@@ -60,13 +60,13 @@ def campaign_table(doc: dict, plan, site_name: str, start, end, n_nights: int, w
 
 
 def run(args) -> int:
-    from .common import count_progress
+    from rhofollow.cli.common import count_progress
 
-    from ..planning.campaign import NightVis, hours_table, plan_campaign, to_ical
-    from ..planning.night import CAUTION, night_visibility
-    from ..planning.tasks import jd_to_iso
-    from ..planning.visibility import VisibilityEngine
-    from .night import load_site_arg, prepare
+    from rhofollow.planning.campaign import NightVis, hours_table, plan_campaign, to_ical
+    from rhofollow.planning.night import CAUTION, night_visibility
+    from rhofollow.planning.tasks import jd_to_iso
+    from rhofollow.planning.visibility import VisibilityEngine
+    from rhofollow.cli.night import load_site_arg, prepare
 
     start, end = _date(args.start, "--start"), _date(args.end, "--end")
     if end < start:
@@ -83,7 +83,7 @@ def run(args) -> int:
         raise UserError(f"no dark time at {site.name} between {start} and {end}")
     prep = prepare(args, site, jd_to_iso(grids[0].start_jd - 0.5), jd_to_iso(grids[-1].end_jd + 0.5))
     if prep.stages is None:
-        from .night import nothing_to_plan
+        from rhofollow.cli.night import nothing_to_plan
 
         return nothing_to_plan("campaign", args, prep, {"start": str(start), "end": str(end),
                                                         "timezone": site.timezone, "hours_total": {}})
@@ -95,7 +95,7 @@ def run(args) -> int:
             prog.advance(task)
     plan = plan_campaign(prep.science, nights, site=site.name, overhead_h=prep.overhead_h,
                          instruments=prep.instruments, model=prep.model)
-    from ..pipeline import campaign_document
+    from rhofollow.pipeline import campaign_document
 
     full = campaign_document(plan, prep.stages, site, start, end, args.seed, args.samples, prep.catalogue)
     # the terminal table lists the planned targets (failed ones are reported below it)

@@ -3,14 +3,14 @@
 Exit status: 0 when every row passed, 1 when any row (or column) failed or the site file has
 problems, 2 when a file cannot be used at all. With both a catalogue and ``--site``, every target
 that never reaches the site's altitude limit gets a warning (it would never be planned there).
-The JSON is the common envelope (:mod:`rhofollow.records`); ``rows`` lists every data row.
+The JSON is the common envelope (:mod:`rhofollow.stages.records`); ``rows`` lists every data row.
 """
 from __future__ import annotations
 
 from rich.text import Text
 
-from .common import UserError, add_json_option, console, write_json
-from .render import Col, FittedTable, fit_table, message, say, table_note
+from rhofollow.cli.common import UserError, add_json_option, console, write_json
+from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run", "report_dict"]
 
@@ -131,7 +131,7 @@ def _never_rising(site_path, result) -> dict[str, str]:
 
 def run(args) -> int:
     from rhofollow.io.catalogue import CatalogueError, read_catalogue
-    from rhofollow.records import envelope
+    from rhofollow.stages.records import envelope
 
     if not args.catalog and not args.site:
         raise UserError("give a catalogue file to check, or --site FILE, or both")

@@ -7,7 +7,7 @@ from pathlib import Path
 
 from rich.console import Console
 
-from ..io.atomic import atomic_write_text
+from rhofollow.io.atomic import atomic_write_text
 
 __all__ = ["UserError", "atomic_write_text", "console", "err_console", "add_json_option", "add_seed_option",
            "write_json", "atomic_write_text", "json_default"]
@@ -84,8 +84,8 @@ def write_json(path, obj) -> Path:
 
 def add_assess_options(p) -> None:
     """Options of the assessment stage (shared by assess, eclipses, rv, night, campaign, plan)."""
-    from ..assess import DEFAULT_N_SAMPLES
-    from ..physics.priors import DEFAULT_PRIOR, PRIOR_NAMES
+    from rhofollow.stages.assess import DEFAULT_N_SAMPLES
+    from rhofollow.physics.priors import DEFAULT_PRIOR, PRIOR_NAMES
 
     p.add_argument("--samples", type=int, default=DEFAULT_N_SAMPLES, metavar="N",
                    help=f"posterior samples per target (default {DEFAULT_N_SAMPLES})")
@@ -139,7 +139,7 @@ def stage_progress(transient: bool = True):
 
 def report_row_issues(result, quiet: bool = False) -> None:
     """Print the catalogue's row problems to stderr (one line each, never wrapped) and a summary line."""
-    from .render import message
+    from rhofollow.cli.render import message
 
     for issue in result.issues:
         if not quiet or issue.severity == "error":
@@ -151,7 +151,7 @@ def report_row_issues(result, quiet: bool = False) -> None:
 
 def load_catalogue(path, require_coords: bool = False):
     """Read and validate a catalogue; file-level problems become a :class:`UserError`."""
-    from ..io.catalogue import CatalogueError, read_catalogue
+    from rhofollow.io.catalogue import CatalogueError, read_catalogue
 
     try:
         return read_catalogue(path, require_coords=require_coords)
@@ -163,7 +163,7 @@ def load_catalogue(path, require_coords: bool = False):
 
 def checked_prior(args):
     """The eccentricity prior and sample count of the assessment options, checked (UserError if bad)."""
-    from ..physics.priors import parse_prior
+    from rhofollow.physics.priors import parse_prior
 
     try:
         prior = parse_prior(args.ecc_prior)
@@ -185,7 +185,7 @@ def count_progress(total: int, label: str = "assessing"):
 
 def run_assessment(targets, args, label: str = "assessing"):
     """Run the assessment with a progress bar on stderr; returns the list of Assessments."""
-    from ..parallel import assess_parallel
+    from rhofollow.core.executor import assess_parallel
 
     prior = checked_prior(args)
     with count_progress(len(targets), label) as prog:

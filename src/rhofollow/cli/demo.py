@@ -3,8 +3,8 @@
 The invented Heliotrope Transit Survey candidates (examples/hts_candidates.csv) at the invented Alto
 Quemado Observatory (site_configs/alto_quemado.toml), over the coming two months, with settings that
 keep the run short (8000 samples per target, 500 simulated RV tests). The files are read from the
-package data (rhofollow/data/demo, see :mod:`rhofollow.demo_data`), so the demo works from a wheel.
-Exit status as every command (:mod:`rhofollow.records`).
+package data (rhofollow/data/demo, see :mod:`rhofollow.io.demo_data`), so the demo works from a wheel.
+Exit status as every command (:mod:`rhofollow.stages.records`).
 """
 from __future__ import annotations
 
@@ -15,7 +15,7 @@ __all__ = ["register", "run"]
 
 
 def register(subparsers):
-    from .plan import add_plan_options
+    from rhofollow.cli.plan import add_plan_options
 
     p = subparsers.add_parser(
         "demo", help="run the whole chain on the bundled demo scenario into ./rhofollow-report",
@@ -27,8 +27,8 @@ def register(subparsers):
 
 
 def run(args) -> int:
-    from .render import message
-    from .plan import DEMO_DAYS, _print_summary, demo_paths, plan_to_folder, site_evening_date
+    from rhofollow.cli.render import message
+    from rhofollow.cli.plan import DEMO_DAYS, _print_summary, demo_paths, plan_to_folder, site_evening_date
 
     cat, site = demo_paths()
     start = site_evening_date(site)

@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 from rich.text import Text
 
-from .common import (UserError, add_assess_options, add_json_option, console, err_console,
+from rhofollow.cli.common import (UserError, add_assess_options, add_json_option, console, err_console,
                      load_catalogue, report_row_issues, run_assessment, write_json)
-from .render import Col, FittedTable, fit_table, message, say, table_note
+from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run", "parse_band", "read_filter_curve", "events_table"]
 
@@ -148,7 +148,7 @@ def _q2(d, nd):
 
 
 def run(args) -> int:
-    from ..eclipses import EclipseInputError, EclipseOptions, predict_occultations
+    from rhofollow.stages.occultations import EclipseInputError, EclipseOptions, predict_occultations
 
     opts = EclipseOptions(coverage=args.coverage, baseline_h=args.baseline,
                           location=_location(args.location))
@@ -168,7 +168,7 @@ def run(args) -> int:
     report_row_issues(cat, quiet=True)
     assessments = run_assessment(cat.targets, args, label="assessing")
     result = predict_occultations(assessments, args.start, args.end, opts)
-    from ..records import envelope
+    from rhofollow.stages.records import envelope
 
     doc = envelope("eclipses", catalogue=cat, seed=args.seed, targets=result["targets"],
                    caution=result["caution"],
@@ -190,7 +190,7 @@ def run(args) -> int:
     if args.json:
         write_json(args.json, doc)
     if args.ics:
-        from ..io.calendar import write_ics
+        from rhofollow.io.calendar import write_ics
 
         write_ics(args.ics, doc)
     return doc["exit_status"]

@@ -9,14 +9,14 @@ from __future__ import annotations
 
 import argparse
 
-from .common import UserError, add_json_option, add_seed_option, console, write_json
-from .render import Col, FittedTable, fit_table, message, print_table, say, table_note
+from rhofollow.cli.common import UserError, add_json_option, add_seed_option, console, write_json
+from rhofollow.cli.render import Col, FittedTable, fit_table, message, print_table, say, table_note
 
 __all__ = ["register", "run"]
 
 
 def _ledger_parent() -> argparse.ArgumentParser:
-    from ..io.ledger import DEFAULT_LEDGER
+    from rhofollow.io.ledger import DEFAULT_LEDGER
 
     p = argparse.ArgumentParser(add_help=False)
     p.add_argument("--ledger", metavar="PATH", default=DEFAULT_LEDGER,
@@ -36,7 +36,7 @@ def _add_duplicate_options(s) -> None:
 
 
 def register(subparsers) -> None:
-    from ..io.ledger import OBSERVATION_KINDS, OBSERVATION_OUTCOMES
+    from rhofollow.io.ledger import OBSERVATION_KINDS, OBSERVATION_OUTCOMES
 
     p = subparsers.add_parser(
         "log", help="the campaign ledger: record RVs, occultation timings and observations done",
@@ -130,7 +130,7 @@ def run(args) -> int:  # pragma: no cover - dispatch happens through the sub-com
 
 
 def _open(args):
-    from ..io.ledger import Ledger, LedgerError
+    from rhofollow.io.ledger import Ledger, LedgerError
 
     try:
         return Ledger(args.ledger)
@@ -139,7 +139,7 @@ def _open(args):
 
 
 def _ingest(args, fn) -> int:
-    from ..io.ledger import LedgerError
+    from rhofollow.io.ledger import LedgerError
 
     with _open(args) as lg:
         try:
@@ -185,7 +185,7 @@ def _brief(row: dict) -> str:
 
 
 def _run_targets(args) -> int:
-    from ..io.catalogue import CatalogueError, read_catalogue
+    from rhofollow.io.catalogue import CatalogueError, read_catalogue
 
     try:
         res = read_catalogue(args.catalog)
@@ -321,7 +321,7 @@ def _run_import(args) -> int:
 
 
 def _run_update(args) -> int:
-    from ..ledger_update import update_targets
+    from rhofollow.stages.update import update_targets
 
     if args.samples < 100:
         raise UserError("--samples must be at least 100")
@@ -342,7 +342,7 @@ def _run_update(args) -> int:
                   + ("" if r["stored_new_version"] else "; version already stored"))
         for w in r["warnings"]:
             message(f"{r['name']}: {w}", "warning")
-    from ..records import envelope
+    from rhofollow.stages.records import envelope
 
     doc = envelope("log update", seed=args.seed, targets=records,
                    payload={"ledger": str(args.ledger), "samples": args.samples, "jitter_ms": args.jitter,

@@ -4,9 +4,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-from .common import (UserError, add_json_option, add_plan_options, console, load_catalogue,
+from rhofollow.cli.common import (UserError, add_json_option, add_plan_options, console, load_catalogue,
                      report_row_issues, stage_progress, write_json)
-from .render import Col, FittedTable, fit_table, message, say, table_note
+from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run", "prepare", "Prepared", "load_site_arg"]
 
@@ -45,7 +45,7 @@ class Prepared:
 
 def load_site_arg(path):
     """The site file named by ``--site`` (a :class:`UserError` naming file and key if invalid)."""
-    from ..planning.site import ConfigError, load_site
+    from rhofollow.planning.site import ConfigError, load_site
 
     try:
         return load_site(path)
@@ -56,8 +56,8 @@ def load_site_arg(path):
 def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
     """Read the catalogue, run assess -> eclipses -> rv for [start_iso, end_iso] (UTC) at ``site``
     (through :func:`rhofollow.pipeline.run_stages`, with the ledger when ``--ledger`` is given)."""
-    from ..pipeline import PipelineError, PipelineOptions, run_stages
-    from ..planning.visibility import VisibilityEngine
+    from rhofollow.pipeline import PipelineError, PipelineOptions, run_stages
+    from rhofollow.planning.visibility import VisibilityEngine
 
     if args.samples < 200:
         raise UserError(f"--samples must be at least 200, got {args.samples}")
@@ -79,7 +79,7 @@ def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
 
 def nothing_to_plan(command: str, args, prep: Prepared, payload: dict) -> int:
     """Every catalogue row failed validation: say so, write the envelope (row errors only), exit 1."""
-    from ..records import envelope
+    from rhofollow.stages.records import envelope
 
     message(f"{args.catalog}: no valid target rows to plan", "error")
     doc = envelope(command, catalogue=prep.catalogue, seed=args.seed,
@@ -99,7 +99,7 @@ def _utc(iso: str) -> str:
 
 def night_table(doc: dict, eng, night, site, date, instruments: dict, width: int = 80) -> FittedTable:
     """The night's blocks in time order, with the columns that fit ``width``."""
-    from ..planning.tasks import jd_to_iso
+    from rhofollow.planning.tasks import jd_to_iso
 
     tz = eng.local_time(night.start_jd).tzname()
     title = (f"{site.name}: night of {date} ({_local(eng, night.start_jd)}-{_local(eng, night.end_jd)} {tz}, "
@@ -128,8 +128,8 @@ def night_table(doc: dict, eng, night, site, date, instruments: dict, width: int
 def run(args) -> int:
     import datetime as dt
 
-    from ..planning.night import CAUTION, night_visibility, plan_night
-    from ..planning.tasks import jd_to_iso
+    from rhofollow.planning.night import CAUTION, night_visibility, plan_night
+    from rhofollow.planning.tasks import jd_to_iso
 
     if args.date:
         try:
@@ -138,7 +138,7 @@ def run(args) -> int:
             raise UserError(f"--date must be YYYY-MM-DD, got {args.date!r}") from None
     else:
         date = None
-    from ..planning.visibility import VisibilityEngine
+    from rhofollow.planning.visibility import VisibilityEngine
 
     if args.samples < 200:
         raise UserError(f"--samples must be at least 200, got {args.samples}")
@@ -157,7 +157,7 @@ def run(args) -> int:
     vis = night_visibility(eng, night, prep.science)
     plan = plan_night(prep.science, vis, site=site.name, night_start_jd=night.start_jd,
                       night_end_jd=night.end_jd, overhead_h=prep.overhead_h, model=prep.model)
-    from ..pipeline import night_document
+    from rhofollow.pipeline import night_document
 
     doc = night_document(plan, prep.stages, site, date, args.seed, args.samples, prep.catalogue)
 
@@ -184,7 +184,7 @@ def run(args) -> int:
         write_json(args.json, doc)
         message(f"wrote {args.json}")
     if args.plot:
-        from ..report.night_chart import plot_night
+        from rhofollow.report.schedule_chart import plot_night
 
         plot_night(args.plot, eng, night, prep.science, doc)
         message(f"wrote {args.plot}")

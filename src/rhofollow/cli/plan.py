@@ -9,8 +9,8 @@ from __future__ import annotations
 import datetime as dt
 from pathlib import Path
 
-from .common import UserError, add_seed_option, console, stage_progress
-from .render import Col, FittedTable, fit_table, message, say, table_note
+from rhofollow.cli.common import UserError, add_seed_option, console, stage_progress
+from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run", "demo_paths", "plan_to_folder", "DEMO_DAYS"]
 
@@ -30,8 +30,8 @@ def register(subparsers):
 
 def add_plan_options(p, demo: bool = False) -> None:
     """Options shared by ``plan`` and ``demo``."""
-    from ..assess import DEFAULT_N_SAMPLES
-    from ..physics.priors import DEFAULT_PRIOR
+    from rhofollow.stages.assess import DEFAULT_N_SAMPLES
+    from rhofollow.physics.priors import DEFAULT_PRIOR
 
     if not demo:
         p.add_argument("catalog", metavar="CATALOG", nargs="?",
@@ -62,9 +62,9 @@ def add_plan_options(p, demo: bool = False) -> None:
 
 
 def demo_paths() -> tuple[Path, Path]:
-    """The bundled demo catalogue and site: package data (:mod:`rhofollow.demo_data`), so the demo
+    """The bundled demo catalogue and site: package data (:mod:`rhofollow.io.demo_data`), so the demo
     runs from a wheel as from a source checkout."""
-    from ..demo_data import demo_file
+    from rhofollow.io.demo_data import demo_file
 
     try:
         return (demo_file("examples/hts_candidates.csv"), demo_file("site_configs/alto_quemado.toml"))
@@ -85,12 +85,12 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
 
     A catalogue without a valid row writes no folder: the dict then has ``doc`` (the envelope with the
     row errors) and no ``files``."""
-    from ..io.rvdata import RVDataError, read_rv_data
-    from ..pipeline import PipelineError, PipelineOptions, run_pipeline
-    from ..io.atomic import NoSpaceError
-    from ..report.folder import ReportFolderError, check_report_folder, write_report
-    from .common import load_catalogue, report_row_issues
-    from .night import load_site_arg
+    from rhofollow.io.rvdata import RVDataError, read_rv_data
+    from rhofollow.pipeline import PipelineError, PipelineOptions, run_pipeline
+    from rhofollow.io.atomic import NoSpaceError
+    from rhofollow.report.folder import ReportFolderError, check_report_folder, write_report
+    from rhofollow.cli.common import load_catalogue, report_row_issues
+    from rhofollow.cli.night import load_site_arg
 
     try:
         check_report_folder(out)
@@ -115,7 +115,7 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
     cat = load_catalogue(catalog, require_coords=True)
     report_row_issues(cat)
     if not cat.targets:
-        from ..records import envelope
+        from rhofollow.stages.records import envelope
 
         message(f"{catalog}: no valid target rows to plan; no report written", "error")
         return {"doc": envelope(command, catalogue=cat, seed=args.seed), "files": [], "result": None}
@@ -154,7 +154,7 @@ def summary_table(doc: dict, width: int = 80, top: int | None = 8) -> FittedTabl
     The rank follows the priority; equal priorities are ordered by the density mismatch, shown in
     the column named as the tie-breaker.
     """
-    from ..report.summary import ranked_table
+    from rhofollow.report.summary import ranked_table
 
     _head, _rows = ranked_table(doc)  # the same targets, in the same order, as summary.md
     by_name = {t["name"]: t for t in doc["targets"]}
@@ -183,7 +183,7 @@ def summary_table(doc: dict, width: int = 80, top: int | None = 8) -> FittedTabl
 
 
 def _print_summary(written: dict, out: Path, top: int = 8) -> None:
-    from ..report.summary import CAUTIONS
+    from rhofollow.report.summary import CAUTIONS
 
     doc = written["doc"]
     con = console()
@@ -211,7 +211,7 @@ def _print_summary(written: dict, out: Path, top: int = 8) -> None:
 def site_evening_date(site_path) -> dt.date:
     """The local date of the evening in progress or coming at the site (before local noon: the
     evening that began yesterday), from the site file's IANA time zone; today's UTC date if unreadable."""
-    from ..planning.site import ConfigError, load_site
+    from rhofollow.planning.site import ConfigError, load_site
 
     try:
         tz = load_site(site_path, check_files=False).tzinfo

@@ -38,7 +38,7 @@ def message(text, kind: str | None = None, *, to_stdout: bool = False, style: st
     Errors, warnings, notices and progress go to stderr; ``to_stdout`` is for lines that belong to the
     result (cautions, table notes, report locations).
     """
-    from .common import console, err_console
+    from rhofollow.cli.common import console, err_console
 
     line = Text()
     if kind:

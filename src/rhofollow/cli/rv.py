@@ -6,9 +6,9 @@ from pathlib import Path
 
 from rich.text import Text
 
-from .common import (UserError, add_assess_options, add_json_option, console, run_assessment,
+from rhofollow.cli.common import (UserError, add_assess_options, add_json_option, console, run_assessment,
                      write_json)
-from .render import Col, FittedTable, fit_table, message, say, table_note
+from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run"]
 
@@ -59,7 +59,7 @@ def _fmt(q, digits=3):
 
 def rv_table(records: list[dict], instrument: str, fap: float, power: float, width: int = 80) -> FittedTable:
     """The RV follow-up table with the columns that fit ``width``."""
-    from ..physics.rvconfirm import N_LADDER
+    from rhofollow.physics.rvconfirm import N_LADDER
 
     cols = [Col("target", justify="left"), Col("K m/s (68%)", compact_header="K m/s", what="K interval"),
             Col("Mp M⊕", drop=2), Col("σ m/s", drop=3, what="per-epoch σ"),
@@ -96,10 +96,10 @@ def update_table(records: list[dict], fap: float, width: int = 80) -> FittedTabl
 
 
 def run(args) -> int:
-    from ..io.catalogue import read_catalogue
-    from ..io.instruments import InstrumentError, Spectrograph, read_instruments
-    from ..io.rvdata import RVDataError, read_rv_data
-    from ..rvplan import CAUTION, plan_rv
+    from rhofollow.io.catalogue import read_catalogue
+    from rhofollow.io.instruments import InstrumentError, Spectrograph, read_instruments
+    from rhofollow.io.rvdata import RVDataError, read_rv_data
+    from rhofollow.stages.rv import CAUTION, plan_rv
 
     if not 0 < args.fap < 1:
         raise UserError(f"--fap must lie between 0 and 1, got {args.fap}")
@@ -137,7 +137,7 @@ def run(args) -> int:
         unknown = sorted(set(rv_data) - {t.name for t in cat.targets})
         for name in unknown:
             message(f"RVs of {name} ({rv_data[name].source}) match no catalogue target", "warning")
-    from .common import count_progress
+    from rhofollow.cli.common import count_progress
 
     assessments = run_assessment(cat.targets, args)
     with count_progress(len(assessments), "RV planning") as prog:
@@ -163,7 +163,7 @@ def run(args) -> int:
             message(f"{r['name']}: {e}", "error")
         for w in r.get("warnings", []):
             message(f"{r['name']}: {w}", "warning")
-    from ..records import envelope
+    from rhofollow.stages.records import envelope
 
     doc = envelope("rv", catalogue=cat, seed=args.seed, targets=records, caution=CAUTION,
                    payload={"instrument": plan_inst.name, "instrument_file": plan_inst.source,

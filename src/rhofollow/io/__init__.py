@@ -1,4 +1,4 @@
 """Input and output: catalogue reading and validation, ledger, exports, plots."""
-from .catalogue import CatalogueError, read_catalogue
+from rhofollow.io.catalogue import CatalogueError, read_catalogue
 
 __all__ = ["CatalogueError", "read_catalogue"]

@@ -19,13 +19,13 @@ def _dt(iso: str) -> datetime:
 
 
 def windows_to_ics(result: dict) -> bytes:
-    """iCalendar bytes for the ``result`` of :func:`rhofollow.eclipses.predict_occultations`.
+    """iCalendar bytes for the ``result`` of :func:`rhofollow.stages.occultations.predict_occultations`.
 
     Targets without UTC windows (no coordinates) are skipped.
     """
     from icalendar import Calendar, Event
 
-    from .safety import file_stem
+    from rhofollow.io.safety import file_stem
 
     cal = Calendar()
     cal.add("prodid", _PRODID)
@@ -69,6 +69,6 @@ def windows_to_ics(result: dict) -> bytes:
 
 def write_ics(path, result: dict):
     """Write the windows of ``result`` to ``path`` atomically; returns the path."""
-    from .atomic import atomic_write_text
+    from rhofollow.io.atomic import atomic_write_text
 
     return atomic_write_text(path, windows_to_ics(result).decode("utf-8"))

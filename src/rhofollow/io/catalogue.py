@@ -1,10 +1,10 @@
 """Read and validate candidate catalogues (CSV, ECSV, VOTable).
 
 This module is the project's input boundary. :func:`read_catalogue` turns a file into a
-:class:`~rhofollow.io.table_types.CatalogueResult`: the rows that passed validation become
-:class:`~rhofollow.io.table_types.Target` records whose values are already in the units their
+:class:`~rhofollow.core.types.CatalogueResult`: the rows that passed validation become
+:class:`~rhofollow.core.types.Target` records whose values are already in the units their
 canonical column names state (``period_d`` in days, ``t14_h`` in hours, ``rho_star_cgs`` in g/cm^3,
-...); every problem becomes a :class:`~rhofollow.io.table_types.RowIssue` naming the file, the 1-based
+...); every problem becomes a :class:`~rhofollow.core.types.RowIssue` naming the file, the 1-based
 data-row number, the column and the reason. A bad row is skipped; every good row is kept.
 
 Only problems with the file as a whole (missing, unreadable, no data rows, no ``name`` column,
@@ -27,7 +27,7 @@ from pathlib import Path
 
 import astropy.units as u
 
-from .table_types import CatalogueResult, Measurement, RowIssue, Target
+from rhofollow.core.types import CatalogueResult, Measurement, RowIssue, Target
 
 __all__ = ["CatalogueError", "ColumnSpec", "COLUMNS", "read_catalogue", "SUPPORTED_EXTENSIONS",
            "PHYSICAL_RANGES"]

@@ -43,9 +43,9 @@ import time
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
-from .atomic import is_no_space
-from .safety import csv_text, csv_unquote
-from .table_types import RowIssue
+from rhofollow.io.atomic import is_no_space
+from rhofollow.io.safety import csv_text, csv_unquote
+from rhofollow.core.types import RowIssue
 
 __all__ = [
     "SCHEMA_VERSION", "DEFAULT_LEDGER", "LedgerError", "IngestError", "IngestReport", "Ledger",
@@ -980,7 +980,7 @@ class Ledger:
         ``targets.jsonl``, ``rv.csv``, ``occultations.csv``, ``done.csv``, ``posteriors.jsonl``;
         :meth:`import_folder` on a fresh ledger reproduces :meth:`content` exactly.
         """
-        from .atomic import atomic_write_text
+        from rhofollow.io.atomic import atomic_write_text
 
         folder = Path(folder)
         folder.mkdir(parents=True, exist_ok=True)

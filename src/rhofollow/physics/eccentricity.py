@@ -44,13 +44,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .priors import EccPrior
-from .sampling import (adaptive_importance_sample, split_normal_ppf, split_normal_logpdf,
+from rhofollow.physics.priors import EccPrior
+from rhofollow.physics.sampling import (adaptive_importance_sample, split_normal_ppf, split_normal_logpdf,
                        ImportanceResult, _kish)
 from scipy.special import logsumexp, ndtr, ndtri
 
-from .constants import RHO_SUN_CGS
-from .transit import ars_from_rho, eccentric_durations, g_factor, inclination_from_b, rho_from_ars
+from rhofollow.physics.constants import RHO_SUN_CGS
+from rhofollow.physics.transit import ars_from_rho, eccentric_durations, g_factor, inclination_from_b, rho_from_ars
 
 _RHO_PER_ARS3 = float(rho_from_ars(1.0, 1.0))  # g/cm^3 per (a/R*)^3 at P = 1 d
 

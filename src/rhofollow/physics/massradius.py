@@ -23,7 +23,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .constants import GM_EARTH_SI, GM_JUP_SI
+from rhofollow.physics.constants import GM_EARTH_SI, GM_JUP_SI
 
 __all__ = ["RELATIONS", "GIANT_RADIUS_REARTH", "GIANT_MASS_RANGE_MEARTH", "wrf16_mean",
            "otegi20_rocky_mean", "otegi20_volatile_mean", "bashi17_radius", "draw_planet_mass",

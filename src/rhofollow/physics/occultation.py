@@ -13,8 +13,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .constants import C_SI, DAY_S, R_SUN_M
-from .kepler import true_to_mean
+from rhofollow.physics.constants import C_SI, DAY_S, R_SUN_M
+from rhofollow.physics.kepler import true_to_mean
 
 __all__ = [
     "ContactError",

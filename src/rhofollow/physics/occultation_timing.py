@@ -20,10 +20,10 @@ from __future__ import annotations
 import numpy as np
 from scipy.special import log_ndtr
 
-from .kepler import transit_to_occultation_time
-from .occultation import (eclipse_durations, light_travel_delay, occultation_occurs,
+from rhofollow.physics.kepler import transit_to_occultation_time
+from rhofollow.physics.occultation import (eclipse_durations, light_travel_delay, occultation_occurs,
                           separation_at_occultation)
-from .thermal import BAND_MAX_UM, BAND_MIN_UM, occultation_depth, tophat_band
+from rhofollow.physics.thermal import BAND_MAX_UM, BAND_MIN_UM, occultation_depth, tophat_band
 
 __all__ = [
     "occultation_offset", "light_time_delay", "occultation_duration",

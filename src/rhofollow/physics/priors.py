@@ -170,20 +170,20 @@ class MeasuredEcc(EccPrior):
     err_hi: float = 0.01
 
     def _bounds(self):
-        from .sampling import split_normal_cdf
+        from rhofollow.physics.sampling import split_normal_cdf
         c0 = float(split_normal_cdf(0.0, self.value, self.err_lo, self.err_hi))
         c1 = float(split_normal_cdf(self.e_grid[-1], self.value, self.err_lo, self.err_hi))
         return c0, c1
 
     def ppf(self, u):
-        from .sampling import split_normal_ppf
+        from rhofollow.physics.sampling import split_normal_ppf
         c0, c1 = self._bounds()
         uu = c0 + (c1 - c0) * np.clip(np.asarray(u, dtype=float), 0.0, 1.0)
         e = split_normal_ppf(uu, self.value, self.err_lo, self.err_hi)
         return np.clip(e, 0.0, np.nextafter(self.e_grid[-1], 0))
 
     def pdf(self, e):
-        from .sampling import split_normal_logpdf
+        from rhofollow.physics.sampling import split_normal_logpdf
         c0, c1 = self._bounds()
         e = np.asarray(e, dtype=float)
         dens = np.exp(split_normal_logpdf(e, self.value, self.err_lo, self.err_hi)) / (c1 - c0)
@@ -199,7 +199,7 @@ def measured_prior(value: float, err_lo: float, err_hi: float) -> EccPrior:
     """
     slo = max(err_lo, 1e-4)
     shi = max(err_hi, 1e-4)
-    from .sampling import split_normal_cdf
+    from rhofollow.physics.sampling import split_normal_cdf
     if split_normal_cdf(E_MAX, value, slo, shi) - split_normal_cdf(0.0, value, slo, shi) < 1e-12:
         raise ValueError(f"measured eccentricity {value:g} lies entirely outside [0, {E_MAX:g})")
     # the table must resolve the measurement: grid from the bounds, dense around the value

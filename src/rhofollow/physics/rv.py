@@ -16,8 +16,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .constants import DAY_S, G_SI, GM_EARTH_SI, GM_SUN_SI
-from .kepler import mean_anomaly_at_transit, true_anomaly
+from rhofollow.physics.constants import DAY_S, G_SI, GM_EARTH_SI, GM_SUN_SI
+from rhofollow.physics.kepler import mean_anomaly_at_transit, true_anomaly
 
 __all__ = ["semi_amplitude", "true_anomaly_at", "rv_shape", "rv_curve",
            "circular_shape"]

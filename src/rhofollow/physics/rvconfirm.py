@@ -19,7 +19,7 @@ from __future__ import annotations
 import numpy as np
 from scipy import stats
 
-from .rv import circular_shape, rv_shape
+from rhofollow.physics.rv import circular_shape, rv_shape
 
 __all__ = ["EccGrid", "ecc_grid", "profiled_chi2", "lrt_statistic", "simulate_lrt", "power_at",
            "epochs_to_confirm", "epochs_to_detect_k_simple", "epochs_to_detect_k",

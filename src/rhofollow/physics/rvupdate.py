@@ -24,8 +24,8 @@ import numpy as np
 from scipy.special import log_ndtr
 from scipy.stats import norm
 
-from .rv import circular_shape, rv_shape
-from .rvconfirm import EccGrid, _project_offsets, ecc_grid, lrt_statistic
+from rhofollow.physics.rv import circular_shape, rv_shape
+from rhofollow.physics.rvconfirm import EccGrid, _project_offsets, ecc_grid, lrt_statistic
 
 __all__ = ["rv_log_likelihood", "conditional_k", "lrt_on_data"]
 

@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .constants import G_SI, R_SUN_M, RHO_SUN_CGS, GM_SUN_SI
+from rhofollow.physics.constants import G_SI, R_SUN_M, RHO_SUN_CGS, GM_SUN_SI
 
 __all__ = ["rho_from_mass_radius", "rho_from_logg_radius", "mass_from_logg_radius",
            "torres_mass_radius", "TORRES_SIGMA_LOGM", "TORRES_SIGMA_LOGR",

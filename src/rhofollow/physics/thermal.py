@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .constants import C_SI, H_SI, KB_SI
+from rhofollow.physics.constants import C_SI, H_SI, KB_SI
 
 __all__ = [
     "BAND_MIN_UM",

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .constants import G_SI, DAY_S
+from rhofollow.physics.constants import G_SI, DAY_S
 
 __all__ = [
     "rho_from_ars", "ars_from_rho", "circular_durations", "smo_invert", "ars_from_t14_b",

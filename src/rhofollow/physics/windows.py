@@ -65,7 +65,7 @@ def _interp_sorted(q, cdf, xs):
 def sorted_weighted_quantiles(xs, ws, q):
     """Quantiles of samples already sorted ascending, with weights ``ws``.
 
-    Same definition as :func:`rhofollow.samples.weighted_quantiles` (midpoint rule on the
+    Same definition as :func:`rhofollow.core.samples.weighted_quantiles` (midpoint rule on the
     weighted empirical CDF, linear in between, clamped at the ends), without the sort.
     """
     xs = np.asarray(xs, dtype=float)

@@ -25,9 +25,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .night import CAUTION
-from .scheduler import FixedTask, FlexibleTask, schedule
-from .tasks import ValueModel, VisGrid, jd_to_iso, occultation_tasks, phase_weight, rv_task
+from rhofollow.planning.night import CAUTION
+from rhofollow.planning.scheduler import FixedTask, FlexibleTask, schedule
+from rhofollow.planning.tasks import ValueModel, VisGrid, jd_to_iso, occultation_tasks, phase_weight, rv_task
 
 __all__ = ["NightVis", "CampaignPlan", "plan_campaign", "hours_table", "to_ical", "TABLE_FORMATS"]
 
@@ -260,11 +260,11 @@ def hours_table(plan: CampaignPlan, fmt: str = "md") -> str:
                  str(sum(len(t["rv_visits"]) for t in plan.targets))]
                 + [f"{h:.2f}" for h in hs] + [f"{sum(hs):.2f}"])
     if fmt == "csv":
-        from ..io.safety import csv_text
+        from rhofollow.io.safety import csv_text
 
         return csv_text(head, rows)
     if fmt == "md":
-        from ..io.safety import md_text
+        from rhofollow.io.safety import md_text
 
         lines = ["| " + " | ".join(md_text(h) for h in head) + " |",
                  "|" + "|".join(["---"] + ["---:"] * (len(head) - 1)) + "|"]

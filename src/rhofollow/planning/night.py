@@ -20,14 +20,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .scheduler import Schedule, schedule
-from .tasks import ValueModel, VisGrid, ecc_evidence, jd_to_iso, occultation_tasks, rv_task
+from rhofollow.planning.scheduler import Schedule, schedule
+from rhofollow.planning.tasks import ValueModel, VisGrid, ecc_evidence, jd_to_iso, occultation_tasks, rv_task
 
 __all__ = ["NightPlan", "plan_night", "science_entry", "science_from_records", "night_visibility",
            "bjd_minus_jd", "CAUTION"]
 
 #: The caution every plan carries.
-from ..records import CAUTION  # noqa: E402  (one caution text for every output)
+from rhofollow.stages.records import CAUTION  # noqa: E402  (one caution text for every output)
 
 
 def science_entry(name: str, *, evidence: float, occultation: dict | None = None, rv: dict | None = None,
@@ -169,11 +169,11 @@ def science_from_records(assessments, occ_records: list[dict] | None, rv_records
     Parameters
     ----------
     assessments : objects with ``name, ok, errors, samples, target, record``
-        (:func:`rhofollow.assess.assess_catalogue`).
+        (:func:`rhofollow.stages.assess.assess_catalogue`).
     occ_records : list of dict or None
-        ``targets`` of :func:`rhofollow.eclipses.predict_occultations`.
+        ``targets`` of :func:`rhofollow.stages.occultations.predict_occultations`.
     rv_records : list of dict or None
-        Records of :func:`rhofollow.rvplan.plan_rv`.
+        Records of :func:`rhofollow.stages.rv.plan_rv`.
     e_min : float
         Eccentricity threshold of the evidence ``E`` (the assessment's ``p_ecc_gt_0p1`` is used
         when ``e_min`` is 0.1, else the samples).
@@ -224,7 +224,7 @@ def bjd_minus_jd(ra_deg, dec_deg, jd_utc: float, location) -> np.ndarray:
     from astropy.coordinates import SkyCoord
     from astropy.time import Time
 
-    from .offline import astropy_quietly, configure_offline
+    from rhofollow.core.timescales import astropy_quietly, configure_offline
 
     configure_offline()
     ra = np.atleast_1d(np.asarray(ra_deg, dtype=float))

@@ -46,7 +46,7 @@ block (``kappa`` = 0.5 by default: A = 1 at the zenith, 0.61 at airmass 2).
   (overheads included upstream) unless the record gives ``visit_h``.
 
 Targets whose quantiles are unreliable (the occultation or RV record says ``reliable: false``: an
-effective sample size below :data:`rhofollow.samples.RELIABLE_ESS`) are not planned as if their
+effective sample size below :data:`rhofollow.core.samples.RELIABLE_ESS`) are not planned as if their
 numbers were known: every value above is multiplied by ``unreliable_weight`` (0.5 by default,
 a chosen down-weighting, common practice, no source), so such a target wins a slot only against a
 reliable one worth less than half as much. The tasks say so (``meta["reliable"]``).
@@ -65,7 +65,7 @@ from datetime import datetime, timezone
 
 import numpy as np
 
-from .scheduler import FixedTask, FlexibleTask
+from rhofollow.planning.scheduler import FixedTask, FlexibleTask
 
 __all__ = ["VisGrid", "ValueModel", "iso_to_jd", "jd_to_iso", "airmass_factor", "phase_weight",
            "ecc_evidence", "occultation_tasks", "rv_task", "visible_windows", "Skip"]
@@ -173,7 +173,7 @@ class ValueModel:
         Phase weight far from every informative phase.
     baseline_h : float
         Out-of-occultation baseline added on each side of an occultation window (hours); 0 when
-        the windows already include their baselines (as :mod:`rhofollow.eclipses` windows do).
+        the windows already include their baselines (as :mod:`rhofollow.stages.occultations` windows do).
     lead_h : float
         Instrument setup added before an occultation block (hours; the photometer's overhead).
     partial_baseline_h : float

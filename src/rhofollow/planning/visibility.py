@@ -40,8 +40,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .offline import astropy_quietly, configure_offline, notice_if_beyond_tables
-from .site import Site
+from rhofollow.core.timescales import astropy_quietly, configure_offline, notice_if_beyond_tables
+from rhofollow.planning.site import Site
 
 __all__ = ["NightGrid", "VisibilityEngine", "WindowObservability", "jd_to_datetime_utc",
            "datetime_to_jd", "SUNSET_ALTITUDE_DEG"]

@@ -8,7 +8,7 @@ import io
 import os
 from pathlib import Path
 
-from ..io.atomic import atomic_write_bytes
+from rhofollow.io.atomic import atomic_write_bytes
 
 __all__ = ["atomic_write_bytes", "save_figure"]
 

@@ -19,9 +19,9 @@ import shutil
 import tempfile
 from pathlib import Path
 
-from ..io.atomic import NoSpaceError, is_no_space, new_dir_mode
-from ..io.safety import file_stem
-from .files import atomic_write_bytes, save_figure
+from rhofollow.io.atomic import NoSpaceError, is_no_space, new_dir_mode
+from rhofollow.io.safety import file_stem
+from rhofollow.report.files import atomic_write_bytes, save_figure
 
 __all__ = ["write_report", "slug", "REPORT_FILES", "ReportFolderError", "check_report_folder"]
 
@@ -119,12 +119,12 @@ def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict
     -------
     dict with ``doc`` (the results.json document), ``files`` (paths written) and ``ranking``.
     """
-    from ..cli.common import write_json
-    from .night_chart import night_figure
-    from ..planning.campaign import to_ical
-    from . import plots
-    from .summary import CAUTIONS, assumptions, html_summary, markdown_summary
-    from .tables import flat_rows, rank_targets, results_document, rows_to_csv, rows_to_ecsv
+    from rhofollow.cli.common import write_json
+    from rhofollow.report.schedule_chart import night_figure
+    from rhofollow.planning.campaign import to_ical
+    from rhofollow.report import plots
+    from rhofollow.report.summary import CAUTIONS, assumptions, html_summary, markdown_summary
+    from rhofollow.report.tables import flat_rows, rank_targets, results_document, rows_to_csv, rows_to_ecsv
 
     progress = progress or (lambda label, total: (lambda k=1: None))
     out = Path(out_dir)

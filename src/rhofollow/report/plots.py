@@ -2,7 +2,7 @@
 
 Per target: the density comparison, the (e, omega) posterior, the occultation timing and the RV
 curves. For the run: the catalogue overview, the campaign calendar strip and (through
-:mod:`rhofollow.report.night_chart`) the night's schedule chart. Write them with
+:mod:`rhofollow.report.schedule_chart`) the night's schedule chart. Write them with
 :func:`rhofollow.report.files.save_figure` (atomic PNG).
 
 omega is the RV-convention argument of periastron of the star: the transit happens at true anomaly
@@ -215,8 +215,8 @@ def ecc_omega_figure(samples, record: dict | None = None):
 def occultation_times(samples):
     """(t_ref, period, weights, offset) of the occulting samples: t_ref is the epoch-0 mid-time
     (BJD_TDB, days) including the light-travel delay; offset = (t_ref - t0) / P, the phase."""
-    from ..physics.kepler import transit_to_occultation_time
-    from ..physics.occultation import light_travel_delay, occultation_occurs
+    from rhofollow.physics.kepler import transit_to_occultation_time
+    from rhofollow.physics.occultation import light_travel_delay, occultation_occurs
 
     s = samples
     occ = occultation_occurs(s.a_rs, s.inc, s.e, s.omega, s.k)
@@ -317,10 +317,10 @@ def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = 0
 
     Returns ``(phase, eccentric (D, n_phase), circular (D, n_phase), k (D,))`` in m/s. K per sample
     is ``k`` when given, else the K the RV record of this target uses: drawn from the planet mass
-    and the sample's e, i, M* and P (:func:`rhofollow.rvplan.planet_mass_and_k`) with the record's
+    and the sample's e, i, M* and P (:func:`rhofollow.stages.rv.planet_mass_and_k`) with the record's
     generator for (seed, target); ``weights`` replace the samples' weights.
     """
-    from ..physics.rv import circular_shape, rv_shape
+    from rhofollow.physics.rv import circular_shape, rv_shape
 
     if k is None:
         k, _ = record_k_draws(samples, seed)
@@ -338,7 +338,7 @@ def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = 0
 
 def record_k_draws(samples, seed: int = 0, relation: str = "auto"):
     """(K per sample in m/s, weights): the very draws behind the RV record's ``k_ms`` for this seed."""
-    from ..rvplan import _rng, planet_mass_and_k
+    from rhofollow.stages.rv import _rng, planet_mass_and_k
 
     _, k, _ = planet_mass_and_k(samples, _rng(seed, samples.name, "mass"), relation)
     return k, samples.weights
@@ -347,8 +347,8 @@ def record_k_draws(samples, seed: int = 0, relation: str = "auto"):
 def _rv_update(samples, rv_data, jitter, seed, k_mode="marginal"):
     """(weights, K per sample) of the posterior after the measured RVs (offsets free), drawn as the
     RV record's update draws them (same generator, same K mode)."""
-    from ..physics.rvupdate import conditional_k, rv_log_likelihood
-    from ..rvplan import _rng
+    from rhofollow.physics.rvupdate import conditional_k, rv_log_likelihood
+    from rhofollow.stages.rv import _rng
 
     k_mass, _ = record_k_draws(samples, seed)
     args = (rv_data.bjd_tdb, rv_data.rv_ms, rv_data.rv_err_ms, rv_data.groups(), samples.period,
@@ -368,7 +368,7 @@ def k_summary(rv_record: dict | None, k=None, weights=None) -> tuple[float, dict
     ``k_updated_ms["q50"]`` after measured RVs, else ``k_ms["q50"]``. Only without a record is it
     computed, the same way, from the draws ``k`` with ``weights``.
     """
-    from ..samples import quantile_dict
+    from rhofollow.core.samples import quantile_dict
 
     rec = rv_record or {}
     for key, which in (("k_updated_ms", "after the measured RVs"), ("k_ms", "before any RV")):
@@ -401,7 +401,7 @@ def rv_figure(samples, rv_record: dict | None, visits: list | None = None, night
     fig, ax = plt.subplots(figsize=(8.6, 5.4))
     for row in ecc:
         ax.plot(ph, row, color=COLOURS["ecc"], lw=0.8, alpha=0.2)
-    from ..physics.rv import circular_shape
+    from rhofollow.physics.rv import circular_shape
 
     if k is None:
         k, w_k = record_k_draws(samples, seed)

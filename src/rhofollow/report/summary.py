@@ -8,8 +8,8 @@ from __future__ import annotations
 import base64
 import html
 
-from ..records import CAUTION
-from ..io.safety import md_text
+from rhofollow.stages.records import CAUTION
+from rhofollow.io.safety import md_text
 
 __all__ = ["assumptions", "CAUTIONS", "ranked_table", "first_night_table", "markdown_summary", "html_summary"]
 

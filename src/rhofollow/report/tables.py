@@ -12,7 +12,7 @@ from __future__ import annotations
 import io
 import math
 
-from ..samples import QUANTILE_LEVELS
+from rhofollow.core.samples import QUANTILE_LEVELS
 
 __all__ = ["PRIORITY_RULE", "rank_targets", "results_document", "flat_rows", "rows_to_csv", "rows_to_ecsv",
            "COLUMN_UNITS"]
@@ -116,8 +116,8 @@ def results_document(result, ranking: dict, assumptions: list[str], cautions: li
         targets.append(rec)
     targets.sort(key=lambda t: (t.get("rank") is None, t.get("rank") or 0, t["name"]))
     # one meaning of failure (records.py): a target fails when any stage failed for it
-    from ..pipeline import planner_targets
-    from ..records import CAUTION, envelope
+    from rhofollow.pipeline import planner_targets
+    from rhofollow.stages.records import CAUTION, envelope
 
     merged = {t["name"]: t for t in planner_targets(result.stages)}
     for rec in targets:
@@ -185,7 +185,7 @@ def flat_rows(doc: dict, periods: dict | None = None) -> list[dict]:
 def rows_to_csv(rows: list[dict]) -> str:
     """CSV text (header from the first row; NaN written as an empty cell; text cells that a
     spreadsheet would run as a formula are quoted, see :mod:`rhofollow.io.safety`)."""
-    from ..io.safety import csv_text
+    from rhofollow.io.safety import csv_text
 
     if not rows:
         return ""

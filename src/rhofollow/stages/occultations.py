@@ -15,19 +15,19 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .physics.constants import YEAR_D
-from .physics.kepler import transit_to_occultation_time
-from .physics.occultation import (eclipse_durations, light_travel_delay, occultation_occurs,
+from rhofollow.physics.constants import YEAR_D
+from rhofollow.physics.kepler import transit_to_occultation_time
+from rhofollow.physics.occultation import (eclipse_durations, light_travel_delay, occultation_occurs,
                                   occultation_impact_parameter, separation_at_occultation)
-from .physics.thermal import BAND_MAX_UM, BAND_MIN_UM, occultation_depth, tophat_band
-from .physics.windows import summarise_events
-from .samples import QUANTILE_LEVELS, SampleSet, quantile_dict, reliability
+from rhofollow.physics.thermal import BAND_MAX_UM, BAND_MIN_UM, occultation_depth, tophat_band
+from rhofollow.physics.windows import summarise_events
+from rhofollow.core.samples import QUANTILE_LEVELS, SampleSet, quantile_dict, reliability
 
 __all__ = ["CAUTION", "MAX_RANGE_YEARS", "EclipseInputError", "EclipseOptions", "parse_date", "describe_failure",
            "check_band", "bjd_tdb_to_utc", "predict_occultations"]
 
 #: Printed with every plan: the tool advises, the observatory decides.
-from .records import CAUTION  # noqa: E402  (one caution text for every output)
+from rhofollow.stages.records import CAUTION  # noqa: E402  (one caution text for every output)
 
 #: Longest date range accepted (years): ephemeris errors grow with the epoch number.
 MAX_RANGE_YEARS = 20.0
@@ -170,8 +170,7 @@ def _notice(caught) -> str:
     """The run's one notice about dates past the installed tables ("" if none, or already given)."""
     if not caught:
         return ""
-    from .planning import offline
-
+    from rhofollow.core import timescales as offline
     with offline._LOCK:
         if offline._STATE["notice_given"]:
             return ""
@@ -312,7 +311,7 @@ def predict_occultations(items, start, end, options: EclipseOptions | None = Non
     Parameters
     ----------
     items : iterable of assessments (objects with ``name, ok, errors, warnings, samples,
-        target``) or of :class:`~rhofollow.samples.SampleSet`.
+        target``) or of :class:`~rhofollow.core.samples.SampleSet`.
     start, end : str or astropy Time (UTC): the date range; at most 20 years.
     options : :class:`EclipseOptions`
 

@@ -12,15 +12,15 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .io.table_types import Measurement, Target
-from .physics import stars as st
-from .physics.eccentricity import (HYPOTHESES, MEASURED_STAR_HYPOTHESES, best_possible_loglike, HypothesisSetup, Obs,
+from rhofollow.core.types import Measurement, Target
+from rhofollow.physics import stars as st
+from rhofollow.physics.eccentricity import (HYPOTHESES, MEASURED_STAR_HYPOTHESES, best_possible_loglike, HypothesisSetup, Obs,
                                    StarPool, TransitObservables, run_hypothesis)
-from .physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior
-from .physics.transit import g_factor
-from .physics.sampling import draw_split_normal
-from .physics.transit import ars_from_t14_b, ecc_min_from_ratio, rho_from_ars, smo_invert
-from .samples import SampleSet, quantile_dict, reliability, weighted_quantiles
+from rhofollow.physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior
+from rhofollow.physics.transit import g_factor
+from rhofollow.physics.sampling import draw_split_normal
+from rhofollow.physics.transit import ars_from_t14_b, ecc_min_from_ratio, rho_from_ars, smo_invert
+from rhofollow.core.samples import SampleSet, quantile_dict, reliability, weighted_quantiles
 
 __all__ = ["Assessment", "assess_target", "assess_catalogue", "target_seed", "READINGS", "LABELS",
            "evidence_strength", "DEFAULT_N_SAMPLES", "ESS_FLOOR", "CHI2_REJECT", "DEFAULT_RADIUS_RATIO",
@@ -274,7 +274,7 @@ def assess_target(t: Target, n_samples: int = DEFAULT_N_SAMPLES, prior: str | Ec
     """Assess one validated target. Never raises for a bad row: problems land in ``errors``.
 
     ``extra_loglike(aux) -> array`` (optional) folds further measurements of the target (RVs,
-    occultation timings; see :mod:`rhofollow.ledger_update`) into every hypothesis' likelihood.
+    occultation timings; see :mod:`rhofollow.stages.update`) into every hypothesis' likelihood.
     """
     rng = target_seed(seed, t.name)
     warnings = list(t.warnings)
@@ -560,7 +560,7 @@ def _consistency(finding, ratio_sigma, orbit_tension, chi2, remaining, favoured,
 def assess_catalogue(targets, n_samples: int = DEFAULT_N_SAMPLES, prior: str | EccPrior = DEFAULT_PRIOR,
                      seed: int = 0, transit_prob: bool = True, ess_floor: float = ESS_FLOOR,
                      progress=None) -> list[Assessment]:
-    """Assess every target (serially; see :mod:`rhofollow.parallel` for pools and clusters).
+    """Assess every target (serially; see :mod:`rhofollow.core.executor` for pools and clusters).
 
     ``progress`` is an optional callable invoked once per finished target.
     """

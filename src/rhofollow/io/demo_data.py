@@ -5,7 +5,7 @@
 A test keeps both identical; after changing a file in examples/ or site_configs/, run from the
 checkout::
 
-    python -m rhofollow.demo_data sync
+    python -m rhofollow.io.demo_data sync
 """
 from __future__ import annotations
 
@@ -77,8 +77,8 @@ def sync(repo: Path, package_dir: Path) -> list[str]:
 
 
 def _main(argv: list[str]) -> int:  # pragma: no cover - developer helper
-    repo = Path(__file__).resolve().parents[2]
-    pkg = Path(__file__).resolve().parent / "data" / "demo"
+    repo = Path(__file__).resolve().parents[3]
+    pkg = Path(__file__).resolve().parents[1] / "data" / "demo"
     if argv[:1] == ["sync"]:
         for line in sync(repo, pkg) or ["already identical"]:
             print(line)

@@ -19,17 +19,17 @@ import zlib
 
 import numpy as np
 
-from .io.instruments import Spectrograph
-from .io.rvdata import RVData
-from .physics import rvconfirm, rvnoise, rvupdate
-from .physics.constants import G_SI, M_SUN_KG, R_EARTH_M, R_SUN_M
-from .physics.massradius import draw_planet_mass
-from .physics.rv import semi_amplitude
-from .samples import SampleSet, quantile_dict, reliability, weighted_quantiles
+from rhofollow.io.instruments import Spectrograph
+from rhofollow.io.rvdata import RVData
+from rhofollow.physics import rvconfirm, rvnoise, rvupdate
+from rhofollow.physics.constants import G_SI, M_SUN_KG, R_EARTH_M, R_SUN_M
+from rhofollow.physics.massradius import draw_planet_mass
+from rhofollow.physics.rv import semi_amplitude
+from rhofollow.core.samples import SampleSet, quantile_dict, reliability, weighted_quantiles
 
 __all__ = ["CAUTION", "K_MODES", "rv_record", "plan_rv", "planet_mass_and_k"]
 
-from .records import CAUTION  # noqa: E402  (one caution text for every output)
+from rhofollow.stages.records import CAUTION  # noqa: E402  (one caution text for every output)
 K_MODES = ("marginal", "mass")
 
 
@@ -204,7 +204,7 @@ def plan_rv(assessments, instrument: Spectrograph, rv_data: dict[str, RVData] | 
             except ValueError as exc:
                 rec = {"name": a.name, "ok": False, "errors": [str(exc)], "warnings": list(a.warnings)}
             except Exception as exc:  # noqa: BLE001 - contain one target's failure to that target
-                from .eclipses import describe_failure
+                from rhofollow.stages.occultations import describe_failure
 
                 rec = {"name": a.name, "ok": False, "warnings": list(a.warnings),
                        "errors": [f"RV planning failed for this target: {describe_failure(exc)}"]}

@@ -1,7 +1,7 @@
 """Learn from the ledger: re-weight a target's posterior samples with its measured RVs and its
 occultation timings and non-detections, and store the new posterior version.
 
-The density-based samples (from :mod:`rhofollow.assess`) are the prior; each measurement adds a
+The density-based samples (from :mod:`rhofollow.stages.assess`) are the prior; each measurement adds a
 log-likelihood per sample:
 
 * RVs: :func:`rhofollow.physics.rvupdate.rv_log_likelihood` (per-instrument offsets and K > 0
@@ -19,10 +19,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .io.ledger import Ledger, OccultationTiming, RVMeasurement
-from .io.table_types import Measurement, Target
-from .physics import occultation_timing as ot
-from .samples import SampleSet, quantile_dict
+from rhofollow.io.ledger import Ledger, OccultationTiming, RVMeasurement
+from rhofollow.core.types import Measurement, Target
+from rhofollow.physics import occultation_timing as ot
+from rhofollow.core.samples import SampleSet, quantile_dict
 
 __all__ = ["LedgerUpdate", "LedgerUpdateError", "DEFAULT_BAND_UM", "rv_log_like",
            "occultation_log_like", "posterior_summary", "update_from_ledger", "data_log_like",
@@ -76,7 +76,7 @@ def rv_log_like(samples: SampleSet, rvs: list[RVMeasurement], *, jitter_ms: floa
     """RV log-likelihood per sample (zeros without RVs)."""
     if not rvs:
         return np.zeros(samples.n)
-    from .physics.rvupdate import rv_log_likelihood
+    from rhofollow.physics.rvupdate import rv_log_likelihood
 
     insts = sorted({r.instrument for r in rvs})
     groups = np.array([insts.index(r.instrument) for r in rvs])
@@ -133,7 +133,7 @@ def posterior_summary(samples: SampleSet) -> dict:
     """Quantiles of e, e cos omega, e sin omega, P(e < 0.05), N and ESS of a sample set."""
     s = samples
     w = s.weights
-    from .samples import reliability
+    from rhofollow.core.samples import reliability
 
     ok, why = reliability(s.ess)
     return {"n_samples": int(s.n), "ess": float(s.ess), "reliable": ok,
@@ -156,8 +156,8 @@ def _source_hash(samples: SampleSet, rvs, timings, settings: dict) -> str:
 
 def data_log_like(name: str, rvs, timings, *, jitter_ms: float = 0.0, threshold_sigma: float = 3.0):
     """The ledger data's log-likelihood as a function of the sampler's physical arrays (for
-    :func:`rhofollow.assess.assess_target`'s ``extra_loglike``)."""
-    from .samples import SAMPLE_COLUMNS
+    :func:`rhofollow.stages.assess.assess_target`'s ``extra_loglike``)."""
+    from rhofollow.core.samples import SAMPLE_COLUMNS
 
     def f(aux: dict) -> np.ndarray:
         m = len(aux["e"])
@@ -194,7 +194,7 @@ def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float =
                                 "sample; check the data or draw more samples")
     new = samples.reweighted(total)
     if new.ess < RESAMPLE_ESS and target is not None:
-        from .assess import assess_target
+        from rhofollow.stages.assess import assess_target
 
         kw = {} if prior is None else {"prior": prior}
         fresh = assess_target(target, n_samples=samples.n, seed=seed, hypotheses=("eccentric",),
@@ -245,7 +245,7 @@ def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples:
     Returns one JSON record per target (``name``, ``ok``, ``errors``, ``warnings`` and the
     summary); targets without a catalogue row are reported, not updated.
     """
-    from .assess import assess_catalogue
+    from rhofollow.stages.assess import assess_catalogue
 
     out = []
     names = ledger.targets() if names is None else names

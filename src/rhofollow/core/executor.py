@@ -1,14 +1,14 @@
 """Running the per-target assessment over many targets: serial, a process pool, or a dask cluster.
 
 Each target's random stream depends only on the run seed and the target's name
-(:func:`rhofollow.assess.target_seed`), so every execution mode gives identical results. Work is sent
+(:func:`rhofollow.stages.assess.target_seed`), so every execution mode gives identical results. Work is sent
 in chunks so memory stays bounded: only the chunk in flight holds its samples until returned.
 """
 from __future__ import annotations
 
 from concurrent.futures import ProcessPoolExecutor
 
-from .assess import assess_catalogue
+from rhofollow.stages.assess import assess_catalogue
 
 __all__ = ["assess_parallel", "assess_stream", "chunked"]
 

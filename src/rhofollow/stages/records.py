@@ -55,7 +55,7 @@ ENVELOPE_KEYS = ("command", "catalogue", "seed", "n_rows", "n_rows_failed", "n_r
 
 
 def issue_dict(issue) -> dict:
-    """A catalogue :class:`~rhofollow.io.table_types.RowIssue` as ``{file, row, column, reason, name}``
+    """A catalogue :class:`~rhofollow.core.types.RowIssue` as ``{file, row, column, reason, name}``
     (``row`` is the 1-based data row, 0 for the header or the whole file)."""
     return {"file": str(issue.source), "row": int(issue.row), "column": issue.column or "",
             "reason": issue.reason, "name": issue.name or ""}
@@ -126,7 +126,7 @@ def envelope(command: str, *, catalogue=None, seed=None, targets=(), skipped=(),
     Parameters
     ----------
     command : the command name (``"assess"``, ``"night"``, ``"log update"``, ...)
-    catalogue : :class:`~rhofollow.io.table_types.CatalogueResult` (gives the path, ``n_rows`` and
+    catalogue : :class:`~rhofollow.core.types.CatalogueResult` (gives the path, ``n_rows`` and
         the row problems), a path, or None for a command that reads no catalogue
     seed : the run seed (None for commands without random draws)
     targets : per-target dicts with at least ``name``; ``ok``/``errors``/``warnings`` are normalised

@@ -1,0 +1,1 @@
+"""The pipeline stages: assess, occultations, rv, update, and their output envelope."""
