@@ -335,6 +335,10 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
     adv = progress("occultations", 1)
     eopts = EclipseOptions(coverage=opts.coverage, location=site.location,
                            baseline_h=phot.baseline_h if phot else None)
+    if phot is not None:
+        eopts.band = (phot.band_center_um, phot.band_width_um)
+        if phot.has_precision:
+            eopts.scatter_ref_ppm, eopts.mag_ref = phot.precision_ref_ppm, phot.vmag_ref
     notices = list(ledger_notes)
     try:
         with warnings.catch_warnings(record=True) as caught:

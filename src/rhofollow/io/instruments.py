@@ -21,7 +21,13 @@ observatory              ""        free text
 ``kind = "photometer"`` — a camera for occultation (secondary-eclipse) light curves. Keys:
 ``name``, ``overhead_min`` (per visit), ``exposure_s`` (typical cadence exposure), ``readout_s``,
 ``filter`` (text), ``precision_ref_ppm`` (scatter per minute at ``vmag_ref``), ``vmag_ref``,
-``baseline_h`` (out-of-eclipse baseline wanted on each side of an event), ``observatory``.
+``baseline_h`` (out-of-eclipse baseline wanted on each side of an event), ``observatory``,
+``band_center_um`` and ``band_width_um`` (the top-hat band, microns, in which the occultation
+depth is computed for this camera; default 2.15 and 0.32, a Ks-like band). With
+``precision_ref_ppm`` and ``vmag_ref`` every occultation record gets its expected S/N, and the
+planners fund only windows whose S/N × catch probability passes the documented threshold; the
+scatter is scaled from ``vmag_ref`` to the star's V magnitude as photon noise (colour terms
+between V and the camera's band are ignored).
 """
 from __future__ import annotations
 
@@ -29,6 +35,8 @@ import math
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
+
+from rhofollow.physics.thermal import BAND_MAX_UM, BAND_MIN_UM
 
 __all__ = ["InstrumentError", "Spectrograph", "Photometer", "read_instrument", "read_instruments"]
 
@@ -70,9 +78,16 @@ class Photometer:
     precision_ref_ppm: float = math.nan
     vmag_ref: float = math.nan
     baseline_h: float = 1.0
+    band_center_um: float = 2.15
+    band_width_um: float = 0.32
     observatory: str = ""
     source: str = ""
     kind: str = "photometer"
+
+    @property
+    def has_precision(self) -> bool:
+        """True when the precision model (``precision_ref_ppm``, ``vmag_ref``) is complete."""
+        return math.isfinite(self.precision_ref_ppm) and math.isfinite(self.vmag_ref)
 
 
 # key -> (required, bound): bound 0.0 means "> 0", -1.0 means ">= 0", None means unbounded
@@ -80,7 +95,8 @@ _SPEC_NUM = {"precision_ref_ms": (True, 0.0), "vmag_ref": (True, None), "exposur
              "floor_ms": (True, -1.0), "overhead_min": (True, -1.0), "exposure_min_s": (False, 0.0),
              "exposure_max_s": (False, 0.0)}
 _PHOT_NUM = {"overhead_min": (True, -1.0), "exposure_s": (False, 0.0), "readout_s": (False, -1.0),
-             "precision_ref_ppm": (False, 0.0), "vmag_ref": (False, None), "baseline_h": (False, -1.0)}
+             "precision_ref_ppm": (False, 0.0), "vmag_ref": (False, None), "baseline_h": (False, -1.0),
+             "band_center_um": (False, 0.0), "band_width_um": (False, 0.0)}
 _TEXT = ("name", "observatory", "filter")
 
 
@@ -144,7 +160,15 @@ def read_instrument(path) -> Spectrograph | Photometer:
             raise InstrumentError(f"{src}: key 'exposure_min_s' ({inst.exposure_min_s:g}) exceeds "
                                   f"'exposure_max_s' ({inst.exposure_max_s:g})")
         return inst
-    return Photometer(name=name.strip(), source=src, **vals, **text)
+    inst = Photometer(name=name.strip(), source=src, **vals, **text)
+    lo, hi = inst.band_center_um - inst.band_width_um / 2, inst.band_center_um + inst.band_width_um / 2
+    if lo < BAND_MIN_UM or hi > BAND_MAX_UM:
+        raise InstrumentError(f"{src}: keys 'band_center_um' and 'band_width_um' give {lo:g}-{hi:g} micron, "
+                              f"outside the {BAND_MIN_UM:g}-{BAND_MAX_UM:g} micron range of the depth model")
+    if math.isfinite(inst.precision_ref_ppm) != math.isfinite(inst.vmag_ref):
+        raise InstrumentError(f"{src}: keys 'precision_ref_ppm' and 'vmag_ref' go together "
+                              "(the scatter per minute at a reference V magnitude)")
+    return inst
 
 
 def read_instruments(paths) -> dict[str, Spectrograph | Photometer]:

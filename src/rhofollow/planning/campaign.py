@@ -152,11 +152,16 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
         rec = {"name": name, "ok": True, "occultation_windows": [], "rv_visits": [], "hours": {},
                "rv_visits_needed": None, "n_windows_unobservable": 0, "notes": []}
         occ_h = 0.0
+        left: dict[str, int] = {}
         if entry.get("occultation"):
             for ni, night in enumerate(nights):
                 tasks, skipped = occultation_tasks(dict(entry["occultation"], name=name),
                                                    entry["evidence"], night.vis, model)
                 rec["n_windows_unobservable"] += len(skipped)
+                for sk in skipped:
+                    if sk.reason.startswith("not funded"):
+                        left.setdefault(sk.reason, 0)
+                        left[sk.reason] += 1
                 for t in tasks:
                     j0 = night.vis.t_jd[0] + t.start / 24.0
                     j1 = night.vis.t_jd[0] + t.end / 24.0
@@ -218,6 +223,10 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
                     per_night.setdefault(ni, []).append((v, j0, j1, val, (task, flat, target_phase)))
                     rv_h += task.duration + overhead_h
                 rec["rv_visits"].sort(key=lambda x: x["start_utc"])
+        # windows left for want of signal: one note per reason, with the count
+        rec["occultation_windows_not_funded"] = sum(left.values())
+        for reason, n in left.items():
+            rec["notes"].append(f"{n} occultation window{'s' if n > 1 else ''} {reason}")
         if occ_h:
             rec["hours"][inst["occultation"]] = round(occ_h, 3)
         if rv_h:

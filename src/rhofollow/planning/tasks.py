@@ -185,6 +185,13 @@ class ValueModel:
         Spacing of candidate RV start times (hours).
     unreliable_weight : float
         Factor on every task value of a target whose record says ``reliable: false`` (0..1).
+    min_occ_snr : float
+        Smallest expected S/N × catch probability for which an occultation window is funded:
+        ``occ_snr`` (the record's S/N of one fully observed event) times the probability that the
+        block catches the whole event (the event happens and its mid-time falls where the block
+        covers it and its baselines). Windows below it, or without an S/N (no depth, magnitude or
+        photometer precision model), are left out with the reason. Records without an ``occ_snr``
+        key (built by hand, not by the occultation stage) are not checked.
     """
 
     kappa: float = 0.5
@@ -197,6 +204,7 @@ class ValueModel:
     min_catch: float = 0.1
     step_h: float = 1.0 / 6.0
     unreliable_weight: float = 0.5
+    min_occ_snr: float = 3.0
 
     def reliability_weight(self, record: dict) -> float:
         """``unreliable_weight`` for a record marked ``reliable: false``, else 1."""
@@ -314,6 +322,8 @@ def _occultation_tasks(record, evidence, vis, model):
                                      float(mass[k]), (w0, w1))
                 if part is None:
                     skipped.append(Skip(label, why))
+                elif isinstance(part, str):
+                    skipped.append(Skip(label, f"{part} (observable part of a window: {why})"))
                 else:
                     tasks.append(part)
                 continue
@@ -324,13 +334,53 @@ def _occultation_tasks(record, evidence, vis, model):
             if not value > 0:
                 skipped.append(Skip(label, "no value (eccentricity evidence or occurrence is zero)"))
                 continue
+            p_catch = p_occ * _whole_catch(record, ev, k, float(mass[k]))
+            why = _undetectable(record, p_catch, model)
+            if why:
+                skipped.append(Skip(label, why))
+                continue
             tasks.append(FixedTask(label, float(vis.hours(j0)), float(vis.hours(j1)), value,
                                    kind="occultation",
                                    meta={"target": name, "epoch": ev.get("epoch"), "airmass_max": xmax,
                                          "window_utc": [jd_to_iso(iso_to_jd(w0)), jd_to_iso(iso_to_jd(w1))],
                                          "baseline_h": model.baseline_h,
-                                         "reliable": record.get("reliable") is not False}))
+                                         "reliable": record.get("reliable") is not False,
+                                         "occ_snr": record.get("occ_snr"), "p_catch": round(p_catch, 4)}))
     return tasks, skipped
+
+
+def _whole_catch(record: dict, ev: dict, k: int, mass: float) -> float:
+    """Probability that the event's mid-time lies where window ``k`` holds the whole event.
+
+    The window is the credible region widened by ``window_pad_h`` (half the duration plus the
+    baseline) on each side, so the mid-time must fall inside the window shrunk by that pad; read
+    off the event's mid-time quantiles. Falls back to the window's probability share ``mass``
+    when the record lacks the BJD window or the pad.
+    """
+    pad = _num(record.get("window_pad_h")) / 24.0
+    try:
+        w0, w1 = (float(x) for x in ev["window_bjd_tdb"][k])
+    except (IndexError, KeyError, TypeError, ValueError):
+        return mass
+    if not np.isfinite(pad):
+        return mass
+    p = float(np.diff(_mid_cdf(ev, np.array([w0 + pad, w1 - pad])))[0]) if w1 - w0 > 2 * pad else 0.0
+    return p if np.isfinite(p) else mass
+
+
+def _undetectable(record: dict, p_catch: float, model: ValueModel) -> str:
+    """The reason an occultation block is not funded ("" when it passes ``model.min_occ_snr``)."""
+    if "occ_snr" not in record:  # a hand-built record: no detectability check asked for
+        return ""
+    snr = record["occ_snr"]
+    if snr is None:
+        note = record.get("occ_snr_note") or "expected S/N not computed"
+        return f"not funded: {note}"
+    score = float(snr) * p_catch
+    if not score >= model.min_occ_snr:
+        return (f"not funded: expected S/N {float(snr):.1f} × catch probability {p_catch:.2f} = "
+                f"{score:.1f}, below {model.min_occ_snr:g}")
+    return ""
 
 
 def _mid_cdf(ev: dict, x_bjd) -> np.ndarray:
@@ -345,6 +395,9 @@ def _mid_cdf(ev: dict, x_bjd) -> np.ndarray:
 
 def _partial_task(record, ev, k, label, evidence, vis, model, t_occ, p_occ, mass, win):
     """A block on the longest observable stretch of a window that does not fit whole, or None.
+
+    Returns the reason (a string) instead when the stretch could be observed but the event's
+    expected S/N × catch probability stays below ``model.min_occ_snr``.
 
     The chance of catching the whole occultation with baselines is the posterior probability that
     the mid-time lies in ``[r0 + L + B + T/2, r1 - B - T/2]`` (stretch ``[r0, r1]``, setup ``L``,
@@ -375,6 +428,9 @@ def _partial_task(record, ev, k, label, evidence, vis, model, t_occ, p_occ, mass
     p_catch = float(np.diff(_mid_cdf(ev, np.array([m_lo, m_hi]) + offset))[0])
     if not (np.isfinite(p_catch) and p_catch >= model.min_catch):
         return None
+    why = _undetectable(record, p_occ * p_catch, model)
+    if why:
+        return why
     xmax = float(vis.airmass_max(record["name"], r0, r1))
     eff = min(1.0, t_occ / ((r1 - r0) * 24.0))
     value = p_occ * mass * p_catch * evidence * float(airmass_factor(xmax, model.kappa)) * eff
@@ -384,7 +440,8 @@ def _partial_task(record, ev, k, label, evidence, vis, model, t_occ, p_occ, mass
                      kind="occultation",
                      meta={"target": record["name"], "epoch": ev.get("epoch"), "airmass_max": xmax,
                            "window_utc": [jd_to_iso(w0), jd_to_iso(w1)], "baseline_h": model.partial_baseline_h,
-                           "p_catch": round(p_catch, 4), "partial": True})
+                           "p_catch": round(p_catch, 4), "partial": True,
+                           "occ_snr": record.get("occ_snr")})
 
 
 def _runs(mask):

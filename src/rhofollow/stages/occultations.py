@@ -10,6 +10,7 @@ the target direction applied through astropy (offline: IERS tables never downloa
 """
 from __future__ import annotations
 
+import math
 import warnings
 from dataclasses import dataclass
 
@@ -19,6 +20,7 @@ from rhofollow.physics.constants import YEAR_D
 from rhofollow.physics.kepler import transit_to_occultation_time
 from rhofollow.physics.occultation import (eclipse_durations, light_travel_delay, occultation_occurs,
                                   occultation_impact_parameter, separation_at_occultation)
+from rhofollow.physics.occultation_snr import event_snr, scatter_per_minute_ppm
 from rhofollow.physics.thermal import BAND_MAX_UM, BAND_MIN_UM, occultation_depth, tophat_band
 from rhofollow.physics.windows import summarise_events
 from rhofollow.core.samples import QUANTILE_LEVELS, SampleSet, quantile_dict, reliability
@@ -51,6 +53,9 @@ class EclipseOptions:
     baseline_h : out-of-eclipse baseline before and after the window, hours (None: equal to
         the median occultation duration, at least 1 h).
     location : astropy EarthLocation of the observer (None: the geocentre).
+    scatter_ref_ppm, mag_ref : the photometer's scatter per minute of data (ppm) at the reference
+        V magnitude; with both given every record gets ``occ_snr``, the expected S/N of one fully
+        observed event (:func:`rhofollow.physics.occultation_snr.event_snr`), else ``None``.
     max_duration_samples : the exact durations are computed on at most this many samples
         (an evenly strided subset); timing and depth always use every sample.
     """
@@ -63,6 +68,8 @@ class EclipseOptions:
     geometric_albedo: float = 0.1
     baseline_h: float | None = None
     location: object = None
+    scatter_ref_ppm: float | None = None
+    mag_ref: float | None = None
     max_duration_samples: int = 4000
 
 
@@ -294,6 +301,9 @@ def _target_record(s: SampleSet, target, opts, start_bjd, end_bjd, lam, resp):
     dur_med = float(rec["occ_duration_h"]["q50"]) / _DAY_H
     base = max(dur_med, 1.0 / _DAY_H) if opts.baseline_h is None else opts.baseline_h / _DAY_H
     rec["window_pad_h"] = (0.5 * dur_med + base) * _DAY_H
+    rec["occ_snr"], why = _expected_snr(rec, s, opts, base * _DAY_H)
+    if why:
+        rec["occ_snr_note"] = why
     events = summarise_events(t_ref, per, wi, start_bjd, end_bjd, prob=opts.coverage,
                               pad=0.5 * dur_med + base, merge_gap=dur_med)
     rec["events"] = [{
@@ -303,6 +313,26 @@ def _target_record(s: SampleSet, target, opts, start_bjd, end_bjd, lam, resp):
         "window_bjd_tdb": [[float(a), float(b)] for a, b in ev.window],
     } for ev in events]
     return rec, warn
+
+
+def _expected_snr(rec: dict, s: SampleSet, opts, baseline_h: float):
+    """(S/N of one fully observed event at the median depth and durations, reason if None)."""
+    if opts.scatter_ref_ppm is None or opts.mag_ref is None:
+        return None, "no photometer precision model (precision_ref_ppm, vmag_ref): S/N not computed"
+    depth = rec["depth_ppm"].get("q50")
+    if depth is None:
+        return None, "occultation depth not computed: S/N not computed"
+    try:
+        vmag = float(s.meta.get("vmag"))
+    except (TypeError, ValueError):
+        vmag = math.nan
+    if not math.isfinite(vmag):
+        return None, "no V magnitude (catalogue column 'vmag'): S/N not computed"
+    t23 = rec["occ_full_duration_h"].get("q50")
+    sigma = scatter_per_minute_ppm(vmag, opts.scatter_ref_ppm, opts.mag_ref)
+    snr = event_snr(depth, rec["occ_duration_h"]["q50"], math.nan if t23 is None else t23,
+                    baseline_h, sigma)
+    return round(float(snr), 3), ""
 
 
 def predict_occultations(items, start, end, options: EclipseOptions | None = None) -> dict:
