@@ -30,10 +30,12 @@ import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
+from rhofollow.errors import InputError
+
 __all__ = ["InstrumentError", "Spectrograph", "Photometer", "read_instrument", "read_instruments"]
 
 
-class InstrumentError(ValueError):
+class InstrumentError(InputError, ValueError):
     """An instrument file is missing, unreadable or has a bad key (message names file and key)."""
 
 
