@@ -75,6 +75,9 @@ def test_input_error_carries_file_row_and_column():
                           column="period_d")
     assert (e.file, e.row, e.column) == ("cat.csv", 3, "period_d")
     assert str(e) == "cat.csv, row 3, column 'period_d': must be > 0"
+    from rhofollow.io.catalogue import CatalogueError
+
+    assert CatalogueError("cat.csv", "no rows").file == "cat.csv"
     c = errors.ConfigError("site.toml", ["key 'lat_deg' must lie in [-90, 90]"])
     assert c.file == "site.toml" and c.problems == ["key 'lat_deg' must lie in [-90, 90]"]
     assert str(c) == "site.toml: key 'lat_deg' must lie in [-90, 90]"

@@ -43,7 +43,7 @@ class CatalogueError(InputError, ValueError):
     def __init__(self, source: str | os.PathLike, reason: str):
         self.source = str(source)
         self.reason = reason
-        super().__init__(f"{self.source}: {reason}")
+        super().__init__(f"{self.source}: {reason}", file=self.source)
 
 
 # ---------------------------------------------------------------------------------------------
