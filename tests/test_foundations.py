@@ -185,11 +185,11 @@ def test_the_minimum_sample_count_is_enforced(argv, tmp_path, monkeypatch, capsy
 
 # ---------------------------------------------------------------- JSON writer
 
-_json_values = st.recursive(
-    st.none() | st.booleans() | st.integers(-10**6, 10**6) | st.floats(allow_nan=True, allow_infinity=True)
-    | st.text(max_size=5),
-    lambda inner: st.lists(inner, max_size=4) | st.dictionaries(st.text(max_size=4), inner, max_size=4),
-    max_leaves=20)
+_leaf = (st.none() | st.booleans() | st.integers(-10**6, 10**6)
+         | st.floats(allow_nan=True, allow_infinity=True) | st.text(max_size=5))
+_nest1 = st.lists(_leaf, max_size=4) | st.dictionaries(st.text(max_size=4), _leaf, max_size=4)
+_json_values = (_leaf | _nest1 | st.lists(_nest1, max_size=3)
+                | st.dictionaries(st.text(max_size=4), _leaf | _nest1, max_size=4))
 
 
 def _finite_or_none(o):
