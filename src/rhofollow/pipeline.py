@@ -18,6 +18,9 @@ import warnings
 from dataclasses import dataclass, field
 from typing import Callable
 
+from rhofollow.core.defaults import DEFAULT_SEED, QUICK_SAMPLES
+from rhofollow.errors import InputError
+
 __all__ = ["PipelineOptions", "Stages", "PipelineResult", "run_stages", "run_pipeline", "StageProgress",
            "PipelineError", "planner_targets", "night_document", "campaign_document"]
 
@@ -25,7 +28,7 @@ __all__ = ["PipelineOptions", "Stages", "PipelineResult", "run_stages", "run_pip
 StageProgress = Callable[[str, int], Callable[..., None]]
 
 
-class PipelineError(ValueError):
+class PipelineError(InputError, ValueError):
     """A problem with the inputs of the chained run (message names the option or file)."""
 
 
@@ -43,8 +46,8 @@ class PipelineOptions:
     occultation windows.
     """
 
-    samples: int = 8000
-    seed: int = 20261202
+    samples: int = QUICK_SAMPLES
+    seed: int = DEFAULT_SEED
     ecc_prior: str | None = None
     transit_weight: bool = True
     workers: int = 1

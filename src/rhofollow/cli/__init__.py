@@ -56,9 +56,19 @@ def main(argv: list[str] | None = None) -> int:
         return _main(argv)
 
 
-def _main(argv: list[str] | None = None) -> int:
-    from rhofollow.cli.common import UserError
+def _internal(exc: BaseException, args) -> int:
+    """An unexpected error: one sentence and exit status 3 (the traceback with ``--debug``)."""
     from rhofollow.cli.render import message
+
+    if args.debug:
+        raise exc
+    message(f"{type(exc).__name__}: {exc} (run with --debug for the traceback)", "internal error")
+    return 3
+
+
+def _main(argv: list[str] | None = None) -> int:
+    from rhofollow.cli.render import message
+    from rhofollow.errors import NumericalError, RhofollowError
 
     parser = build_parser()
     args = parser.parse_args(argv)
@@ -67,28 +77,23 @@ def _main(argv: list[str] | None = None) -> int:
         return 2
     try:
         return int(args.func(args) or 0)
-    except UserError as exc:
+    except NumericalError as exc:    # a computation that did not converge: not the user's input
+        return _internal(exc, args)
+    except RhofollowError as exc:    # bad input, configuration, ledger or output: one sentence
         message(exc, "error")
         return 2
-    except OSError as exc:
-        from rhofollow.io.atomic import NoSpaceError, is_no_space
+    except OSError as exc:           # a full disk (NoSpaceError is an OutputError, caught above)
+        from rhofollow.io.atomic import is_no_space
 
-        if not (isinstance(exc, NoSpaceError) or is_no_space(exc)) or args.debug:
-            if args.debug:
-                raise
-            message(f"{type(exc).__name__}: {exc} (run with --debug for the traceback)", "internal error")
-            return 3
-        msg = str(exc) if isinstance(exc, NoSpaceError) else f"no space left on {exc.filename or 'the disk'}"
-        message(msg, "error")
+        if not is_no_space(exc) or args.debug:
+            return _internal(exc, args)
+        message(f"no space left on {exc.filename or 'the disk'}", "error")
         return 2
     except KeyboardInterrupt:
         message("interrupted")
         return 130
     except Exception as exc:  # noqa: BLE001 - last line of defence, the user sees one sentence
-        if args.debug:
-            raise
-        message(f"{type(exc).__name__}: {exc} (run with --debug for the traceback)", "internal error")
-        return 3
+        return _internal(exc, args)
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -3,7 +3,11 @@ with the hours to request per instrument."""
 from __future__ import annotations
 
 from rhofollow.cli.common import UserError, add_json_option, add_plan_options, atomic_write_text, console, write_json
+from rhofollow.cli.options import load_site_arg
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
+from rhofollow.cli.runs import nothing_to_plan, prepare
+from rhofollow.cli.summaries import print_planner_messages
+from rhofollow.core.defaults import MIN_PLANNING_SAMPLES
 
 __all__ = ["register", "run"]
 
@@ -66,7 +70,6 @@ def run(args) -> int:
     from rhofollow.planning.night import CAUTION, night_visibility
     from rhofollow.planning.tasks import jd_to_iso
     from rhofollow.planning.visibility import VisibilityEngine
-    from rhofollow.cli.night import load_site_arg, prepare
 
     start, end = _date(args.start, "--start"), _date(args.end, "--end")
     if end < start:
@@ -74,8 +77,8 @@ def run(args) -> int:
     n_nights = (end - start).days + 1
     if n_nights > MAX_NIGHTS:
         raise UserError(f"{n_nights} nights requested; at most {MAX_NIGHTS} (split the campaign)")
-    if args.samples < 200:
-        raise UserError(f"--samples must be at least 200, got {args.samples}")
+    if args.samples < MIN_PLANNING_SAMPLES:
+        raise UserError(f"--samples must be at least {MIN_PLANNING_SAMPLES}, got {args.samples}")
     site = load_site_arg(args.site)
     eng = VisibilityEngine(site)
     grids = [g for g in eng.nights(start, end) if g.kind != "no_night"]
@@ -83,8 +86,6 @@ def run(args) -> int:
         raise UserError(f"no dark time at {site.name} between {start} and {end}")
     prep = prepare(args, site, jd_to_iso(grids[0].start_jd - 0.5), jd_to_iso(grids[-1].end_jd + 0.5))
     if prep.stages is None:
-        from rhofollow.cli.night import nothing_to_plan
-
         return nothing_to_plan("campaign", args, prep, {"start": str(start), "end": str(end),
                                                         "timezone": site.timezone, "hours_total": {}})
     nights = []
@@ -112,15 +113,7 @@ def run(args) -> int:
             "overheads; 'no RV route': RVs from this instrument cannot confirm the eccentricity; clashes: "
             "items that cannot share their night with more valuable ones (details in --json).")
         message(CAUTION, "caution", to_stdout=True)
-    for n in prep.notices:
-        message(n, "notice")
-    for s in full["skipped"]:
-        message(f"{s['name']}: {s['reason']}", "skipped")
-    for t in full["targets"]:
-        for msg in t["errors"]:
-            message(f"{t['name']}: {msg}", "error")
-    for name, msg in prep.stages.unreachable.items():
-        message(f"{name}: {msg}", "warning")
+    print_planner_messages(prep.notices, full, prep.stages.unreachable)
     if args.json:
         write_json(args.json, full)
         message(f"wrote {args.json}")

@@ -1,19 +1,18 @@
 """Options and helpers shared by the commands (defined once, used everywhere)."""
 from __future__ import annotations
 
-import json
-import math
-from pathlib import Path
-
 from rich.console import Console
 
+from rhofollow.core.defaults import DEFAULT_SAMPLES, DEFAULT_SEED, MIN_SAMPLES
 from rhofollow.io.atomic import atomic_write_text
+from rhofollow.io.jsonout import _clean, json_default, write_json  # noqa: F401  (re-exported)
+from rhofollow.errors import InputError
 
 __all__ = ["UserError", "atomic_write_text", "console", "err_console", "add_json_option", "add_seed_option",
            "write_json", "atomic_write_text", "json_default"]
 
 
-class UserError(Exception):
+class UserError(InputError):
     """A problem the user can fix (bad path, bad option value); printed as one sentence."""
 
 
@@ -39,44 +38,9 @@ def add_json_option(p):
     p.add_argument("--json", metavar="PATH", help="write the machine-readable result as JSON")
 
 
-def add_seed_option(p, default: int = 20261202):
+def add_seed_option(p, default: int = DEFAULT_SEED):
     p.add_argument("--seed", type=int, default=default,
                    help=f"random seed; the same inputs and seed give the same outputs (default {default})")
-
-
-def json_default(o):
-    import numpy as np
-
-    if isinstance(o, (np.floating,)):
-        return float(o)
-    if isinstance(o, (np.integer,)):
-        return int(o)
-    if isinstance(o, np.bool_):
-        return bool(o)
-    if isinstance(o, np.ndarray):
-        return o.tolist()
-    if isinstance(o, Path):
-        return str(o)
-    raise TypeError(f"not JSON serialisable: {type(o).__name__}")
-
-
-def _clean(o):
-    """Replace non-finite floats by None so the JSON is standard (no NaN/Infinity tokens)."""
-    if isinstance(o, float):
-        return o if math.isfinite(o) else None
-    if isinstance(o, dict):
-        return {k: _clean(v) for k, v in o.items()}
-    if isinstance(o, (list, tuple)):
-        return [_clean(v) for v in o]
-    return o
-
-
-def write_json(path, obj) -> Path:
-    """Atomically write ``obj`` as standard JSON (NaN -> null)."""
-    import numpy as np  # noqa: F401  (json_default needs it)
-
-    text = json.dumps(_clean(json.loads(json.dumps(obj, default=json_default))), indent=2)
-    return atomic_write_text(path, text + "\n")
 
 
 # --------------------------------------------------------------------------------------------
@@ -84,11 +48,10 @@ def write_json(path, obj) -> Path:
 
 def add_assess_options(p) -> None:
     """Options of the assessment stage (shared by assess, eclipses, rv, night, campaign, plan)."""
-    from rhofollow.stages.assess import DEFAULT_N_SAMPLES
     from rhofollow.physics.priors import DEFAULT_PRIOR, PRIOR_NAMES
 
-    p.add_argument("--samples", type=int, default=DEFAULT_N_SAMPLES, metavar="N",
-                   help=f"posterior samples per target (default {DEFAULT_N_SAMPLES})")
+    p.add_argument("--samples", type=int, default=DEFAULT_SAMPLES, metavar="N",
+                   help=f"posterior samples per target (default {DEFAULT_SAMPLES})")
     p.add_argument("--ecc-prior", default=DEFAULT_PRIOR, metavar="NAME[:PARAMS]",
                    help=f"eccentricity prior: {', '.join(PRIOR_NAMES)}, or beta:A,B, halfnormal:S, "
                    f"rayleigh:S, uniform:EMAX (default {DEFAULT_PRIOR})")
@@ -169,8 +132,8 @@ def checked_prior(args):
         prior = parse_prior(args.ecc_prior)
     except ValueError as exc:
         raise UserError(f"--ecc-prior: {exc}") from None
-    if args.samples < 500:
-        raise UserError("--samples must be at least 500")
+    if args.samples < MIN_SAMPLES:
+        raise UserError(f"--samples must be at least {MIN_SAMPLES}")
     return prior
 
 

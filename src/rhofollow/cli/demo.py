@@ -15,27 +15,29 @@ __all__ = ["register", "run"]
 
 
 def register(subparsers):
-    from rhofollow.cli.plan import add_plan_options
+    from rhofollow.cli.options import add_report_options
 
     p = subparsers.add_parser(
         "demo", help="run the whole chain on the bundled demo scenario into ./rhofollow-report",
         description="The main job on invented demo data: assess the demo catalogue, predict occultations "
         "and RV needs, plan the first night and the coming two months at the demo site, and write the "
         "report folder (summary.html first).")
-    add_plan_options(p, demo=True)
+    add_report_options(p, demo=True)
     p.set_defaults(func=run)
 
 
 def run(args) -> int:
+    from rhofollow.cli import options
     from rhofollow.cli.render import message
-    from rhofollow.cli.plan import DEMO_DAYS, _print_summary, demo_paths, plan_to_folder, site_evening_date
+    from rhofollow.cli.runs import plan_to_folder
+    from rhofollow.cli.summaries import print_plan_summary
 
-    cat, site = demo_paths()
-    start = site_evening_date(site)
-    end = start + dt.timedelta(days=DEMO_DAYS)
+    cat, site = options.demo_paths()
+    start = options.site_evening_date(site)
+    end = start + dt.timedelta(days=options.DEMO_DAYS)
     message(f"Demo: {cat.name} at {site.name}, {start} to {end} (invented data).")
     out = Path(args.out)
     written = plan_to_folder(cat, site, start, end, out, args, command="demo")
     if written["result"] is not None:
-        _print_summary(written, out)
+        print_plan_summary(written, out)
     return written["doc"]["exit_status"]

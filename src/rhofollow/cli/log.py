@@ -11,6 +11,7 @@ import argparse
 
 from rhofollow.cli.common import UserError, add_json_option, add_seed_option, console, write_json
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, print_table, say, table_note
+from rhofollow.core.defaults import DEFAULT_SAMPLES
 
 __all__ = ["register", "run"]
 
@@ -115,7 +116,7 @@ def register(subparsers) -> None:
                        "the samples with its RVs, occultation timings and non-detections, and "
                        "store the new posterior version.")
     s.add_argument("targets", metavar="TARGET", nargs="*")
-    s.add_argument("--samples", type=int, default=20000, metavar="N")
+    s.add_argument("--samples", type=int, default=DEFAULT_SAMPLES, metavar="N")
     s.add_argument("--jitter", type=float, default=0.0, metavar="M_S",
                    help="stellar jitter added to the RV errors in quadrature (m/s)")
     s.add_argument("--no-store", action="store_true", help="do not store the posterior version")

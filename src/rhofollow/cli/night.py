@@ -1,12 +1,12 @@
 """``rhofollow night``: tonight's (or a given night's) follow-up plan at the observer's site."""
 from __future__ import annotations
 
-from dataclasses import dataclass
-from pathlib import Path
-
-from rhofollow.cli.common import (UserError, add_json_option, add_plan_options, console, load_catalogue,
-                     report_row_issues, stage_progress, write_json)
+from rhofollow.cli.common import UserError, add_json_option, add_plan_options, console, write_json
+from rhofollow.cli.options import load_site_arg
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
+from rhofollow.cli.runs import Prepared, nothing_to_plan, prepare  # noqa: F401  (also importable from here)
+from rhofollow.cli.summaries import print_planner_messages
+from rhofollow.core.defaults import MIN_PLANNING_SAMPLES
 
 __all__ = ["register", "run", "prepare", "Prepared", "load_site_arg"]
 
@@ -25,68 +25,6 @@ def register(subparsers):
     add_json_option(p)
     add_plan_options(p)
     p.set_defaults(func=run)
-
-
-@dataclass
-class Prepared:
-    """Everything the plan commands share: site, engine, instruments, science dicts, skips."""
-
-    site: object
-    engine: object
-    science: list
-    skipped: list
-    overhead_h: float
-    model: object
-    instruments: dict
-    notices: list
-    stages: object = None
-    catalogue: object = None
-
-
-def load_site_arg(path):
-    """The site file named by ``--site`` (a :class:`UserError` naming file and key if invalid)."""
-    from rhofollow.planning.site import ConfigError, load_site
-
-    try:
-        return load_site(path)
-    except (ConfigError, OSError) as exc:
-        raise UserError(str(exc)) from None
-
-
-def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
-    """Read the catalogue, run assess -> eclipses -> rv for [start_iso, end_iso] (UTC) at ``site``
-    (through :func:`rhofollow.pipeline.run_stages`, with the ledger when ``--ledger`` is given)."""
-    from rhofollow.pipeline import PipelineError, PipelineOptions, run_stages
-    from rhofollow.planning.visibility import VisibilityEngine
-
-    if args.samples < 200:
-        raise UserError(f"--samples must be at least 200, got {args.samples}")
-    cat = load_catalogue(args.catalog, require_coords=True)
-    report_row_issues(cat)
-    if not cat.targets:
-        return Prepared(site, VisibilityEngine(site), [], [], 0.0, None, {}, [], None, cat)
-    opts = PipelineOptions(samples=args.samples, seed=args.seed, ecc_prior=args.ecc_prior,
-                           transit_weight=not args.no_transit_weight, workers=args.workers,
-                           ledger=args.ledger)
-    try:
-        with stage_progress() as stage:
-            st = run_stages(cat.targets, site, start_iso, end_iso, opts, progress=stage)
-    except PipelineError as exc:
-        raise UserError(str(exc)) from None
-    return Prepared(site, VisibilityEngine(site), st.science, st.skipped, st.overhead_h, st.model,
-                    st.instruments, st.notices, st, cat)
-
-
-def nothing_to_plan(command: str, args, prep: Prepared, payload: dict) -> int:
-    """Every catalogue row failed validation: say so, write the envelope (row errors only), exit 1."""
-    from rhofollow.stages.records import envelope
-
-    message(f"{args.catalog}: no valid target rows to plan", "error")
-    doc = envelope(command, catalogue=prep.catalogue, seed=args.seed,
-                   payload=dict(payload, site=prep.site.name, samples=args.samples))
-    if args.json:
-        write_json(args.json, doc)
-    return doc["exit_status"]
 
 
 def _local(engine, jd: float) -> str:
@@ -140,8 +78,8 @@ def run(args) -> int:
         date = None
     from rhofollow.planning.visibility import VisibilityEngine
 
-    if args.samples < 200:
-        raise UserError(f"--samples must be at least 200, got {args.samples}")
+    if args.samples < MIN_PLANNING_SAMPLES:
+        raise UserError(f"--samples must be at least {MIN_PLANNING_SAMPLES}, got {args.samples}")
     site = load_site_arg(args.site)
     eng = VisibilityEngine(site)
     date = date or eng.coming_night_date()
@@ -171,15 +109,7 @@ def run(args) -> int:
     say(f"Total value {doc['total_value']:.3f} ({doc['method']}, {doc['solver_status']}); "
         f"{prep.overhead_h * 60:.0f} min slew + setup between blocks.")
     message(CAUTION, "caution", to_stdout=True)
-    for n in prep.notices:
-        message(n, "notice")
-    for s in doc["skipped"]:
-        message(f"{s['name']}: {s['reason']}", "skipped")
-    for t in doc["targets"]:
-        for msg in t["errors"]:
-            message(f"{t['name']}: {msg}", "error")
-    for name, msg in prep.stages.unreachable.items():
-        message(f"{name}: {msg}", "warning")
+    print_planner_messages(prep.notices, doc, prep.stages.unreachable)
     if args.json:
         write_json(args.json, doc)
         message(f"wrote {args.json}")

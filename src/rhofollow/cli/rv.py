@@ -9,6 +9,7 @@ from rich.text import Text
 from rhofollow.cli.common import (UserError, add_assess_options, add_json_option, console, run_assessment,
                      write_json)
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
+from rhofollow.core.defaults import DEFAULT_SIMS, MIN_PLANNING_SAMPLES, MIN_SIMS
 
 __all__ = ["register", "run"]
 
@@ -36,8 +37,8 @@ def register(subparsers):
                    help="planet mass-radius relation when no mass is known (default auto)")
     p.add_argument("--k-mode", default="marginal", choices=["marginal", "mass"],
                    help="RV update: marginalise K analytically, or take K from the mass draws")
-    p.add_argument("--sims", type=int, default=2000,
-                   help="simulated data sets under the circular null per test (default 2000; the "
+    p.add_argument("--sims", type=int, default=DEFAULT_SIMS,
+                   help=f"simulated data sets under the circular null per test (default {DEFAULT_SIMS}; the "
                    "false-alarm threshold needs several per FAP^-1)")
     add_json_option(p)
     add_assess_options(p)
@@ -105,10 +106,10 @@ def run(args) -> int:
         raise UserError(f"--fap must lie between 0 and 1, got {args.fap}")
     if not 0 < args.power < 1:
         raise UserError(f"--power must lie between 0 and 1, got {args.power}")
-    if args.sims < 100:
-        raise UserError(f"--sims must be at least 100, got {args.sims}")
-    if args.samples < 200:
-        raise UserError(f"--samples must be at least 200, got {args.samples}")
+    if args.sims < MIN_SIMS:
+        raise UserError(f"--sims must be at least {MIN_SIMS}, got {args.sims}")
+    if args.samples < MIN_PLANNING_SAMPLES:
+        raise UserError(f"--samples must be at least {MIN_PLANNING_SAMPLES}, got {args.samples}")
     try:
         insts = read_instruments(args.instrument)
     except InstrumentError as exc:

@@ -18,11 +18,13 @@ import contextlib
 import threading
 import warnings
 
+from rhofollow.errors import RhofollowWarning
+
 __all__ = ["OfflineTablesWarning", "configure_offline", "iers_table_end_jd", "notice_if_beyond_tables",
            "astropy_quietly", "reset_notice"]
 
 
-class OfflineTablesWarning(UserWarning):
+class OfflineTablesWarning(RhofollowWarning):
     """Dates lie beyond the installed Earth-orientation tables; accuracy is degraded, not lost."""
 
 

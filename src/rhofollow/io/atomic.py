@@ -14,6 +14,8 @@ import stat
 import tempfile
 from pathlib import Path
 
+from rhofollow.errors import OutputError
+
 __all__ = ["NoSpaceError", "atomic_write_bytes", "atomic_write_text", "current_umask", "is_no_space",
            "new_file_mode", "new_dir_mode"]
 
@@ -21,7 +23,7 @@ __all__ = ["NoSpaceError", "atomic_write_bytes", "atomic_write_text", "current_u
 _NO_SPACE = {errno.ENOSPC} | ({errno.EDQUOT} if hasattr(errno, "EDQUOT") else set())
 
 
-class NoSpaceError(OSError):
+class NoSpaceError(OutputError, OSError):
     """The disk is full; the message says where and that nothing was written."""
 
     def __init__(self, path, what: str = "nothing was written"):

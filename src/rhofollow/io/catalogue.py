@@ -28,12 +28,13 @@ from pathlib import Path
 import astropy.units as u
 
 from rhofollow.core.types import CatalogueResult, Measurement, RowIssue, Target
+from rhofollow.errors import InputError
 
 __all__ = ["CatalogueError", "ColumnSpec", "COLUMNS", "read_catalogue", "SUPPORTED_EXTENSIONS",
            "PHYSICAL_RANGES"]
 
 
-class CatalogueError(ValueError):
+class CatalogueError(InputError, ValueError):
     """The catalogue file as a whole cannot be used (missing, unreadable, no rows, no name column).
 
     ``str(exc)`` is one sentence that names the file.
@@ -42,7 +43,7 @@ class CatalogueError(ValueError):
     def __init__(self, source: str | os.PathLike, reason: str):
         self.source = str(source)
         self.reason = reason
-        super().__init__(f"{self.source}: {reason}")
+        super().__init__(f"{self.source}: {reason}", file=self.source)
 
 
 # ---------------------------------------------------------------------------------------------

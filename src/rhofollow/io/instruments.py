@@ -36,12 +36,13 @@ import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
+from rhofollow.errors import InputError
 from rhofollow.physics.thermal import BAND_MAX_UM, BAND_MIN_UM
 
 __all__ = ["InstrumentError", "Spectrograph", "Photometer", "read_instrument", "read_instruments"]
 
 
-class InstrumentError(ValueError):
+class InstrumentError(InputError, ValueError):
     """An instrument file is missing, unreadable or has a bad key (message names file and key)."""
 
 

@@ -46,6 +46,7 @@ from pathlib import Path
 from rhofollow.io.atomic import is_no_space
 from rhofollow.io.safety import csv_text, csv_unquote
 from rhofollow.core.types import RowIssue
+from rhofollow.errors import LedgerError
 
 __all__ = [
     "SCHEMA_VERSION", "DEFAULT_LEDGER", "LedgerError", "IngestError", "IngestReport", "Ledger",
@@ -77,10 +78,6 @@ RV_SAME_TIME_D = 60.0 / 86400.0
 #: Two occultation detections of one target whose mid-times differ by less than this many
 #: combined 1-sigma errors are one measurement (separate events are a period apart).
 OCC_SAME_SIGMA = 3.0
-
-
-class LedgerError(Exception):
-    """A problem with the ledger file itself (newer schema, not a ledger, ...)."""
 
 
 class IngestError(LedgerError):

@@ -26,12 +26,14 @@ from pathlib import Path
 
 import numpy as np
 
+from rhofollow.errors import InputError
+
 __all__ = ["RVDataError", "RVData", "RV_COLUMNS", "read_rv_file", "read_rv_dir", "read_rv_data"]
 
 RV_COLUMNS = ("bjd_tdb", "rv_ms", "rv_err_ms", "instrument")
 
 
-class RVDataError(ValueError):
+class RVDataError(InputError, ValueError):
     """A malformed RV file; the message names the file, row and column."""
 
 

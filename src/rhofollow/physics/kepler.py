@@ -13,6 +13,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from rhofollow.errors import NumericalError
+
 __all__ = [
     "KeplerConvergenceError",
     "E_MAX",
@@ -40,7 +42,7 @@ _TWO_PI = 2.0 * np.pi
 _CHUNK = 1 << 14  # elements per block: the temporaries of one block stay in the CPU cache
 
 
-class KeplerConvergenceError(ArithmeticError):
+class KeplerConvergenceError(NumericalError, ArithmeticError):
     """Raised when Kepler's equation could not be solved to :data:`RESIDUAL_TOL`."""
 
 

@@ -15,6 +15,7 @@ import numpy as np
 
 from rhofollow.physics.constants import C_SI, DAY_S, R_SUN_M
 from rhofollow.physics.kepler import true_to_mean
+from rhofollow.errors import NumericalError
 
 __all__ = [
     "ContactError",
@@ -33,7 +34,7 @@ __all__ = [
 _TWO_PI = 2.0 * np.pi
 
 
-class ContactError(ArithmeticError):
+class ContactError(NumericalError, ArithmeticError):
     """Raised when the contact points of an eclipse could not be located."""
 
 

@@ -45,6 +45,8 @@ from typing import Callable, Sequence, Union
 
 import numpy as np
 
+from rhofollow.errors import RhofollowError
+
 __all__ = ["FixedTask", "FlexibleTask", "Candidate", "Block", "Schedule", "ScheduleError",
            "candidates", "solve_fixed", "solve_milp", "solve_greedy", "solve_brute_force",
            "schedule", "validate_schedule", "METHODS"]
@@ -55,7 +57,7 @@ EPS = 1e-9
 ValueSpec = Union[float, Callable[[np.ndarray], np.ndarray]]
 
 
-class ScheduleError(ValueError):
+class ScheduleError(RhofollowError, ValueError):
     """A schedule breaks a rule (overlap, start outside its window, task used twice) or input is bad."""
 
 

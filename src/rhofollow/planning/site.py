@@ -22,6 +22,8 @@ from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
 import numpy as np
 
+from rhofollow.errors import ConfigError
+
 __all__ = ["ConfigError", "Site", "Constraints", "TWILIGHT_SUN_ALTITUDE_DEG", "load_site", "check_site",
            "site_from_dict", "airmass_to_altitude_deg"]
 
@@ -30,18 +32,7 @@ __all__ = ["ConfigError", "Site", "Constraints", "TWILIGHT_SUN_ALTITUDE_DEG", "l
 TWILIGHT_SUN_ALTITUDE_DEG = {"civil": -6.0, "nautical": -12.0, "astronomical": -18.0}
 
 
-class ConfigError(ValueError):
-    """A site (or other) configuration file is invalid. ``problems`` lists every problem found."""
-
-    def __init__(self, path, problems: list[str]):
-        self.path = Path(path) if path is not None else None
-        self.problems = list(problems)
-        where = str(path) if path is not None else "<site config>"
-        if len(self.problems) == 1:
-            msg = f"{where}: {self.problems[0]}"
-        else:
-            msg = f"{where}: {len(self.problems)} problems:\n  - " + "\n  - ".join(self.problems)
-        super().__init__(msg)
+# ConfigError (every problem of a configuration file) is defined in rhofollow.errors, re-exported here.
 
 
 def airmass_to_altitude_deg(airmass: float) -> float:

@@ -22,6 +22,7 @@ from pathlib import Path
 from rhofollow.io.atomic import NoSpaceError, is_no_space, new_dir_mode
 from rhofollow.io.safety import file_stem
 from rhofollow.report.files import atomic_write_bytes, save_figure
+from rhofollow.errors import OutputError
 
 __all__ = ["write_report", "slug", "REPORT_FILES", "ReportFolderError", "check_report_folder"]
 
@@ -31,7 +32,7 @@ REPORT_FILES = ("summary.md", "summary.html", "results.json", "results.ecsv", "r
 _REPORT_DIRS = ("samples", "plots")
 
 
-class ReportFolderError(Exception):
+class ReportFolderError(OutputError):
     """The report folder cannot be (re)placed: it is a file, or holds files not of a report."""
 
 
@@ -119,7 +120,7 @@ def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict
     -------
     dict with ``doc`` (the results.json document), ``files`` (paths written) and ``ranking``.
     """
-    from rhofollow.cli.common import write_json
+    from rhofollow.io.jsonout import write_json
     from rhofollow.report.schedule_chart import night_figure
     from rhofollow.planning.campaign import to_ical
     from rhofollow.report import plots

@@ -14,6 +14,9 @@ import datetime as _dt
 
 import numpy as np
 
+from rhofollow.core.defaults import DEFAULT_SEED
+from rhofollow.core.seeds import target_rng
+
 __all__ = ["COLOURS", "ecc_cmap", "evidence_cmap", "density_figure", "ecc_omega_figure",
            "occultation_figure", "rv_figure", "overview_figure", "campaign_figure", "rv_model_draws",
            "record_k_draws", "k_summary", "highest_altitude_deg", "rises_at_site",
@@ -312,7 +315,8 @@ def occultation_figure(samples, occ_record: dict, campaign_windows: list | None 
 # ---------------------------------------------------------------------------------------------
 # RV curves
 
-def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = 0, k=None, weights=None):
+def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = DEFAULT_SEED, k=None,
+                   weights=None):
     """Posterior draws of the RV curve against phase from transit.
 
     Returns ``(phase, eccentric (D, n_phase), circular (D, n_phase), k (D,))`` in m/s. K per sample
@@ -324,7 +328,7 @@ def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = 0
 
     if k is None:
         k, _ = record_k_draws(samples, seed)
-    rng = np.random.default_rng(seed)
+    rng = target_rng(seed, samples.name, "rv-model-draws")
     w = samples.weights if weights is None else np.asarray(weights, float) / np.sum(weights)
     cw = np.cumsum(w)
     cw[-1] = 1.0
@@ -336,11 +340,11 @@ def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = 0
     return ph, ecc, circ, kk
 
 
-def record_k_draws(samples, seed: int = 0, relation: str = "auto"):
+def record_k_draws(samples, seed: int = DEFAULT_SEED, relation: str = "auto"):
     """(K per sample in m/s, weights): the very draws behind the RV record's ``k_ms`` for this seed."""
-    from rhofollow.stages.rv import _rng, planet_mass_and_k
+    from rhofollow.stages.rv import planet_mass_and_k
 
-    _, k, _ = planet_mass_and_k(samples, _rng(seed, samples.name, "mass"), relation)
+    _, k, _ = planet_mass_and_k(samples, target_rng(seed, samples.name, "mass"), relation)
     return k, samples.weights
 
 
@@ -348,7 +352,6 @@ def _rv_update(samples, rv_data, jitter, seed, k_mode="marginal"):
     """(weights, K per sample) of the posterior after the measured RVs (offsets free), drawn as the
     RV record's update draws them (same generator, same K mode)."""
     from rhofollow.physics.rvupdate import conditional_k, rv_log_likelihood
-    from rhofollow.stages.rv import _rng
 
     k_mass, _ = record_k_draws(samples, seed)
     args = (rv_data.bjd_tdb, rv_data.rv_ms, rv_data.rv_err_ms, rv_data.groups(), samples.period,
@@ -357,7 +360,7 @@ def _rv_update(samples, rv_data, jitter, seed, k_mode="marginal"):
                                                 jitter_ms=jitter))
     if k_mode == "mass":
         return post.weights, k_mass
-    k = conditional_k(*args, jitter_ms=jitter, rng=_rng(seed, samples.name, "kcond"))
+    k = conditional_k(*args, jitter_ms=jitter, rng=target_rng(seed, samples.name, "kcond"))
     return post.weights, k
 
 
@@ -382,7 +385,7 @@ def k_summary(rv_record: dict | None, k=None, weights=None) -> tuple[float, dict
 
 
 def rv_figure(samples, rv_record: dict | None, visits: list | None = None, night_phases: list | None = None,
-              rv_data=None, seed: int = 0):
+              rv_data=None, seed: int = DEFAULT_SEED):
     """Predicted RV curves (posterior draws), circular vs eccentric, with the informative phases,
     the planned visits (campaign: triangles, first night: star) and measured RVs when given.
 

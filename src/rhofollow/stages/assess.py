@@ -7,7 +7,6 @@ runs the hypotheses and builds the JSON record of the ``assess`` command. No pri
 from __future__ import annotations
 
 import math
-import zlib
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -21,12 +20,14 @@ from rhofollow.physics.transit import g_factor
 from rhofollow.physics.sampling import draw_split_normal
 from rhofollow.physics.transit import ars_from_t14_b, ecc_min_from_ratio, rho_from_ars, smo_invert
 from rhofollow.core.samples import SampleSet, quantile_dict, reliability, weighted_quantiles
+from rhofollow.core.defaults import DEFAULT_SAMPLES, DEFAULT_SEED
+from rhofollow.core.seeds import target_seed  # the per-target generator (re-exported here)
 
 __all__ = ["Assessment", "assess_target", "assess_catalogue", "target_seed", "READINGS", "LABELS",
            "evidence_strength", "DEFAULT_N_SAMPLES", "ESS_FLOOR", "CHI2_REJECT", "DEFAULT_RADIUS_RATIO",
            "PRIOR_DRIVEN_DELTA", "REMAINING_LN_B", "ORBIT_TENSION_SIGMA"]
 
-DEFAULT_N_SAMPLES = 20000
+DEFAULT_N_SAMPLES = DEFAULT_SAMPLES
 #: An explanation whose best sample misses the transit measurements and the star's density by more than
 #: this chi^2 does not fit (about 5 sigma for one or two measurements). A row that no explanation with
 #: the measured star fits is kept and reported as a finding ("no explanation fits"), ranked low.
@@ -81,12 +82,6 @@ def evidence_strength(ln_bayes: float) -> str:
     if two < 10:
         return "strong"
     return "very strong"
-
-
-def target_seed(seed: int, name: str) -> np.random.Generator:
-    """Generator for one target: depends on the run seed and the target name only (not on order or
-    chunking), so serial, multi-process and cluster runs give identical results."""
-    return np.random.default_rng(np.random.SeedSequence([int(seed) & 0xFFFFFFFF, zlib.crc32(name.encode())]))
 
 
 @dataclass
@@ -269,7 +264,7 @@ def _explanation_probabilities(logz: dict) -> dict:
 
 
 def assess_target(t: Target, n_samples: int = DEFAULT_N_SAMPLES, prior: str | EccPrior = DEFAULT_PRIOR,
-                  seed: int = 0, transit_prob: bool = True, ess_floor: float = ESS_FLOOR,
+                  seed: int = DEFAULT_SEED, transit_prob: bool = True, ess_floor: float = ESS_FLOOR,
                   hypotheses=HYPOTHESES, extra_loglike=None) -> Assessment:
     """Assess one validated target. Never raises for a bad row: problems land in ``errors``.
 
@@ -558,7 +553,7 @@ def _consistency(finding, ratio_sigma, orbit_tension, chi2, remaining, favoured,
 
 
 def assess_catalogue(targets, n_samples: int = DEFAULT_N_SAMPLES, prior: str | EccPrior = DEFAULT_PRIOR,
-                     seed: int = 0, transit_prob: bool = True, ess_floor: float = ESS_FLOOR,
+                     seed: int = DEFAULT_SEED, transit_prob: bool = True, ess_floor: float = ESS_FLOOR,
                      progress=None) -> list[Assessment]:
     """Assess every target (serially; see :mod:`rhofollow.core.executor` for pools and clusters).
 

@@ -30,6 +30,7 @@ __all__ = ["CAUTION", "MAX_RANGE_YEARS", "EclipseInputError", "EclipseOptions", 
 
 #: Printed with every plan: the tool advises, the observatory decides.
 from rhofollow.stages.records import CAUTION  # noqa: E402  (one caution text for every output)
+from rhofollow.errors import InputError
 
 #: Longest date range accepted (years): ephemeris errors grow with the epoch number.
 MAX_RANGE_YEARS = 20.0
@@ -37,7 +38,7 @@ MAX_RANGE_YEARS = 20.0
 _DAY_H = 24.0
 
 
-class EclipseInputError(ValueError):
+class EclipseInputError(InputError, ValueError):
     """A bad option value for the occultation predictions (message names the option)."""
 
 

@@ -15,8 +15,6 @@ Observatory safety limits and site operations rules override any plan made from 
 """
 from __future__ import annotations
 
-import zlib
-
 import numpy as np
 
 from rhofollow.io.instruments import Spectrograph
@@ -26,17 +24,13 @@ from rhofollow.physics.constants import G_SI, M_SUN_KG, R_EARTH_M, R_SUN_M
 from rhofollow.physics.massradius import draw_planet_mass
 from rhofollow.physics.rv import semi_amplitude
 from rhofollow.core.samples import SampleSet, quantile_dict, reliability, weighted_quantiles
+from rhofollow.core.defaults import DEFAULT_SEED
+from rhofollow.core.seeds import target_rng as _rng  # per-target, per-stage generator
 
 __all__ = ["CAUTION", "K_MODES", "rv_record", "plan_rv", "planet_mass_and_k"]
 
 from rhofollow.stages.records import CAUTION  # noqa: E402  (one caution text for every output)
 K_MODES = ("marginal", "mass")
-
-
-def _rng(seed: int, name: str, tag: str) -> np.random.Generator:
-    """Per-target generator: depends on the run seed, the target name and the stage only."""
-    return np.random.default_rng(np.random.SeedSequence(
-        [int(seed) & 0xFFFFFFFF, zlib.crc32(name.encode()), zlib.crc32(tag.encode())]))
 
 
 def planet_mass_and_k(s: SampleSet, rng: np.random.Generator, relation: str = "auto"):
@@ -67,7 +61,7 @@ def _star_numbers(s: SampleSet):
 
 
 def rv_record(s: SampleSet, instrument: Spectrograph, rv_data: RVData | None = None, *, fap=0.01,
-              power=0.8, seed=0, relation="auto", k_mode="marginal", n_alt=400, n_null=2000,
+              power=0.8, seed=DEFAULT_SEED, relation="auto", k_mode="marginal", n_alt=400, n_null=2000,
               grid: rvconfirm.EccGrid | None = None) -> dict:
     """The RV record of one target (see module docstring for the keys). Raises ValueError on a
     target that cannot be planned (for example no V magnitude)."""
@@ -173,7 +167,7 @@ def _update(s: SampleSet, k, data: RVData, jitter, fap, seed, k_mode, grid, n_nu
 
 
 def plan_rv(assessments, instrument: Spectrograph, rv_data: dict[str, RVData] | None = None, *,
-            fap=0.01, power=0.8, seed=0, relation="auto", k_mode="marginal", n_alt=400, n_null=2000,
+            fap=0.01, power=0.8, seed=DEFAULT_SEED, relation="auto", k_mode="marginal", n_alt=400, n_null=2000,
             progress=None) -> list[dict]:
     """RV records for every assessment (failed assessments become ``ok: false`` records).
 

@@ -23,6 +23,8 @@ from rhofollow.io.ledger import Ledger, OccultationTiming, RVMeasurement
 from rhofollow.core.types import Measurement, Target
 from rhofollow.physics import occultation_timing as ot
 from rhofollow.core.samples import SampleSet, quantile_dict
+from rhofollow.core.defaults import DEFAULT_SAMPLES, DEFAULT_SEED
+from rhofollow.errors import LedgerError
 
 __all__ = ["LedgerUpdate", "LedgerUpdateError", "DEFAULT_BAND_UM", "rv_log_like",
            "occultation_log_like", "posterior_summary", "update_from_ledger", "data_log_like",
@@ -38,7 +40,7 @@ MIN_ESS_WARNING = 200.0
 RESAMPLE_ESS = 1000.0
 
 
-class LedgerUpdateError(ValueError):
+class LedgerUpdateError(LedgerError, ValueError):
     """The measurements cannot be reconciled with any sample (all weights vanish)."""
 
 
@@ -171,7 +173,7 @@ def data_log_like(name: str, rvs, timings, *, jitter_ms: float = 0.0, threshold_
 
 def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float = 0.0,
                        threshold_sigma: float = 3.0, store: bool = True, target: Target | None = None,
-                       prior=None, seed: int = 0) -> LedgerUpdate:
+                       prior=None, seed: int = DEFAULT_SEED) -> LedgerUpdate:
     """Re-weight ``samples`` with everything the ledger holds for ``samples.name``.
 
     When the data are so informative that the re-weighted effective sample size falls below
@@ -237,8 +239,8 @@ def target_from_catalogue_row(name: str, row: dict) -> Target:
                   values=values)
 
 
-def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples: int = 20000,
-                   prior=None, seed: int = 0, jitter_ms: float = 0.0, store: bool = True
+def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples: int = DEFAULT_SAMPLES,
+                   prior=None, seed: int = DEFAULT_SEED, jitter_ms: float = 0.0, store: bool = True
                    ) -> list[dict]:
     """Assess each ledger target from its stored catalogue row, then re-weight with its data.
 
@@ -287,7 +289,7 @@ def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples:
 
 
 def apply_to_assessments(ledger: Ledger, assessments, *, jitter_ms: float = 0.0,
-                         store: bool = False, seed: int = 0) -> dict[str, LedgerUpdate]:
+                         store: bool = False, seed: int = DEFAULT_SEED) -> dict[str, LedgerUpdate]:
     """For the planners: replace, in place, the samples of each assessment that has RVs or
     occultation data in the ledger by the re-weighted samples, and add the update's warnings.
 

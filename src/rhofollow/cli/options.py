@@ -1,0 +1,90 @@
+"""Options and argument loading shared by several commands (no command imports another).
+
+* :func:`add_report_options`: the options of ``plan`` and ``demo``;
+* :func:`load_site_arg`: the ``--site`` file, as a :class:`rhofollow.planning.site.Site`;
+* :func:`demo_paths`, :func:`site_evening_date`, :data:`DEMO_DAYS`: the bundled demo scenario and its
+  date range (``plan`` without a catalogue, ``demo``).
+
+The options of the assessment and of the night and campaign planners are in :mod:`rhofollow.cli.common`.
+"""
+from __future__ import annotations
+
+import datetime as dt
+from pathlib import Path
+
+from rhofollow.cli.common import UserError, add_seed_option
+from rhofollow.core.defaults import DEFAULT_SAMPLES, DEFAULT_SIMS, QUICK_SAMPLES, QUICK_SIMS
+
+__all__ = ["add_report_options", "load_site_arg", "demo_paths", "site_evening_date", "DEMO_DAYS"]
+
+#: Length of the demo's date range (days from today).
+DEMO_DAYS = 60
+
+
+def add_report_options(p, demo: bool = False) -> None:
+    """Options shared by ``plan`` and ``demo`` (``demo``: no catalogue, site or dates; shorter defaults)."""
+    from rhofollow.physics.priors import DEFAULT_PRIOR
+
+    if not demo:
+        p.add_argument("catalog", metavar="CATALOG", nargs="?",
+                       help="target catalogue (CSV, ECSV or VOTable); omit for the bundled demo")
+        p.add_argument("--site", metavar="FILE", help="site file (TOML); required with a catalogue")
+        p.add_argument("--start", metavar="YYYY-MM-DD", help="local date of the first evening")
+        p.add_argument("--end", metavar="YYYY-MM-DD", help="local date of the last evening")
+    p.add_argument("--out", metavar="DIR", default="rhofollow-report" if demo else None,
+                   required=not demo, help="report folder (created, or an earlier report folder replaced as a whole)"
+                   + (" (default ./rhofollow-report)" if demo else ""))
+    samples = QUICK_SAMPLES if demo else DEFAULT_SAMPLES
+    p.add_argument("--samples", type=int, default=samples, metavar="N",
+                   help=f"posterior samples per target (default {samples})")
+    p.add_argument("--ecc-prior", default=DEFAULT_PRIOR, metavar="NAME[:PARAMS]",
+                   help=f"eccentricity prior (default {DEFAULT_PRIOR}; see `rhofollow assess --help`)")
+    p.add_argument("--no-transit-weight", action="store_true",
+                   help="do not weight the prior by the transit probability")
+    p.add_argument("--workers", type=int, default=1, metavar="N",
+                   help="processes for the per-target work (results identical to 1 worker)")
+    p.add_argument("--dask", metavar="ADDRESS",
+                   help="send the per-target work to this dask.distributed scheduler (e.g. tcp://host:8786)")
+    p.add_argument("--rv-data", metavar="PATH",
+                   help="measured RVs: a folder of <target>.csv / .ecsv files, or one file with a 'target' column")
+    sims = QUICK_SIMS if demo else DEFAULT_SIMS
+    p.add_argument("--sims", type=int, default=sims, metavar="N",
+                   help=f"simulated null data sets per RV test (default {sims})")
+    p.add_argument("--plot-targets", type=int, default=10, metavar="N",
+                   help="per-target figures for the N highest-ranked targets (0: all; default 10)")
+    add_seed_option(p)
+
+
+def load_site_arg(path):
+    """The site file named by ``--site`` (a :class:`UserError` naming file and key if invalid)."""
+    from rhofollow.planning.site import ConfigError, load_site
+
+    try:
+        return load_site(path)
+    except (ConfigError, OSError) as exc:
+        raise UserError(str(exc)) from None
+
+
+def demo_paths() -> tuple[Path, Path]:
+    """The bundled demo catalogue and site: package data (:mod:`rhofollow.io.demo_data`), so the demo
+    runs from a wheel as from a source checkout."""
+    from rhofollow.io.demo_data import demo_file
+
+    try:
+        return (demo_file("examples/hts_candidates.csv"), demo_file("site_configs/alto_quemado.toml"))
+    except FileNotFoundError as exc:
+        raise UserError(f"{exc}; reinstall rhofollow, or give a catalogue, --site, --start and --end "
+                        "instead") from None
+
+
+def site_evening_date(site_path) -> dt.date:
+    """The local date of the evening in progress or coming at the site (before local noon: the
+    evening that began yesterday), from the site file's IANA time zone; today's UTC date if unreadable."""
+    from rhofollow.planning.site import ConfigError, load_site
+
+    try:
+        tz = load_site(site_path, check_files=False).tzinfo
+    except (ConfigError, OSError):
+        return dt.datetime.now(dt.timezone.utc).date()
+    now = dt.datetime.now(tz)
+    return now.date() - dt.timedelta(days=1) if now.hour < 12 else now.date()
