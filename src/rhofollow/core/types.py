@@ -1,15 +1,19 @@
-"""Plain data records produced by the catalogue reader (no I/O here).
+"""Plain data records shared by the readers, the ledger and the stages (no I/O here).
 
 A catalogue row becomes a :class:`Target`: canonical column names (as in DESIGN.md, with their
 unit suffixes, e.g. ``period_d``, ``t14_h``, ``rho_star_cgs``) mapped to :class:`Measurement`.
-Values are already converted to the unit the suffix names.
+Values are already converted to the unit the suffix names. Measured radial velocities of one
+target travel as one :class:`RVSeries`, whether they come from an RV file
+(:mod:`rhofollow.io.rvdata`) or from the ledger.
 """
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
 
-__all__ = ["Measurement", "Target", "RowIssue", "CatalogueResult"]
+import numpy as np
+
+__all__ = ["Measurement", "Target", "RowIssue", "CatalogueResult", "RVSeries"]
 
 
 @dataclass(frozen=True)
@@ -97,3 +101,46 @@ class CatalogueResult:
     @property
     def ok(self) -> bool:
         return not self.errors
+
+
+@dataclass
+class RVSeries:
+    """Measured radial velocities of one target, in time order (arrays of equal length N).
+
+    Attributes
+    ----------
+    target : str
+    bjd_tdb : ndarray (N,)
+        Mid-exposure times, BJD_TDB (days).
+    rv_ms, rv_err_ms : ndarray (N,)
+        Radial velocity and its 1-sigma error (m/s, error > 0, without jitter).
+    instrument : ndarray (N,) of str
+        Instrument of each RV (one fitted offset per instrument).
+    source : str
+        The file (or ledger) the RVs come from.
+    rows : ndarray (N,) of int, optional
+        1-based data-row number of each RV in ``source`` (None when not read from a file).
+    """
+
+    target: str
+    bjd_tdb: np.ndarray
+    rv_ms: np.ndarray
+    rv_err_ms: np.ndarray
+    instrument: np.ndarray
+    source: str = ""
+    rows: np.ndarray | None = None
+
+    @property
+    def n(self) -> int:
+        """Number of RVs."""
+        return len(self.bjd_tdb)
+
+    @property
+    def instruments(self) -> list[str]:
+        """Instrument names in order of first appearance."""
+        return list(dict.fromkeys(self.instrument.tolist()))
+
+    def groups(self) -> np.ndarray:
+        """Integer instrument index per RV, in order of first appearance (for per-instrument offsets)."""
+        names = self.instruments
+        return np.array([names.index(i) for i in self.instrument], dtype=int)
