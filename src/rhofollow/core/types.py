@@ -26,6 +26,7 @@ class Measurement:
 
     @property
     def has_error(self) -> bool:
+        """True when either side of the error is non-zero."""
         return self.err_lo > 0 or self.err_hi > 0
 
     @property
@@ -49,12 +50,15 @@ class Target:
     warnings: list[str] = field(default_factory=list)
 
     def has(self, *keys: str) -> bool:
+        """True when every named column has a finite value."""
         return all(k in self.values and math.isfinite(self.values[k].value) for k in keys)
 
     def get(self, key: str) -> Measurement | None:
+        """The measurement of a column, or None."""
         return self.values.get(key)
 
     def value(self, key: str, default: float = math.nan) -> float:
+        """The value of a column in the unit its suffix names (``default`` when absent)."""
         m = self.values.get(key)
         return m.value if m is not None else default
 
@@ -88,18 +92,22 @@ class CatalogueResult:
 
     @property
     def errors(self) -> list[RowIssue]:
+        """Issues that skipped a row (or rejected the file)."""
         return [i for i in self.issues if i.severity == "error"]
 
     @property
     def n_failed(self) -> int:
+        """Number of data rows skipped."""
         return len({i.row for i in self.errors if i.row > 0})  # row 0 = file/column level
 
     @property
     def warnings(self) -> list[RowIssue]:
+        """Issues of rows that were kept."""
         return [i for i in self.issues if i.severity == "warning"]
 
     @property
     def ok(self) -> bool:
+        """True when no issue is an error."""
         return not self.errors
 
 

@@ -80,9 +80,11 @@ class _Issues:
         self.issues: list[RowIssue] = []
 
     def add(self, row: int, column: str, reason: str, name: str = "") -> None:
+        """Record a problem at a 1-based data row (0: the file or its header) and column."""
         self.issues.append(RowIssue(self.source, row, column, reason, name=name))
 
     def raise_if_any(self) -> None:
+        """Raise :class:`RVDataError` with every problem recorded so far."""
         if self.issues:
             raise RVDataError(self.source, self.issues)
 

@@ -54,6 +54,7 @@ class WindowObservability:
 
     @property
     def fully_observable(self) -> np.ndarray:
+        """True where the padded window lies in one night and is observable throughout."""
         return self.in_one_night & (self.fraction >= 1.0)
 
 
