@@ -12,7 +12,7 @@ from pathlib import Path
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from rhofollow.io import ledger as ledger_mod
+from rhofollow.io.ledger import schema as ledger_schema
 from rhofollow.io.ledger import IngestError, Ledger, LedgerError, SCHEMA_VERSION
 from rhofollow.core.types import Measurement, Target
 
@@ -281,7 +281,7 @@ def test_user_path_with_sql_characters_is_stored_verbatim(led, tmp_path):
 
 def make_v1(path: Path):
     con = sqlite3.connect(path)
-    con.executescript(ledger_mod._SCHEMA_V1)
+    con.executescript(ledger_schema._SCHEMA_V1)
     con.execute("INSERT INTO targets VALUES ('HTS-101', ?)", (json.dumps({"row": 1}),))
     con.execute("INSERT INTO rv_measurements (target, bjd_tdb, rv_ms, rv_err_ms, instrument) "
                 "VALUES ('HTS-101', 2460100.5, 1.5, 2.0, 'Alder')")

@@ -1,15 +1,19 @@
-"""Plain data records produced by the catalogue reader (no I/O here).
+"""Plain data records shared by the readers, the ledger and the stages (no I/O here).
 
 A catalogue row becomes a :class:`Target`: canonical column names (as in DESIGN.md, with their
 unit suffixes, e.g. ``period_d``, ``t14_h``, ``rho_star_cgs``) mapped to :class:`Measurement`.
-Values are already converted to the unit the suffix names.
+Values are already converted to the unit the suffix names. Measured radial velocities of one
+target travel as one :class:`RVSeries`, whether they come from an RV file
+(:mod:`rhofollow.io.rvdata`) or from the ledger.
 """
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
 
-__all__ = ["Measurement", "Target", "RowIssue", "CatalogueResult"]
+import numpy as np
+
+__all__ = ["Measurement", "Target", "RowIssue", "CatalogueResult", "RVSeries"]
 
 
 @dataclass(frozen=True)
@@ -22,6 +26,7 @@ class Measurement:
 
     @property
     def has_error(self) -> bool:
+        """True when either side of the error is non-zero."""
         return self.err_lo > 0 or self.err_hi > 0
 
     @property
@@ -45,12 +50,15 @@ class Target:
     warnings: list[str] = field(default_factory=list)
 
     def has(self, *keys: str) -> bool:
+        """True when every named column has a finite value."""
         return all(k in self.values and math.isfinite(self.values[k].value) for k in keys)
 
     def get(self, key: str) -> Measurement | None:
+        """The measurement of a column, or None."""
         return self.values.get(key)
 
     def value(self, key: str, default: float = math.nan) -> float:
+        """The value of a column in the unit its suffix names (``default`` when absent)."""
         m = self.values.get(key)
         return m.value if m is not None else default
 
@@ -84,16 +92,63 @@ class CatalogueResult:
 
     @property
     def errors(self) -> list[RowIssue]:
+        """Issues that skipped a row (or rejected the file)."""
         return [i for i in self.issues if i.severity == "error"]
 
     @property
     def n_failed(self) -> int:
+        """Number of data rows skipped."""
         return len({i.row for i in self.errors if i.row > 0})  # row 0 = file/column level
 
     @property
     def warnings(self) -> list[RowIssue]:
+        """Issues of rows that were kept."""
         return [i for i in self.issues if i.severity == "warning"]
 
     @property
     def ok(self) -> bool:
+        """True when no issue is an error."""
         return not self.errors
+
+
+@dataclass
+class RVSeries:
+    """Measured radial velocities of one target, in time order (arrays of equal length N).
+
+    Attributes
+    ----------
+    target : str
+    bjd_tdb : ndarray (N,)
+        Mid-exposure times, BJD_TDB (days).
+    rv_ms, rv_err_ms : ndarray (N,)
+        Radial velocity and its 1-sigma error (m/s, error > 0, without jitter).
+    instrument : ndarray (N,) of str
+        Instrument of each RV (one fitted offset per instrument).
+    source : str
+        The file (or ledger) the RVs come from.
+    rows : ndarray (N,) of int, optional
+        1-based data-row number of each RV in ``source`` (None when not read from a file).
+    """
+
+    target: str
+    bjd_tdb: np.ndarray
+    rv_ms: np.ndarray
+    rv_err_ms: np.ndarray
+    instrument: np.ndarray
+    source: str = ""
+    rows: np.ndarray | None = None
+
+    @property
+    def n(self) -> int:
+        """Number of RVs."""
+        return len(self.bjd_tdb)
+
+    @property
+    def instruments(self) -> list[str]:
+        """Instrument names in order of first appearance."""
+        return list(dict.fromkeys(self.instrument.tolist()))
+
+    def groups(self) -> np.ndarray:
+        """Integer instrument index per RV, in order of first appearance (for per-instrument offsets)."""
+        names = self.instruments
+        return np.array([names.index(i) for i in self.instrument], dtype=int)

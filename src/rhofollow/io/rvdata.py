@@ -1,196 +1,318 @@
-"""Measured radial velocities from CSV or ECSV files, validated as a whole (nothing half-read).
+"""Measured radial velocities from CSV or ECSV files: the only RV reader.
+
+The ``--rv-data`` option of the ``rv`` and ``plan`` commands and the ledger's RV ingest
+(:meth:`rhofollow.io.ledger.Ledger.ingest_rv_file`) both read through :func:`read_rv_file`, so one
+file gives the same RVs, and the same problems, on either route.
 
 Columns (exact names):
 
 ============  =====  ==============================================================
 column        unit   meaning
 ============  =====  ==============================================================
-bjd_tdb       d      mid-exposure time, BJD_TDB
+bjd_tdb       d      mid-exposure time, full BJD_TDB (2.0e6 < value < 3.0e6)
 rv_ms         m/s    radial velocity (any zero point; offsets are fitted per instrument)
 rv_err_ms     m/s    1-sigma error, > 0 (without stellar jitter)
 instrument    —      instrument name; must match an instrument model when names are given
 target        —      target name; needed when one file holds several targets
 ============  =====  ==============================================================
 
-Per target the times must be in increasing order; a time repeated with the same instrument is
-rejected. A directory holds one file per target named ``<target>.csv`` (or ``.ecsv``) without a
-``target`` column, or files with a ``target`` column. Row numbers in messages count data rows
-from 1 (the header is not counted).
+Rules
+-----
+* File kinds: a name ending in ``.ecsv`` is read as ECSV (astropy); any other file as CSV text
+  (UTF-8, a byte-order mark allowed; blank lines and lines starting with ``#`` are skipped; a cell
+  quoted against spreadsheet formulas by :func:`rhofollow.io.safety.csv_text` is unquoted).
+* Errors: every problem of the file is collected as a :class:`~rhofollow.core.types.RowIssue`
+  (file, data row, column, reason) and the whole file is rejected with one
+  :class:`RVDataError` listing them; nothing is returned half-read. Row numbers count data rows
+  from 1 (header, comment and blank lines are not counted); row 0 is the file or its header.
+  An issue names the target when it comes from the file's ``target`` column.
+* Target: the ``target`` column when the file has one (if a ``target`` is also given, every row
+  must name it); otherwise the given ``target``; otherwise the file name without its suffix
+  (``<target>.csv``), unless the caller asks for an explicit name (the ledger does: a file called
+  ``rv.csv`` must not create a target "rv").
+* Time order: the file's row order does not matter; each target's series is returned in time
+  order (a stable sort, so equal times keep the file's order).
+* Repeats: a row repeating an earlier one exactly (target, time, instrument, RV and error) is the
+  same measurement listed twice and is kept once; the same target, time and instrument with
+  another RV or error is an error. The same time with two instruments is two measurements.
+
+A directory holds one file per target named ``<target>.csv`` (or ``.ecsv``) without a ``target``
+column, or files with a ``target`` column; a target found in two files is an error.
 """
 from __future__ import annotations
 
 import csv
 import math
-from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
+from rhofollow.core.types import RowIssue, RVSeries
 from rhofollow.errors import InputError
+from rhofollow.io.safety import csv_unquote
 
-__all__ = ["RVDataError", "RVData", "RV_COLUMNS", "read_rv_file", "read_rv_dir", "read_rv_data"]
+__all__ = ["RVDataError", "RVData", "RVSeries", "RV_COLUMNS", "read_rv_file", "read_rv_dir",
+           "read_rv_data"]
 
 RV_COLUMNS = ("bjd_tdb", "rv_ms", "rv_err_ms", "instrument")
+#: The series type under the name this module gave it first (the same class as :class:`RVSeries`).
+RVData = RVSeries
+
+_MAX_REPORTED_ISSUES = 20
+_NO_TARGET = "the file has no 'target' column; name the target (--target)"
 
 
 class RVDataError(InputError, ValueError):
-    """A malformed RV file; the message names the file, row and column."""
+    """A malformed RV file or folder; ``issues`` lists every problem (file, row, column, reason)."""
+
+    def __init__(self, source: str, issues: list[RowIssue]):
+        self.source = str(source)
+        self.issues = list(issues)
+        shown = "; ".join(str(i) for i in self.issues[:_MAX_REPORTED_ISSUES])
+        more = len(self.issues) - _MAX_REPORTED_ISSUES
+        super().__init__(shown + (f"; and {more} more" if more > 0 else ""), file=self.source)
 
 
-@dataclass
-class RVData:
-    """Validated RVs of one target (arrays of equal length, time-ordered)."""
+class _Issues:
+    """Collects the problems of one file; :meth:`raise_if_any` rejects the file with all of them."""
 
-    target: str
-    bjd_tdb: np.ndarray
-    rv_ms: np.ndarray
-    rv_err_ms: np.ndarray
-    instrument: np.ndarray   # str per epoch
-    source: str = ""
+    def __init__(self, source: str):
+        self.source = source
+        self.issues: list[RowIssue] = []
 
-    @property
-    def n(self) -> int:
-        return len(self.bjd_tdb)
+    def add(self, row: int, column: str, reason: str, name: str = "") -> None:
+        """Record a problem at a 1-based data row (0: the file or its header) and column."""
+        self.issues.append(RowIssue(self.source, row, column, reason, name=name))
 
-    @property
-    def instruments(self) -> list[str]:
-        """Instrument names in order of first appearance."""
-        return list(dict.fromkeys(self.instrument.tolist()))
-
-    def groups(self) -> np.ndarray:
-        """Integer instrument index per epoch (for per-instrument offsets)."""
-        names = self.instruments
-        return np.array([names.index(i) for i in self.instrument], dtype=int)
+    def raise_if_any(self) -> None:
+        """Raise :class:`RVDataError` with every problem recorded so far."""
+        if self.issues:
+            raise RVDataError(self.source, self.issues)
 
 
-def _rows_from_file(path: Path):
-    """(column names, list of row dicts of strings) from CSV or ECSV."""
-    src = str(path)
-    suffix = path.suffix.lower()
-    if suffix == ".ecsv":
-        from astropy.table import Table
+# ------------------------------------------------------------------------------- file reading
 
-        try:
-            t = Table.read(path, format="ascii.ecsv")
-        except Exception as exc:  # noqa: BLE001 - astropy raises many types for bad files
-            raise RVDataError(f"{src}: not a readable ECSV file ({exc})") from None
-        cols = list(t.colnames)
-        rows = [{c: ("" if np.ma.is_masked(r[c]) else str(r[c])) for c in cols} for r in t]
-        return cols, rows
+def _read_ecsv(path: Path, errs: _Issues) -> tuple[list[str], list[tuple[int, dict]]]:
+    from astropy.table import Table
+
     try:
-        with path.open(newline="", encoding="utf-8") as fh:
-            lines = [ln for ln in fh if ln.strip() and not ln.lstrip().startswith("#")]
-    except FileNotFoundError:
-        raise RVDataError(f"{src}: RV file not found") from None
-    except UnicodeDecodeError:
-        raise RVDataError(f"{src}: not a UTF-8 text file") from None
-    reader = csv.DictReader(lines)
-    cols = [c.strip() for c in (reader.fieldnames or [])]
-    reader.fieldnames = cols
-    rows = []
-    for i, r in enumerate(reader, start=1):
-        if None in r:
-            raise RVDataError(f"{src}, row {i}: more fields than the {len(cols)} header columns")
-        rows.append({k: (v or "").strip() for k, v in r.items()})
+        t = Table.read(path, format="ascii.ecsv")
+    except Exception as exc:  # noqa: BLE001 - astropy raises many types for bad files
+        errs.add(0, "", f"not a readable ECSV file ({exc})")
+        errs.raise_if_any()
+    cols = list(t.colnames)
+    rows = [(i, {c: ("" if np.ma.is_masked(r[c]) else str(r[c]).strip()) for c in cols})
+            for i, r in enumerate(t, start=1)]
     return cols, rows
 
 
-def _float(v: str, src, row, col):
+def _read_csv(path: Path, errs: _Issues) -> tuple[list[str], list[tuple[int, dict]]]:
     try:
-        x = float(v)
+        text = path.read_bytes().decode("utf-8-sig")
+    except FileNotFoundError:
+        errs.add(0, "", "RV file not found")
+    except OSError as exc:
+        errs.add(0, "", f"cannot read the file ({exc.strerror or exc})")
+    except UnicodeDecodeError:
+        errs.add(0, "", "not UTF-8 text")
+    errs.raise_if_any()
+    lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
+    if not lines:
+        errs.add(0, "", "no header line and no data")
+        errs.raise_if_any()
+    reader = csv.reader(lines)
+    header = [csv_unquote(h.strip()) for h in next(reader)]
+    rows = []
+    for i, cells in enumerate(reader, start=1):
+        if len(cells) != len(header):
+            errs.add(i, "", f"has {len(cells)} fields, the header has {len(header)}")
+            continue
+        rows.append((i, {h: csv_unquote(c.strip()) for h, c in zip(header, cells)}))
+    return header, rows
+
+
+def _check_header(cols: list[str], n_rows: int, errs: _Issues) -> None:
+    for c in RV_COLUMNS:
+        if c not in cols:
+            errs.add(0, c, f"required column is missing (need {', '.join(RV_COLUMNS)})")
+    for c in sorted({h for h in cols if cols.count(h) > 1}):
+        errs.add(0, c, "column appears more than once")
+    if n_rows == 0 and not errs.issues:
+        errs.add(0, "", "header only, no data rows")
+    errs.raise_if_any()
+
+
+# ------------------------------------------------------------------------------- row checks
+
+def _number(errs: _Issues, i: int, row: dict, col: str, name: str, *, positive=False) -> float | None:
+    text = row.get(col, "")
+    if text == "":
+        errs.add(i, col, "value is missing", name)
+        return None
+    try:
+        v = float(text)
     except ValueError:
-        raise RVDataError(f"{src}, row {row}, column '{col}': not a number ({v!r})") from None
-    if not math.isfinite(x):
-        raise RVDataError(f"{src}, row {row}, column '{col}': value must be finite, got {v!r}")
-    return x
+        errs.add(i, col, f"'{text}' is not a number", name)
+        return None
+    if not math.isfinite(v):
+        errs.add(i, col, f"'{text}' is not a finite number", name)
+        return None
+    if positive and v <= 0:
+        errs.add(i, col, f"must be > 0, got {text}", name)
+        return None
+    return v
 
 
-def read_rv_file(path, known_instruments=None, target: str | None = None) -> dict[str, RVData]:
-    """Read one RV file; returns target name -> :class:`RVData`.
+def _row_target(errs: _Issues, i: int, row: dict, has_column: bool, default: str) -> tuple[str, str]:
+    """(target of the row, name to put in its issues)."""
+    if not has_column:
+        return default, ""
+    name = row.get("target", "")
+    if not name:
+        errs.add(i, "target", "value is missing")
+    elif default and name != default:
+        errs.add(i, "target", f"'{name}' differs from the target given ({default})", name)
+    return name, name
+
+
+def _parse_row(errs: _Issues, i: int, row: dict, has_column: bool, default: str, known):
+    """(row, target, time, rv, error, instrument) of a valid row, or None (issues added)."""
+    name, who = _row_target(errs, i, row, has_column, default)
+    n0 = len(errs.issues)
+    t = _number(errs, i, row, "bjd_tdb", who)
+    if t is not None and not 2.0e6 < t < 3.0e6:
+        errs.add(i, "bjd_tdb", f"{row['bjd_tdb']} is not a full BJD_TDB (expected ~2.4e6 days)", who)
+    v = _number(errs, i, row, "rv_ms", who)
+    err = _number(errs, i, row, "rv_err_ms", who, positive=True)
+    inst = row.get("instrument", "")
+    if not inst:
+        errs.add(i, "instrument", "value is missing", who)
+    elif known is not None and inst not in known:
+        errs.add(i, "instrument", f"unknown instrument '{inst}' (known: "
+                 f"{', '.join(sorted(known)) or 'none'})", who)
+    if len(errs.issues) > n0 or not name:
+        return None
+    return i, name, t, v, err, inst
+
+
+def _series(errs: _Issues, name: str, recs: list[tuple], source: str, who: str) -> RVSeries:
+    """One target's series in time order; exact repeats kept once, conflicting repeats flagged."""
+    seen: dict[tuple, tuple] = {}
+    kept = []
+    for r in recs:
+        key = (r[2], r[5])                     # time, instrument
+        if key in seen:
+            if seen[key][3:5] != r[3:5]:
+                errs.add(r[0], "rv_ms,rv_err_ms", f"same entry as row {seen[key][0]} with "
+                         "different values", who)
+            continue
+        seen[key] = r
+        kept.append(r)
+    kept.sort(key=lambda r: r[2])              # stable: equal times keep the file's order
+    return RVSeries(target=name, bjd_tdb=np.array([r[2] for r in kept], dtype=float),
+                    rv_ms=np.array([r[3] for r in kept], dtype=float),
+                    rv_err_ms=np.array([r[4] for r in kept], dtype=float),
+                    instrument=np.array([r[5] for r in kept], dtype=object).astype(str),
+                    source=source, rows=np.array([r[0] for r in kept], dtype=int))
+
+
+def read_rv_file(path, known_instruments=None, target: str | None = None, *,
+                 name_from_stem: bool = True) -> dict[str, RVSeries]:
+    """Read one RV file (CSV or ECSV) with the rules of the module notes.
 
     Parameters
     ----------
-    path : CSV or ECSV file
-    known_instruments : names allowed in the ``instrument`` column (None = any)
-    target : name for a file without a ``target`` column (default: the file stem)
+    path : str or path-like
+        The file; ``.ecsv`` is read as ECSV, anything else as CSV.
+    known_instruments : iterable of str, optional
+        Names allowed in the ``instrument`` column (None: any name).
+    target : str, optional
+        The target of a file without a ``target`` column; with such a column, every row must
+        name this target.
+    name_from_stem : bool
+        Without a ``target`` column and without ``target``, name the target after the file
+        (``HTS-104.csv`` -> ``HTS-104``); when False that is an error instead.
 
-    Raises :class:`RVDataError` on the first problem; nothing is returned half-read.
+    Returns
+    -------
+    dict of str to RVSeries
+        Target name -> its RVs (BJD_TDB in days, RV and 1-sigma error in m/s) in time order, with
+        the data-row number of each RV in ``rows``.
+
+    Raises
+    ------
+    RVDataError
+        Listing every problem of the file (file, row, column, reason); nothing is returned.
     """
     p = Path(path)
     src = str(p)
-    if not p.is_file():
-        raise RVDataError(f"{src}: RV file not found")
-    cols, rows = _rows_from_file(p)
-    missing = [c for c in RV_COLUMNS if c not in cols]
-    if missing:
-        raise RVDataError(f"{src}: missing column{'s' if len(missing) > 1 else ''} "
-                          f"{', '.join(repr(c) for c in missing)} (need {', '.join(RV_COLUMNS)})")
-    if not rows:
-        raise RVDataError(f"{src}: no data rows")
+    errs = _Issues(src)
+    if p.is_dir():
+        errs.add(0, "", "is a folder, not an RV file")
+        errs.raise_if_any()
+    cols, rows = (_read_ecsv if p.suffix.lower() == ".ecsv" else _read_csv)(p, errs)
+    _check_header(cols, len(rows) + len(errs.issues), errs)
+    has_column = "target" in cols
+    default = target or ("" if has_column or not name_from_stem else p.stem)
+    if not has_column and not default:
+        errs.add(0, "target", _NO_TARGET)
+        errs.raise_if_any()
     known = None if known_instruments is None else set(known_instruments)
-    has_target = "target" in cols
-    per: dict[str, list] = {}
-    for i, r in enumerate(rows, start=1):
-        t = _float(r["bjd_tdb"], src, i, "bjd_tdb")
-        if not 2.0e6 < t < 3.0e6:
-            raise RVDataError(f"{src}, row {i}, column 'bjd_tdb': {t} is not a full BJD_TDB "
-                              "(expected about 2.4e6 days)")
-        v = _float(r["rv_ms"], src, i, "rv_ms")
-        err = _float(r["rv_err_ms"], src, i, "rv_err_ms")
-        if err <= 0:
-            raise RVDataError(f"{src}, row {i}, column 'rv_err_ms': error must be positive, got {err:g}")
-        inst = r["instrument"]
-        if not inst:
-            raise RVDataError(f"{src}, row {i}, column 'instrument': empty")
-        if known is not None and inst not in known:
-            raise RVDataError(f"{src}, row {i}, column 'instrument': unknown instrument {inst!r} "
-                              f"(known: {', '.join(sorted(known)) or 'none'})")
-        name = r["target"] if has_target else (target or p.stem)
-        if not name:
-            raise RVDataError(f"{src}, row {i}, column 'target': empty")
-        per.setdefault(name, []).append((i, t, v, err, inst))
-    out = {}
-    for name, recs in per.items():
-        rown = np.array([x[0] for x in recs])
-        t = np.array([x[1] for x in recs])
-        inst = np.array([x[4] for x in recs], dtype=object).astype(str)
-        back = np.flatnonzero(np.diff(t) < 0)
-        if back.size:
-            j = back[0] + 1
-            raise RVDataError(f"{src}, row {rown[j]}, column 'bjd_tdb': times of {name} are not in "
-                              f"increasing order ({t[j]} after {t[j - 1]})")
-        dup = np.flatnonzero((np.diff(t) == 0) & (inst[1:] == inst[:-1]))
-        if dup.size:
-            j = dup[0] + 1
-            raise RVDataError(f"{src}, row {rown[j]}, column 'bjd_tdb': duplicate time {t[j]} for "
-                              f"{name} with instrument {inst[j]!r} (also row {rown[j - 1]})")
-        out[name] = RVData(target=name, bjd_tdb=t, rv_ms=np.array([x[2] for x in recs]),
-                           rv_err_ms=np.array([x[3] for x in recs]), instrument=inst, source=src)
+    per: dict[str, list[tuple]] = {}
+    for i, r in rows:
+        rec = _parse_row(errs, i, r, has_column, default, known)
+        if rec is not None:
+            per.setdefault(rec[1], []).append(rec)
+    errs.raise_if_any()
+    out = {name: _series(errs, name, recs, src, name if has_column else "")
+           for name, recs in per.items()}
+    errs.raise_if_any()
     return out
 
 
-def read_rv_dir(path, known_instruments=None) -> dict[str, RVData]:
-    """Read every ``*.csv`` / ``*.ecsv`` in a directory; target name -> :class:`RVData`.
+def read_rv_dir(path, known_instruments=None) -> dict[str, RVSeries]:
+    """Read every ``*.csv`` / ``*.ecsv`` file of a folder (target named by the file or its column).
 
-    A target found in two files is an error (naming both files).
+    Parameters
+    ----------
+    path : str or path-like
+        The folder.
+    known_instruments : iterable of str, optional
+        As in :func:`read_rv_file`.
+
+    Returns
+    -------
+    dict of str to RVSeries
+        Target name -> RVs. A target found in two files is an error naming both files.
     """
     d = Path(path)
     if not d.is_dir():
-        raise RVDataError(f"{d}: not a directory")
+        raise RVDataError(str(d), [RowIssue(str(d), 0, "", "not a directory")])
     files = sorted(f for f in d.iterdir() if f.suffix.lower() in (".csv", ".ecsv") and f.is_file())
     if not files:
-        raise RVDataError(f"{d}: no .csv or .ecsv RV files")
-    out: dict[str, RVData] = {}
+        raise RVDataError(str(d), [RowIssue(str(d), 0, "", "no .csv or .ecsv RV files")])
+    out: dict[str, RVSeries] = {}
     for f in files:
         for name, data in read_rv_file(f, known_instruments).items():
             if name in out:
-                raise RVDataError(f"{f}: RVs of {name} also in {out[name].source}; keep one file per target")
+                raise RVDataError(str(f), [RowIssue(str(f), 0, "target", f"RVs of {name} also in "
+                                                    f"{out[name].source}; keep one file per target")])
             out[name] = data
     return out
 
 
-def read_rv_data(path, known_instruments=None) -> dict[str, RVData]:
-    """A file or a directory of RV files (dispatches to :func:`read_rv_file` / :func:`read_rv_dir`)."""
+def read_rv_data(path, known_instruments=None) -> dict[str, RVSeries]:
+    """A file or a folder of RV files (:func:`read_rv_file` or :func:`read_rv_dir`).
+
+    Parameters
+    ----------
+    path : str or path-like
+    known_instruments : iterable of str, optional
+
+    Returns
+    -------
+    dict of str to RVSeries
+    """
     p = Path(path)
     if p.is_dir():
         return read_rv_dir(p, known_instruments)

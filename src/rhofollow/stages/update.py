@@ -19,8 +19,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from rhofollow.io.ledger import Ledger, OccultationTiming, RVMeasurement
-from rhofollow.core.types import Measurement, Target
+from rhofollow.io.ledger import Ledger, OccultationTiming
+from rhofollow.core.types import Measurement, RVSeries, Target
 from rhofollow.physics import occultation_timing as ot
 from rhofollow.core.samples import SampleSet, quantile_dict
 from rhofollow.core.defaults import DEFAULT_SAMPLES, DEFAULT_SEED
@@ -73,20 +73,32 @@ class LedgerUpdate:
                 "stored_new_version": self.stored, **self.summary}
 
 
-def rv_log_like(samples: SampleSet, rvs: list[RVMeasurement], *, jitter_ms: float = 0.0
-                ) -> np.ndarray:
-    """RV log-likelihood per sample (zeros without RVs)."""
-    if not rvs:
+def rv_log_like(samples: SampleSet, rvs: RVSeries, *, jitter_ms: float = 0.0) -> np.ndarray:
+    """RV log-likelihood per sample (zeros without RVs).
+
+    Parameters
+    ----------
+    samples : SampleSet
+        Posterior samples (period in days, t0 BJD_TDB, e, omega in radians).
+    rvs : RVSeries
+        The target's RVs (BJD_TDB days, m/s), e.g. :meth:`Ledger.rv_series`.
+    jitter_ms : float
+        Stellar jitter added in quadrature (m/s).
+
+    Returns
+    -------
+    ndarray (S,)
+        One log-likelihood per sample; instruments get offsets indexed in name order.
+    """
+    if not rvs.n:
         return np.zeros(samples.n)
     from rhofollow.physics.rvupdate import rv_log_likelihood
 
-    insts = sorted({r.instrument for r in rvs})
-    groups = np.array([insts.index(r.instrument) for r in rvs])
-    t = np.array([r.bjd_tdb for r in rvs])
-    y = np.array([r.rv_ms for r in rvs])
-    err = np.array([r.rv_err_ms for r in rvs])
-    return rv_log_likelihood(t, y, err, groups, samples.period, samples.t0, samples.e,
-                             samples.omega, jitter_ms=jitter_ms)
+    names = rvs.instrument.tolist()
+    insts = sorted(set(names))
+    groups = np.array([insts.index(i) for i in names])
+    return rv_log_likelihood(rvs.bjd_tdb, rvs.rv_ms, rvs.rv_err_ms, groups, samples.period,
+                             samples.t0, samples.e, samples.omega, jitter_ms=jitter_ms)
 
 
 def occultation_log_like(samples: SampleSet, timings: list[OccultationTiming], *,
@@ -150,7 +162,9 @@ def _source_hash(samples: SampleSet, rvs, timings, settings: dict) -> str:
     h = hashlib.sha256()
     for c in ("e", "omega", "period", "t0", "a_rs", "inc", "k", "rstar", "teff", "weights"):
         h.update(np.ascontiguousarray(getattr(samples, c), dtype=float).tobytes())
-    h.update(json.dumps([[r.bjd_tdb, r.rv_ms, r.rv_err_ms, r.instrument] for r in rvs]).encode())
+    h.update(json.dumps([list(r) for r in zip(rvs.bjd_tdb.tolist(), rvs.rv_ms.tolist(),
+                                              rvs.rv_err_ms.tolist(), rvs.instrument.tolist())]
+                        ).encode())
     h.update(json.dumps([list(o.__dict__.values()) for o in timings]).encode())
     h.update(json.dumps(settings, sort_keys=True).encode())
     return h.hexdigest()
@@ -185,7 +199,7 @@ def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float =
     nothing: the version is keyed by a hash of the samples, the data and the settings).
     """
     name = samples.name
-    rvs = ledger.rv_measurements(name)
+    rvs = ledger.rv_series(name)
     timings = ledger.occultation_timings(name)
     ll_rv = rv_log_like(samples, rvs, jitter_ms=jitter_ms)
     ll_det, ll_non, warnings = occultation_log_like(samples, timings,
@@ -213,7 +227,7 @@ def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float =
     settings = {"jitter_ms": jitter_ms, "threshold_sigma": threshold_sigma}
     src = _source_hash(samples, rvs, timings, settings)
     summary = posterior_summary(new)
-    res = LedgerUpdate(target=name, samples=new, prior_ess=samples.ess, n_rv=len(rvs),
+    res = LedgerUpdate(target=name, samples=new, prior_ess=samples.ess, n_rv=rvs.n,
                        n_detections=sum(o.kind == "detection" for o in timings),
                        n_non_detections=sum(o.kind == "non_detection" for o in timings),
                        source_hash=src, summary=summary,
