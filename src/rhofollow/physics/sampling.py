@@ -11,6 +11,7 @@ likelihood x prior / proposal, so evidences (mean weight) stay unbiased whatever
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -90,6 +91,9 @@ def _kish(log_w):
     w = np.exp(log_w - m)
     return float(w.sum() ** 2 / np.sum(w * w))
 
+
+#: Most draws (in units of the batch size n) the final pooling stage may add up to.
+POOL_BUDGET = 12
 
 _BINS = {1: (128,), 2: (40, 40), 3: (20, 20, 10), 4: (12, 12, 8, 8)}
 
@@ -191,7 +195,9 @@ def adaptive_importance_sample(model, d, n, rng, ess_floor=2000.0, max_rounds=4,
         points, so the first batch already lands where the posterior is.
     pool : bool
         Pool extra batches when the ESS is still short after ``max_rounds`` (off for hypotheses whose
-        evidence alone is wanted).
+        evidence alone is wanted). With pooling on, the Kish ESS of the returned (pooled) set is
+        checked and more batches are drawn until it meets ``ess_floor`` or ``POOL_BUDGET`` x n draws
+        are spent; ``ImportanceResult.ess`` is always the Kish ESS of the returned weights.
     """
     proposal = None
     if proxy is not None:
@@ -208,7 +214,7 @@ def adaptive_importance_sample(model, d, n, rng, ess_floor=2000.0, max_rounds=4,
         log_w = ll
     ess = _kish(log_w)
     rounds, adapted = 1, proxy is not None
-    best = (u, log_w, aux, ess)
+    best = (u, log_w, aux, ess, proposal)
     while ess < ess_floor and rounds < max_rounds and np.any(np.isfinite(log_w)):
         w = np.exp(log_w - np.max(log_w))
         proposal = _GridProposal(u, w, d)
@@ -219,18 +225,27 @@ def adaptive_importance_sample(model, d, n, rng, ess_floor=2000.0, max_rounds=4,
         rounds += 1
         adapted = True
         if ess > best[3]:
-            best = (u, log_w, aux, ess)
-    u, log_w, aux, ess = best
-    # pool extra batches from the best proposal if still short (same proposal => same weight scale)
-    pooled = 0
-    while pool and ess < ess_floor and proposal is not None and pooled < 3 and np.any(np.isfinite(log_w)):
-        u2, log_q2 = proposal.sample(rng, n)
+            best = (u, log_w, aux, ess, proposal)
+    u, log_w, aux, ess, proposal = best
+    # Still short: pool further batches from the best batch's proposal (uniform when that was the
+    # first, unadapted batch) until the Kish ESS of the *pooled, final* set meets the floor. Each batch
+    # is sized from the shortfall (ESS grows about linearly with the number of draws from one
+    # proposal), and the ESS is recomputed on the whole set before stopping, so the returned set
+    # meets the floor unless the budget (POOL_BUDGET x n draws in all) runs out.
+    while (pool and ess < ess_floor and len(log_w) < POOL_BUDGET * n and np.any(np.isfinite(log_w))
+           and ess > 0):
+        m = int(np.clip(math.ceil(len(log_w) * (ess_floor / ess - 1.0) * 1.1), n // 4, 4 * n))
+        m = max(1, min(m, POOL_BUDGET * n - len(log_w)))
+        if proposal is None:
+            u2 = rng.random((m, d))
+            log_q2 = np.zeros(m)
+        else:
+            u2, log_q2 = proposal.sample(rng, m)
         ll2, aux2 = model(u2, rng)
         u = np.vstack([u, u2])
         log_w = np.concatenate([log_w, ll2 - log_q2])
         aux = {k: np.concatenate([aux[k], aux2[k]]) for k in aux}
         ess = _kish(log_w)
-        pooled += 1
         rounds += 1
     finite = np.isfinite(log_w)
     log_z = float(logsumexp(log_w[finite]) - np.log(len(log_w))) if finite.any() else -np.inf
