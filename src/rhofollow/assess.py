@@ -16,7 +16,7 @@ from .io.table_types import Measurement, Target
 from .physics import stars as st
 from .physics.eccentricity import (HYPOTHESES, MEASURED_STAR_HYPOTHESES, best_possible_loglike, HypothesisSetup, Obs,
                                    StarPool, TransitObservables, run_hypothesis)
-from .physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior
+from .physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior, reweight_to_prior
 from .physics.transit import g_factor
 from .physics.sampling import draw_split_normal
 from .physics.transit import ars_from_t14_b, ecc_min_from_ratio, rho_from_ars, smo_invert
@@ -517,14 +517,10 @@ def _uniform_prior_interval(e, w, prior: EccPrior, measured: bool, ecc_q: dict) 
                 "ecc_bounds": {"lower": "measured orbit", "upper": "measured orbit"}}
     if _UNIFORM is None:
         _UNIFORM = parse_prior("uniform")
-    p_def = prior.pdf(e)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ratio = np.where(p_def > 0, _UNIFORM.pdf(e) / p_def, 0.0)
-    wu = w * ratio
-    if not wu.sum() > 0:
+    wu = reweight_to_prior(e, w, prior, _UNIFORM)
+    if wu is None:
         return {"ecc_uniform_prior": None, "ess_uniform_prior": 0.0,
                 "ecc_bounds": {"lower": "unknown", "upper": "unknown"}}
-    wu = wu / wu.sum()
     qu = quantile_dict(e, wu)
     ess_u = float(1.0 / np.sum(wu * wu))
     bounds = {side: ("prior" if abs(ecc_q[key] - qu[key]) > PRIOR_DRIVEN_DELTA else "data")
