@@ -24,7 +24,8 @@ from .samples import SampleSet, quantile_dict, reliability, weighted_quantiles
 
 __all__ = ["Assessment", "assess_target", "assess_catalogue", "target_seed", "READINGS", "LABELS",
            "evidence_strength", "DEFAULT_N_SAMPLES", "ESS_FLOOR", "CHI2_REJECT", "DEFAULT_RADIUS_RATIO",
-           "PRIOR_DRIVEN_DELTA", "REMAINING_LN_B", "ORBIT_TENSION_SIGMA"]
+           "PRIOR_DRIVEN_DELTA", "REMAINING_LN_B", "ORBIT_TENSION_SIGMA", "data_weight", "record_data_weight",
+           "refresh_data_keys"]
 
 DEFAULT_N_SAMPLES = 20000
 #: An explanation whose best sample misses the transit measurements and the star's density by more than
@@ -383,6 +384,7 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     w = w / w.sum()
     aux = ecc_res.aux
     meta = {"route_transit": route, "route_star": star_label, "prior": prior.name,
+            "transit_prob": bool(transit_prob),
             "row": t.row, "source": t.source, "k_assumed": bool(k_assumed), "orbit_measured": bool(measured)}
     for key in ("ra_deg", "dec_deg", "vmag", "logg_cgs", "feh_dex", "jitter_ms", "mp_mearth",
                 "teff_k", "contam_frac"):
@@ -471,7 +473,7 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
         "p_ecc_gt_0p1": p_gt,
         "p_ecc_gt_0p1_prior": p_gt_prior,
         "ecc_odds_ratio": data_odds,
-        "ecc_data_weight": (data_odds / (1 + data_odds)) if math.isfinite(data_odds) else 1.0,
+        "ecc_data_weight": data_weight(p_gt, p_gt_prior, ess),
         **uni,
         "ess": float(ess),
         "reliable": reliability(ess)[0],
@@ -494,6 +496,38 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
         "reading": READINGS[favoured],
     }
     return Assessment(t.name, t, True, [], warnings, samples, record)
+
+
+def data_weight(p: float, p0: float, ess: float) -> float:
+    """W = B/(1 + B), B the posterior-to-prior odds of e above the threshold (:func:`_odds_ratio`):
+    what the data add to the prior, 0.5 when they say nothing, towards 1 when they favour e above
+    it, towards 0 when they disfavour it. The one definition used by the record
+    (``ecc_data_weight``), the ranking (:func:`rhofollow.report.tables.rank_targets`) and the night
+    and campaign block values (:func:`rhofollow.planning.night.science_from_records`)."""
+    b = _odds_ratio(p, p0, ess)
+    return b / (1 + b) if math.isfinite(b) else 1.0
+
+
+def record_data_weight(record: dict) -> float:
+    """W of an assessment record from its ``p_ecc_gt_0p1``, ``p_ecc_gt_0p1_prior`` and ``ess``
+    (:func:`data_weight`), so a record whose posterior was updated (ledger RVs, occultation timings)
+    gives the updated W; a record without the prior's value falls back to its ``ecc_data_weight``,
+    and one without a posterior to 0.0."""
+    p, p0 = record.get("p_ecc_gt_0p1"), record.get("p_ecc_gt_0p1_prior")
+    if p is not None and p0 is not None:
+        return data_weight(float(p), float(p0), float(record.get("ess") or 1.0))
+    w = record.get("ecc_data_weight")
+    return float(w) if w is not None and math.isfinite(float(w)) else 0.0
+
+
+def refresh_data_keys(record: dict) -> None:
+    """Recompute ``ecc_odds_ratio`` and ``ecc_data_weight`` after ``p_ecc_gt_0p1`` or ``ess`` changed."""
+    p, p0 = record.get("p_ecc_gt_0p1"), record.get("p_ecc_gt_0p1_prior")
+    if p is None or p0 is None:
+        return
+    ess = float(record.get("ess") or 1.0)
+    record["ecc_odds_ratio"] = _odds_ratio(float(p), float(p0), ess)
+    record["ecc_data_weight"] = data_weight(float(p), float(p0), ess)
 
 
 def _odds_ratio(p: float, p0: float, ess: float) -> float:

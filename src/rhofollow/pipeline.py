@@ -205,6 +205,7 @@ def apply_ledger(path, assessments) -> tuple[dict, set, list]:
 
     from .eclipses import describe_failure
     from .ledger_update import apply_to_assessments
+    from .assess import refresh_data_keys
     from .samples import kish_ess, reliability
 
     try:
@@ -220,6 +221,7 @@ def apply_ledger(path, assessments) -> tuple[dict, set, list]:
                 ok, why = reliability(kish_ess(s.weights))
                 a.record.update(ecc=s.quantiles("e"), p_ecc_gt_0p1=float(s.weights[s.e > 0.1].sum()),
                                 ess=kish_ess(s.weights), updated_from_ledger=True, reliable=ok)
+                refresh_data_keys(a.record)   # W = B/(1+B) follows the updated posterior
                 if why:
                     a.record["reliability_note"] = why
                 else:
