@@ -511,13 +511,17 @@ def data_weight(p: float, p0: float, ess: float) -> float:
 def record_data_weight(record: dict) -> float:
     """W of an assessment record from its ``p_ecc_gt_0p1``, ``p_ecc_gt_0p1_prior`` and ``ess``
     (:func:`data_weight`), so a record whose posterior was updated (ledger RVs, occultation timings)
-    gives the updated W; a record without the prior's value falls back to its ``ecc_data_weight``,
-    and one without a posterior to 0.0."""
+    gives the updated W. A record without the prior's value falls back to its ``ecc_data_weight``,
+    then (a record written before either key) to its ``p_ecc_gt_0p1``, and one without a posterior
+    to 0.0."""
     p, p0 = record.get("p_ecc_gt_0p1"), record.get("p_ecc_gt_0p1_prior")
     if p is not None and p0 is not None:
         return data_weight(float(p), float(p0), float(record.get("ess") or 1.0))
-    w = record.get("ecc_data_weight")
-    return float(w) if w is not None and math.isfinite(float(w)) else 0.0
+    for key in ("ecc_data_weight", "p_ecc_gt_0p1"):
+        w = record.get(key)
+        if w is not None and math.isfinite(float(w)):
+            return float(w)
+    return 0.0
 
 
 def refresh_data_keys(record: dict) -> None:

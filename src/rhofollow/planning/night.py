@@ -171,7 +171,7 @@ def _data_weight(rec: dict, s, e_min: float) -> float:
     from ..assess import data_weight, record_data_weight
     from ..physics.priors import parse_prior
 
-    if e_min == 0.1 and (rec.get("p_ecc_gt_0p1_prior") is not None or rec.get("ecc_data_weight") is not None):
+    if e_min == 0.1 and any(rec.get(k) is not None for k in ("p_ecc_gt_0p1", "ecc_data_weight")):
         return record_data_weight(rec)
     p = ecc_evidence(s.e, s.weights, e_min)
     prior = parse_prior(s.meta.get("prior"))
