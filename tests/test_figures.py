@@ -314,3 +314,68 @@ def test_report_skips_figures_of_a_target_that_never_rises(tmp_path):
     assert any(n.startswith("HTS-103") and n.endswith("_density.png") for n in names)
     assert any(n.startswith("HTS-103") and n.endswith("_rv.png") for n in names)
     assert not [n for n in names if n.startswith("HTS-104")]
+
+
+# ---------------------------------------------------------------------------------------------
+# (e, omega) figure: the uniform-prior interval beside the default one, prior-driven bounds flagged,
+# e_min named in the key (not over the data), long names folded (issue 10)
+
+def _ecc_case(name="HTS-206", ratio=0.2):
+    from rhofollow.stages.assess import assess_target
+    from rhofollow.core.types import Measurement as M, Target
+    from rhofollow.physics.transit import ars_from_rho
+
+    a_c = float(ars_from_rho(1.4 * ratio, 5.0))
+    t = Target(name, 1, "fig.csv", {"period_d": M(5.0, 1e-5, 1e-5), "t0_bjd": M(2461000.5, 1e-3, 1e-3),
+                                    "a_rs": M(a_c, 0.02 * a_c, 0.02 * a_c), "rp_rs": M(0.1, 0.002, 0.002),
+                                    "rho_star_cgs": M(1.4, 0.07, 0.07)})
+    a = assess_target(t, n_samples=4000, seed=2)
+    assert a.ok
+    return a
+
+
+def test_ecc_figure_shows_both_priors_intervals_and_flags_prior_bounds():
+    from rhofollow.report.plots import ecc_omega_figure
+
+    a = _ecc_case()
+    rec = a.record
+    fig = ecc_omega_figure(a.samples, rec)
+    ax, axr = fig.axes[0], fig.axes[2]
+    labels = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert any(lab.startswith(f"e_min = {rec['ecc_min']:.2f}") for lab in labels)
+    assert not [t for t in ax.texts if "e_min" in t.get_text()]   # no label over the posterior
+    assert any("uniform prior" in lab for lab in labels) and any("kipping13 prior" in lab for lab in labels)
+    # the two interval bars span the record's 95 % intervals (default and uniform-prior re-weighted)
+    spans = sorted(tuple(sorted(ln.get_ydata())) for ln in axr.lines if len(ln.get_ydata()) == 2
+                   and ln.get_linewidth() == 4)
+    want = sorted([(rec["ecc"]["q025"], rec["ecc"]["q975"]),
+                   (rec["ecc_uniform_prior"]["q025"], rec["ecc_uniform_prior"]["q975"])])
+    assert [x for sp in spans for x in sp] == pytest.approx([x for sp in want for x in sp])
+    n_prior = sum(v == "prior" for v in rec["ecc_bounds"].values())
+    # a 5-fold low density: g = (1 + e sin w)/sqrt(1 - e^2) = 0.585 (Kipping 2010, MNRAS 407, 301) is
+    # met by every e above e_min at some w, so the data set no upper bound: it is the prior's
+    assert n_prior >= 1 and rec["ecc_bounds"]["upper"] == "prior"
+    assert sum(t.get_text() == "†" for t in axr.texts) == n_prior
+    assert any("set by the prior" in lab for lab in labels)
+    assert f"prior {rec['p_ecc_gt_0p1_prior']:.2f}" in fig._suptitle.get_text()
+
+
+def test_figures_fold_long_names_and_stay_inside_the_figure():
+    """A 300-character target name folds across title lines (never off the figure) and leaves the
+    layout applicable: pytest turns matplotlib's "Tight layout not applied" warning into an error."""
+    from rhofollow.report.plots import density_figure, ecc_omega_figure, occultation_figure, rv_figure
+
+    a = _ecc_case(name="HTS-" + "VERY-LONG-SURVEY-DESIGNATION-" * 10)
+    figs = [ecc_omega_figure(a.samples, a.record), density_figure(a.record),
+            occultation_figure(a.samples, {}), rv_figure(a.samples, None)]
+    for fig in figs:
+        fig.canvas.draw()
+        r = fig.canvas.get_renderer()
+        fw = fig.bbox.width
+        titles = [fig._suptitle] if fig._suptitle is not None else []
+        titles += [ax.title for ax in fig.axes if ax.title.get_text()]
+        assert titles
+        for t in titles:
+            bb = t.get_window_extent(r)
+            assert bb.x0 >= -1 and bb.x1 <= fw + 1, (t.get_text()[:40], bb.x0, bb.x1, fw)
+            assert "\n" in t.get_text()

@@ -2,7 +2,7 @@
 
 For random measured orbits (e, omega with small errors) and random density ratios 0.05-20, the
 assessment's e and omega quantiles stay within 3 measurement sigma, the effective sample size meets
-the floor (see the xfail test: today it can land up to ~5 % short), and the predicted occultation phase equals the measured orbit's exact Kepler value within
+the floor (the sampler checks the Kish ESS of its final pooled set and draws more if short), and the predicted occultation phase equals the measured orbit's exact Kepler value within
 3 sigma of its propagated error. The exact transit-to-occultation delay follows from the conjunction
 true anomalies f = pi/2 - omega and f = -pi/2 - omega (Winn 2010, arXiv:1001.2010, sec. 2) through
 Kepler's equation; the photo-eccentric relation rho_circ/rho* = g^3 (Kipping 2010) sets the mismatch.
@@ -10,7 +10,6 @@ Kepler's equation; the photo-eccentric relation rho_circ/rho* = g^3 (Kipping 201
 import math
 
 import numpy as np
-import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
 from rhofollow.stages.assess import ESS_FLOOR, assess_target
@@ -44,7 +43,7 @@ def test_measured_orbit_quantiles_and_occultation_phase_follow_the_measurement(e
     assert abs(r["ecc"]["q50"] - e) <= 3 * e_err
     d_om = (r["omega_deg"]["q50"] - omega + 180.0) % 360.0 - 180.0
     assert abs(d_om) <= 3 * om_err
-    assert r["ess"] >= 0.5 * ESS_FLOOR   # seen down to 0.95 x floor; the exact floor is the xfail test below
+    assert r["ess"] >= ESS_FLOOR   # Kish ESS of the final weighted set (Kish 1965, Survey Sampling)
 
     # exact phase of the measured orbit and its spread from the measurement errors
     rng = np.random.default_rng(5)
@@ -60,10 +59,9 @@ def test_measured_orbit_quantiles_and_occultation_phase_follow_the_measurement(e
     COUNT["examples"] += 1
 
 
-@pytest.mark.xfail(strict=True, reason="known: the measured-orbit sampler stops on its running ESS "
-                   "estimate and the final Kish ESS lands ~1 % below the floor (1979 of 2000 here, 1898 at e = 0.56); "
-                   "remove this mark when the sampler checks the final ESS")
 def test_measured_orbit_meets_the_ess_floor_exactly():
+    # a 7.4-fold mismatch (ln ratio 2) that the measured e = 0.5 cannot explain: inside each group one
+    # draw dominates, so one batch of 4000 draws gave a Kish ESS of 1979 before the final check
     rho_star, period = 1.4, 1.0
     a_c = float(ars_from_rho(rho_star * math.exp(2.0), period))
     t = _target("PROP", period_d=(period, 1e-5, 1e-5), t0_bjd=(2461000.5, 1e-3, 1e-3),

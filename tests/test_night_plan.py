@@ -196,3 +196,44 @@ def test_night_command_errors(tmp_path, capsys):
     assert main(["night", str(tmp_path / "none.csv"), "--site", SITE, "--date", "2026-12-10",
                  "--samples", "300"]) == 2
     assert "none.csv" in (err := capsys.readouterr().err) and "not found" in err
+
+
+def test_night_evidence_is_the_rankings_data_weight():
+    """E of the night and campaign block values is the ranking's W = B/(1+B), B the posterior-to-
+    prior odds of e > 0.1 (README, Ranking; one definition: rhofollow.stages.assess.data_weight). A target
+    the data say nothing about (posterior = prior) gets E = 0.5, not the prior's P(e > 0.1) ~ 0.7;
+    another threshold computes the same W from the samples and the run's prior.
+    (Ranking and value rules of this project, common practice, no source.)"""
+    from types import SimpleNamespace
+
+    from rhofollow.stages.assess import assess_target, data_weight, record_data_weight, refresh_data_keys
+    from rhofollow.core.types import Measurement as M, Target
+    from rhofollow.planning.night import science_from_records
+    from rhofollow.physics.priors import parse_prior
+    from rhofollow.planning.tasks import ecc_evidence
+    from rhofollow.report.tables import rank_targets
+
+    t = Target("HTS-E", 1, "e.csv", {"period_d": M(4.0, 1e-5, 1e-5), "t0_bjd": M(2461000.5, 1e-3, 1e-3),
+                                     "a_rs": M(13.0, 0.4, 0.4), "rp_rs": M(0.1, 0.002, 0.002),
+                                     "rho_star_cgs": M(2.2, 0.2, 0.2), "ra_deg": M(150.0), "dec_deg": M(-30.0)})
+    a = assess_target(t, n_samples=3000, seed=4)
+    rec = a.record
+    (entry,), _ = science_from_records([a], [], [])
+    assert entry["evidence"] == pytest.approx(rec["ecc_data_weight"]) == pytest.approx(record_data_weight(rec))
+    assert entry["evidence"] != pytest.approx(rec["p_ecc_gt_0p1"])
+    result = SimpleNamespace(assessments=[a], occultations={"targets": [{"name": "HTS-E", "p_occultation": 1.0}]},
+                             rv=[], campaign={"targets": [{"name": "HTS-E", "occultation_windows": [1]}]})
+    w_rank = rank_targets(result)["HTS-E"]["priority"] / rec["p_explanation"]["eccentric"]
+    assert w_rank == pytest.approx(entry["evidence"], abs=1e-5)
+    # no information: posterior = prior -> W = 0.5
+    p0 = rec["p_ecc_gt_0p1_prior"]
+    assert data_weight(p0, p0, 1e4) == pytest.approx(0.5)
+    # another threshold: the same W from the samples and the run's prior
+    (e2,), _ = science_from_records([a], [], [], e_min=0.2)
+    s = a.samples
+    want = data_weight(ecc_evidence(s.e, s.weights, 0.2), parse_prior(rec["prior"]).prob_above(0.2, True), s.ess)
+    assert e2["evidence"] == pytest.approx(want)
+    # an updated posterior (ledger RVs) moves W with it
+    rec2 = dict(rec, p_ecc_gt_0p1=0.999)
+    refresh_data_keys(rec2)
+    assert rec2["ecc_data_weight"] > rec["ecc_data_weight"] and record_data_weight(rec2) == rec2["ecc_data_weight"]

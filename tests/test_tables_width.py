@@ -66,6 +66,9 @@ def assess_records():
         recs.append({"name": n, "ok": True, "rho_circ_cgs": q(12.34 + i, 11, 13), "rho_star_cgs": q(1.4, 1.3, 1.5),
                      "density_ratio": q(8.81, 8, 9), "density_ratio_sigma": 35.1 + i, "ecc_min": 0.62,
                      "ecc": q(0.74, 0.7, 0.8, 0.66, 0.88), "p_ecc_gt_0p1": 0.987,
+                     "p_ecc_gt_0p1_prior": 0.734, "ecc_bounds": {"lower": "data", "upper": "prior"},
+                     "finding": ["fits", "no explanation fits", "star density in question",
+                                 "measured orbit disagrees"][i],
                      "favoured": "other_host", "ln_bayes_factor": 410.0})
     recs.append({"name": "HTS-BAD-ROW-TARGET", "ok": False})
     return recs
@@ -142,7 +145,7 @@ def ledger_result():
 
 
 TABLES = {
-    "assess": (lambda w: summary_table(assess_records(), w), ["35.1σ", "0.99"]),
+    "assess": (lambda w: summary_table(assess_records(), w), ["35.1σ", "0.73→0.99", "†"]),
     "eclipses": (lambda w: events_table(eclipse_result(), w), ["0.312", "0.51", "1759"]),
     "rv": (lambda w: rv_table(rv_records(), "AQ-VEL", 0.01, 0.8, w), ["209", "185", "160.3"]),
     "night": (lambda w: night_table(*night_inputs(), width=w), ["0.179", "E1234"]),
@@ -181,9 +184,9 @@ def test_wider_terminal_shows_at_least_as_much(which):
 def test_expected_columns_at_80_and_140():
     """Structure snapshot: which columns each table shows at 80 and at 140 columns."""
     a80, a140 = TABLES["assess"][0](80), TABLES["assess"][0](140)
-    assert headers(a140) == ["target", "ρ_circ", "ρ★", "ratio", "mismatch", "e_min", "e [95%]", "P(e>0.1)",
-                             "favoured", "2lnB"]
-    assert {"target", "mismatch", "P(e>0.1)", "favoured"} <= set(headers(a80))
+    assert headers(a140) == ["target", "ρ_circ", "ρ★", "ratio", "mismatch", "e_min", "e [95%]",
+                             "P(e>0.1) prior→post", "favoured", "2lnB"]
+    assert {"target", "mismatch", "P(e>0.1) prior→post", "favoured"} <= set(headers(a80))
     assert "820.0" in render(a140, 140) and "8.81" in render(a140, 140)
     p80 = plan_table(plan_doc(), 80)
     assert {"rank", "target", "priority", "occ. windows", "RV visits placed"} <= set(headers(p80))
@@ -311,3 +314,16 @@ def test_printed_priorities_show_the_ranking_order():
         t["priority"] = p
     text = render(plan_table(doc, 140), 140)
     assert "1.00000" in text and "0.99996" in text and "0.99990" in text
+
+
+@pytest.mark.parametrize("width", WIDTHS)
+def test_assess_table_shows_prior_beside_posterior_and_the_finding(width):
+    """The prior P(e>0.1) stands beside the posterior, a prior-driven bound is marked, and a row no
+    explanation fits says so, at 80 and 140 columns (issue 10; layout rule of this project)."""
+    text = render(TABLES["assess"][0](width), width)
+    assert "0.73→0.99" in text and "†" in text
+    assert ("no explanation fits" in text) or ("none fits" in text)
+    assert "star density in question" in text or "ρ★ doubt" in text
+    if width >= 140:
+        assert "no explanation fits" in text and "measured orbit disagrees" in text
+        assert "0.88†" in text   # the upper bound is the prior's, the lower one the data's

@@ -208,6 +208,7 @@ def apply_ledger(path, assessments) -> tuple[dict, set, list]:
 
     from rhofollow.stages.occultations import describe_failure
     from rhofollow.stages.update import apply_to_assessments
+    from rhofollow.stages.assess import refresh_data_keys
     from rhofollow.core.samples import kish_ess, reliability
 
     try:
@@ -223,6 +224,7 @@ def apply_ledger(path, assessments) -> tuple[dict, set, list]:
                 ok, why = reliability(kish_ess(s.weights))
                 a.record.update(ecc=s.quantiles("e"), p_ecc_gt_0p1=float(s.weights[s.e > 0.1].sum()),
                                 ess=kish_ess(s.weights), updated_from_ledger=True, reliable=ok)
+                refresh_data_keys(a.record)   # W = B/(1+B) follows the updated posterior
                 if why:
                     a.record["reliability_note"] = why
                 else:

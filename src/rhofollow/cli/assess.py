@@ -9,7 +9,7 @@ from rhofollow.cli.common import (add_assess_options, add_json_option, console, 
                      write_json, atomic_write_text)
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 
-__all__ = ["register", "run", "summary_table", "assessment_table"]
+__all__ = ["register", "run", "summary_table", "assessment_table", "legend"]
 
 CAUTION = ("Advisory only: the eccentricity posterior assumes the transit parameters and the stellar "
            "density are unbiased; blends, spots and wrong-host cases can mimic eccentricity.")
@@ -34,32 +34,83 @@ def _fmt(x, nd=2):
     return "—" if x is None else f"{x:.{nd}g}" if abs(x) < 1e-2 or abs(x) >= 1e3 else f"{x:.{nd}f}"
 
 
-LEGEND = ("mismatch: |ln(ρ_circ/ρ★)| in units of its spread; 2lnB: log Bayes "
-          "factor of the favoured explanation over the next best (Kass & Raftery 1995: >2 positive, >6 "
-          "strong, >10 very strong); ?: unreliable quantiles (effective sample size below the floor).")
+LEGEND = ("mismatch: |ln(ρ_circ/ρ★)| in units of its spread; P(e>0.1): the prior's value → the "
+          "posterior (how far the data moved it); †: a bound of the 95 % e interval is set by the prior "
+          "(it moves by more than {delta:g} under a uniform prior; see --json ecc_bounds, "
+          "ecc_uniform_prior); a red line under favoured: the row's finding when it is not "
+          "consistent (no explanation fits; star density in question (ρ★ doubt): only a misestimated ρ★ "
+          "fits; measured orbit disagrees (orbit ≠ data) with the transit and ρ★); "
+          "2lnB: log Bayes factor of the favoured explanation over the next best (Kass & Raftery 1995: "
+          ">2 positive, >6 strong, >10 very strong); ?: unreliable quantiles (effective sample size "
+          "below the floor).")
+
+#: Short forms of the findings for narrow terminals (the legend spells them out).
+FINDING_SHORT = {"fits": "fits", "no explanation fits": "none fits", "star density in question": "ρ★ doubt",
+                 "measured orbit disagrees": "orbit ≠ data"}
+PRIOR_MARK = "†"
+
+
+def legend() -> str:
+    """The one-line legend printed under the table."""
+    from rhofollow.stages.assess import PRIOR_DRIVEN_DELTA
+
+    return LEGEND.format(delta=PRIOR_DRIVEN_DELTA)
+
+
+def _ecc_cell(r: dict):
+    """(full, compact) e cell: median [95 % interval], a prior-driven bound marked with PRIOR_MARK."""
+    e = r["ecc"]
+    if None in (e.get("q50"), e.get("q025"), e.get("q975")):
+        return "n/a"
+    bounds = r.get("ecc_bounds") or {}
+    lo_m = PRIOR_MARK if bounds.get("lower") == "prior" else ""
+    hi_m = PRIOR_MARK if bounds.get("upper") == "prior" else ""
+    return (f"{e['q50']:.2f} [{e['q025']:.2f}{lo_m}–{e['q975']:.2f}{hi_m}]",
+            f"{e['q50']:.2f}{PRIOR_MARK if lo_m or hi_m else ''}")
+
+
+def _p_cell(r: dict) -> str:
+    """P(e > 0.1): the prior's value → the posterior."""
+    post = f"{r['p_ecc_gt_0p1']:.2f}"
+    prior = r.get("p_ecc_gt_0p1_prior")
+    return post if prior is None else f"{prior:.2f}→{post}"
+
+
+def _favoured_cell(r: dict):
+    """(full, compact) favoured cell: the favoured explanation, and under it in red the finding when
+    the row is not consistent ("no explanation fits", ...)."""
+    fav = r["favoured"].replace("_", " ")
+    style = {"eccentric": "bold", "blend": "italic", "other host": "italic"}.get(fav, "")
+    finding = r.get("finding") or ("fits" if r.get("fits", True) else "no explanation fits")
+    if finding == "fits":
+        return Text(fav, style=style)
+    cells = []
+    for text in (finding, FINDING_SHORT.get(finding, finding)):
+        t = Text(fav, style=style)
+        t.append("\n")
+        t.append(text, style="red")
+        cells.append(t)
+    return tuple(cells)
 
 
 def summary_table(records: list[dict], width: int = 80) -> FittedTable:
     """The terminal table, one row per target, with the columns that fit ``width`` (densities g/cm³)."""
     cols = [Col("target", justify="left"), Col("ρ_circ", drop=3, what="ρ_circ"),
-            Col("ρ★", drop=3, what="ρ★"), Col("ratio", drop=1), Col("mismatch"), Col("e_min", drop=4),
-            Col("e [95%]", compact_header="e", what="e interval"), Col("P(e>0.1)"),
+            Col("ρ★", drop=3, what="ρ★"), Col("ratio", drop=2), Col("mismatch"), Col("e_min", drop=4),
+            Col("e [95%]", compact_header="e", what="e interval"),
+            Col("P(e>0.1)\nprior→post", what="P(e>0.1)"),
             Col("favoured", justify="left"), Col("2lnB", drop=1)]
     rows = []
     for r in records:
         if not r.get("ok"):
             rows.append([r["name"], *["—"] * 7, Text("failed", style="red"), "—"])
             continue
-        e = r["ecc"]
-        fav = r["favoured"].replace("_", " ")
         lnb = r.get("ln_bayes_factor")
-        style = {"eccentric": "bold", "blend": "italic", "other host": "italic"}.get(fav, "")
         rows.append([
-            r["name"] + (" ?" if r.get("reliable") is False else ""), _fmt(r["rho_circ_cgs"]["q50"]), _fmt(r["rho_star_cgs"]["q50"]),
-            _fmt(r["density_ratio"]["q50"]), f"{r['density_ratio_sigma']:.1f}σ", f"{r['ecc_min']:.2f}",
-            "n/a" if None in (e["q50"], e["q025"], e["q975"]) else
-            (f"{e['q50']:.2f} [{e['q025']:.2f}–{e['q975']:.2f}]", f"{e['q50']:.2f}"),
-            f"{r['p_ecc_gt_0p1']:.2f}", Text(fav, style=style),
+            r["name"] + (" ?" if r.get("reliable") is False else ""), _fmt(r["rho_circ_cgs"]["q50"]),
+            _fmt(r["rho_star_cgs"]["q50"]), _fmt(r["density_ratio"]["q50"]),
+            f"{r['density_ratio_sigma']:.1f}σ", f"{r['ecc_min']:.2f}", _ecc_cell(r), _p_cell(r),
+            _favoured_cell(r),
             "—" if lnb is None else f"{min(2 * lnb, 999):.1f}"])
     return fit_table("Density mismatch and eccentricity (densities in g/cm³)", cols, rows, width)
 
@@ -137,7 +188,7 @@ def run(args) -> int:
     fitted = summary_table(records, con.width)
     con.print(fitted.table)
     table_note(fitted)
-    say(LEGEND, style="dim")
+    say(legend(), style="dim")
     for a in assessments:
         for w in a.warnings:
             message(f"{a.name}: {w}", "warning")

@@ -338,20 +338,14 @@ def _overlap_draw(rng_, m_t, s_t, star_sn, broad):
     return ln_rho, log_q, log_prior
 
 
-def _cut_sample(model, n, rng, group=CUT_GROUP):
-    """Measured-orbit sampler: groups of ``group`` draws share one (e, w) from the measurement (Latin
-    hypercube over its two quantile axes); each group's weights are normalised to the same total, so
-    the (e, w) marginal is the measurement's whatever the transit says (a cut, Plummer 2015). Further
-    data (``aux['_extra']``, RVs or occultation timings) re-weight the groups. The evidence is the mean
-    of the un-normalised weights (exact importance sampling: (e, w) are drawn from their prior)."""
-    ng = max(1, -(-n // group))
+def _cut_batch(model, ng, group, rng):
+    """One batch of ``ng`` groups for :func:`_cut_sample`: (u, log_w, cut log weights, aux)."""
     ug = np.empty((ng, 2))
     for j in range(2):
         ug[:, j] = (rng.permutation(ng) + rng.random(ng)) / ng
     u = np.repeat(ug, group, axis=0)
     log_w, aux = model(u, rng)
     finite = np.isfinite(log_w)
-    log_z = float(logsumexp(log_w[finite]) - np.log(len(log_w))) if finite.any() else -np.inf
     extra = aux.pop("_extra", None)
     lw_t = log_w if extra is None else np.where(finite, log_w - extra, -np.inf)
     g = lw_t.reshape(ng, group)
@@ -363,7 +357,39 @@ def _cut_sample(model, n, rng, group=CUT_GROUP):
     if extra is not None:
         cut = cut + extra
     cut = np.where(np.isfinite(cut), cut, -np.inf)
-    return ImportanceResult(u, cut, aux, log_z, _kish(cut), 1, False)
+    return u, log_w, cut, aux
+
+
+#: Most groups the measured-orbit sampler draws, in units of the first batch.
+CUT_BUDGET = 12
+
+
+def _cut_sample(model, n, rng, group=CUT_GROUP, ess_floor=0.0):
+    """Measured-orbit sampler: groups of ``group`` draws share one (e, w) from the measurement (Latin
+    hypercube over its two quantile axes); each group's weights are normalised to the same total, so
+    the (e, w) marginal is the measurement's whatever the transit says (a cut, Plummer 2015). Further
+    data (``aux['_extra']``, RVs or occultation timings) re-weight the groups. The evidence is the mean
+    of the un-normalised weights (exact importance sampling: (e, w) are drawn from their prior).
+
+    The Kish ESS of the final pooled set is checked: while it is below ``ess_floor``, another batch of
+    groups (sized from the shortfall) is drawn and pooled, up to ``CUT_BUDGET`` x the first batch.
+    Without further data each group contributes between 1 and ``group`` effective samples, so the
+    floor is met once the finite groups number ``ess_floor``."""
+    ng = max(1, -(-n // group))
+    u, log_w, cut, aux = _cut_batch(model, ng, group, rng)
+    ess, rounds, total = _kish(cut), 1, ng
+    while ess < ess_floor and total < CUT_BUDGET * ng and np.any(np.isfinite(cut)):
+        more = int(np.clip(np.ceil(total * (ess_floor / max(ess, 1.0) - 1.0) * 1.1), max(1, ng // 8), 4 * ng))
+        more = min(more, CUT_BUDGET * ng - total)
+        u2, lw2, cut2, aux2 = _cut_batch(model, more, group, rng)
+        u = np.vstack([u, u2])
+        log_w = np.concatenate([log_w, lw2])
+        cut = np.concatenate([cut, cut2])
+        aux = {k: np.concatenate([aux[k], aux2[k]]) for k in aux}
+        ess, rounds, total = _kish(cut), rounds + 1, total + more
+    finite = np.isfinite(log_w)
+    log_z = float(logsumexp(log_w[finite]) - np.log(len(log_w))) if finite.any() else -np.inf
+    return ImportanceResult(u, cut, aux, log_z, ess, rounds, False)
 
 
 def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: HypothesisSetup,
@@ -488,7 +514,7 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
         return np.where(np.isfinite(log_w), log_w, -np.inf), aux
 
     if hyp == "eccentric" and measured:
-        res = _cut_sample(model, n, rng)
+        res = _cut_sample(model, n, rng, ess_floor=ess_floor)
     else:
         proxy = _make_proxy(hyp, dims, obs, host, setup) if hyp == "eccentric" else None
         res = adaptive_importance_sample(model, d, n, rng, ess_floor=ess_floor, proxy=proxy,

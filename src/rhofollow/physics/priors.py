@@ -23,7 +23,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-__all__ = ["EccPrior", "MeasuredEcc", "parse_prior", "PRIOR_NAMES", "DEFAULT_PRIOR", "measured_prior"]
+__all__ = ["EccPrior", "MeasuredEcc", "parse_prior", "PRIOR_NAMES", "DEFAULT_PRIOR", "measured_prior",
+           "reweight_to_prior"]
 
 DEFAULT_PRIOR = "kipping13"
 E_MAX = 0.99
@@ -211,3 +212,21 @@ def measured_prior(value: float, err_lo: float, err_hi: float) -> EccPrior:
     mid = 0.5 * (e[1:] + e[:-1])
     boost = float(np.sum(np.diff(cdf) / (1.0 - mid**2)))
     return MeasuredEcc(f"measured e={value:g}", e, cdf, boost, "published orbit", float(value), slo, shi)
+
+
+def reweight_to_prior(e, weights, prior: EccPrior, other: EccPrior):
+    """Weights of the same posterior samples under ``other`` instead of ``prior`` (normalised to 1).
+
+    Importance re-weighting by the prior ratio: w' = w p_other(e) / p_prior(e) (the likelihood and
+    every other prior factor cancel). Returns None when no sample keeps weight (``other`` puts no
+    mass where the samples are). e dimensionless, weights any positive scale.
+    """
+    e = np.asarray(e, dtype=float)
+    p_def = prior.pdf(e)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.where(p_def > 0, other.pdf(e) / p_def, 0.0)
+    wu = np.asarray(weights, dtype=float) * ratio
+    total = wu.sum()
+    if not total > 0:
+        return None
+    return wu / total

@@ -4,13 +4,16 @@ Split normal: a measurement value +err_hi/-err_lo is modelled as two half-Gaussi
 (common practice, no source), truncated to physical bounds by inverse-CDF sampling (exact, no rejection).
 
 The importance sampler works in the unit cube of prior quantiles u (so the prior density is 1 there).
-Batch one draws u uniformly; while the Kish effective sample size is below the floor, the proposal is
-adapted to a piecewise-constant density on a grid of cells, fitted to the weighted samples and mixed with
-the uniform prior (defensive mixture, Hesterberg 1995), and a new batch is drawn. Weights are
-likelihood x prior / proposal, so evidences (mean weight) stay unbiased whatever the proposal.
+Batch one draws u uniformly (or from a proposal fitted to a cheap proxy); while the Kish effective sample
+size of the pooled set is below the floor, a new proposal is fitted to the pooled weighted samples (a
+piecewise-constant density on a grid of cells, mixed with the uniform prior: defensive mixture,
+Hesterberg 1995) and a new batch is drawn. All batches are kept and weighted by likelihood x prior /
+(deterministic mixture of the proposals), so evidences (mean weight) stay accurate whatever the
+proposals.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -90,6 +93,9 @@ def _kish(log_w):
     w = np.exp(log_w - m)
     return float(w.sum() ** 2 / np.sum(w * w))
 
+
+#: Most draws (in units of the batch size n) the final pooling stage may add up to.
+POOL_BUDGET = 12
 
 _BINS = {1: (128,), 2: (40, 40), 3: (20, 20, 10), 4: (12, 12, 8, 8)}
 
@@ -174,6 +180,14 @@ def adaptive_importance_sample(model, d, n, rng, ess_floor=2000.0, max_rounds=4,
                                pool=True):
     """Importance-sample ``model`` over the d-dimensional unit cube of prior quantiles.
 
+    Every batch is kept. The weights of the pooled set use the deterministic mixture of all the
+    proposals drawn from (the balance heuristic: q_mix(u) = sum_k (n_k / N) q_k(u); Veach & Guibas
+    1995, SIGGRAPH; Owen & Zhou 2000, JASA 95, 135), so a point that an early, poorly placed proposal
+    drew in a region a later proposal covers well carries a moderate weight instead of swamping the
+    set; each new proposal is fitted to the pooled weighted set (adaptive multiple importance
+    sampling, Cornuet et al. 2012, Scand. J. Stat. 39, 798). The Kish ESS is that of the returned,
+    pooled weights.
+
     Parameters
     ----------
     model : callable(u, rng) -> (log_like, aux)
@@ -182,56 +196,67 @@ def adaptive_importance_sample(model, d, n, rng, ess_floor=2000.0, max_rounds=4,
     d : int
         Number of adapted dimensions (d >= 1).
     n : int
-        Samples per batch (and in the result, unless the final stage grows the sample).
+        Samples per batch; the result holds every batch drawn (n when the first meets the floor).
     ess_floor : float
-        Target Kish effective sample size; the proposal is adapted (up to ``max_rounds`` batches) and,
-        failing that, the last proposal's batches are pooled.
+        Target Kish effective sample size. Up to ``max_rounds`` batches of n are drawn while the
+        pooled ESS is short; with ``pool``, further batches sized from the shortfall follow until the
+        pooled ESS meets the floor or ``POOL_BUDGET`` x n draws are spent.
     proxy : callable(u) -> log weight, optional
         A cheap approximation of the log-likelihood; the first proposal is fitted to it on uniform
         points, so the first batch already lands where the posterior is.
     pool : bool
-        Pool extra batches when the ESS is still short after ``max_rounds`` (off for hypotheses whose
-        evidence alone is wanted).
+        Keep drawing past ``max_rounds`` while the ESS is short (off for hypotheses whose evidence
+        alone is wanted).
     """
-    proposal = None
+    proposals, counts, us, lls, auxes = [], [], [], [], []
+
+    def draw(proposal, m):
+        if proposal is None:
+            u = rng.random((m, d))
+        else:
+            u, _ = proposal.sample(rng, m)
+        ll, aux = model(u, rng)
+        proposals.append(proposal)
+        counts.append(m)
+        us.append(u)
+        lls.append(ll)
+        auxes.append(aux)
+
+    def pooled():
+        u = us[0] if len(us) == 1 else np.vstack(us)
+        ll = lls[0] if len(lls) == 1 else np.concatenate(lls)
+        total = float(sum(counts))
+        comps = [np.log(c / total) + (np.zeros(len(u)) if q is None else q.log_density(u))
+                 for q, c in zip(proposals, counts)]
+        log_q = comps[0] if len(comps) == 1 else logsumexp(np.stack(comps), axis=0)
+        log_w = np.where(np.isfinite(ll), ll - log_q, -np.inf)
+        return u, log_w
+
+    first = None
     if proxy is not None:
         u0 = rng.random((n, d))
         lp = proxy(u0)
-        w0 = np.exp(lp - np.max(lp))
-        proposal = _GridProposal(u0, w0, d)
-        u, log_q = proposal.sample(rng, n)
-        ll, aux = model(u, rng)
-        log_w = ll - log_q
-    else:
-        u = rng.random((n, d))
-        ll, aux = model(u, rng)
-        log_w = ll
+        first = _GridProposal(u0, np.exp(lp - np.max(lp)), d)
+    draw(first, n)
+    u, log_w = pooled()
     ess = _kish(log_w)
-    rounds, adapted = 1, proxy is not None
-    best = (u, log_w, aux, ess)
-    while ess < ess_floor and rounds < max_rounds and np.any(np.isfinite(log_w)):
+    adapted = proxy is not None
+    while ess < ess_floor and np.any(np.isfinite(log_w)):
+        drawn = sum(counts)
+        if len(counts) < max_rounds:
+            m = n
+        elif pool and drawn < POOL_BUDGET * n and ess > 0:
+            # pooled ESS grows about linearly with the draws: size the batch from the shortfall
+            m = int(np.clip(math.ceil(drawn * (ess_floor / ess - 1.0) * 1.1), n // 4, 4 * n))
+            m = max(1, min(m, POOL_BUDGET * n - drawn))
+        else:
+            break
         w = np.exp(log_w - np.max(log_w))
-        proposal = _GridProposal(u, w, d)
-        u, log_q = proposal.sample(rng, n)
-        ll, aux = model(u, rng)
-        log_w = ll - log_q
-        ess = _kish(log_w)
-        rounds += 1
+        draw(_GridProposal(u, w, d), m)
         adapted = True
-        if ess > best[3]:
-            best = (u, log_w, aux, ess)
-    u, log_w, aux, ess = best
-    # pool extra batches from the best proposal if still short (same proposal => same weight scale)
-    pooled = 0
-    while pool and ess < ess_floor and proposal is not None and pooled < 3 and np.any(np.isfinite(log_w)):
-        u2, log_q2 = proposal.sample(rng, n)
-        ll2, aux2 = model(u2, rng)
-        u = np.vstack([u, u2])
-        log_w = np.concatenate([log_w, ll2 - log_q2])
-        aux = {k: np.concatenate([aux[k], aux2[k]]) for k in aux}
+        u, log_w = pooled()
         ess = _kish(log_w)
-        pooled += 1
-        rounds += 1
+    aux = auxes[0] if len(auxes) == 1 else {k: np.concatenate([a[k] for a in auxes]) for k in auxes[0]}
     finite = np.isfinite(log_w)
     log_z = float(logsumexp(log_w[finite]) - np.log(len(log_w))) if finite.any() else -np.inf
-    return ImportanceResult(u, log_w, aux, log_z, ess, rounds, adapted)
+    return ImportanceResult(u, log_w, aux, log_z, ess, len(counts), adapted)

@@ -10,7 +10,8 @@
 
 A science dict per target (plain data; see :func:`science_entry`)::
 
-    {"name", "evidence" (0..1), "occultation": occultation record or None,
+    {"name", "evidence" (0..1: W = B/(1+B) of the posterior-to-prior odds B of e > 0.1, as in the
+     ranking), "occultation": occultation record or None,
      "rv": RV record or None, "t0_bjd" (BJD_TDB), "period_d" (days),
      "bjd_minus_jd" (days, BJD_TDB - JD_UTC during the night), "n_done" (RV visits obtained)}
 """
@@ -162,6 +163,22 @@ def _radec(a) -> tuple[float, float]:
     return float(ra), float(dec)
 
 
+def _data_weight(rec: dict, s, e_min: float) -> float:
+    """Evidence E of a target: W = B/(1+B) of the posterior-to-prior odds of e > e_min, the same W
+    the ranking uses (:func:`rhofollow.stages.assess.data_weight`). At e_min = 0.1 it is the record's
+    (:func:`rhofollow.stages.assess.record_data_weight`); at another threshold it is computed from the samples and the prior named in
+    their metadata (the run's prior, with the transit-probability factor when the run used it)."""
+    from rhofollow.stages.assess import data_weight, record_data_weight
+    from rhofollow.physics.priors import parse_prior
+
+    if e_min == 0.1 and any(rec.get(k) is not None for k in ("p_ecc_gt_0p1", "ecc_data_weight")):
+        return record_data_weight(rec)
+    p = ecc_evidence(s.e, s.weights, e_min)
+    prior = parse_prior(s.meta.get("prior"))
+    p0 = prior.prob_above(e_min, transit_prob=bool(s.meta.get("transit_prob", True)))
+    return data_weight(p, p0, s.ess)
+
+
 def science_from_records(assessments, occ_records: list[dict] | None, rv_records: list[dict] | None,
                          e_min: float = 0.1, n_done: dict | None = None) -> tuple[list[dict], list[dict]]:
     """Science dicts (with ``ra_deg``, ``dec_deg``) for the targets that can be planned.
@@ -175,8 +192,8 @@ def science_from_records(assessments, occ_records: list[dict] | None, rv_records
     rv_records : list of dict or None
         Records of :func:`rhofollow.stages.rv.plan_rv`.
     e_min : float
-        Eccentricity threshold of the evidence ``E`` (the assessment's ``p_ecc_gt_0p1`` is used
-        when ``e_min`` is 0.1, else the samples).
+        Eccentricity threshold of the evidence ``E`` = W = B/(1+B), B the posterior-to-prior odds of
+        e > e_min (the ranking's W; the record's ``ecc_data_weight`` at 0.1, else from the samples).
     n_done : dict or None
         Target name -> RV visits already obtained.
 
@@ -199,8 +216,7 @@ def science_from_records(assessments, occ_records: list[dict] | None, rv_records
             skipped.append({"name": a.name, "reason": "ra_deg/dec_deg missing: cannot be scheduled"})
             continue
         rec = getattr(a, "record", None) or {}
-        ev = rec.get("p_ecc_gt_0p1") if e_min == 0.1 else None
-        ev = float(ev) if ev is not None else ecc_evidence(s.e, s.weights, e_min)
+        ev = _data_weight(rec, s, e_min)
         o = occ.get(a.name)
         o = o if o and o.get("ok", True) and o.get("events") else None
         r = rvs.get(a.name)

@@ -1,8 +1,10 @@
 """Per-target results of a ``plan`` run as JSON, ECSV and CSV (one row per catalogue target).
 
-The ranking is plain and stated in every report: priority = P(eccentric explanation) x P(e > 0.1) x
+The ranking is plain and stated in every report: priority = P(eccentric explanation) x W x
 testability, where P(eccentric explanation) is the eccentric orbit's share of the explanations'
-evidence (equal prior odds; a likely blend or other-host case ranks low), and
+evidence (equal prior odds; a likely blend or other-host case ranks low), W = B/(1+B) of the
+posterior-to-prior odds B of e > 0.1 (:func:`rhofollow.stages.assess.record_data_weight`, the same W the
+night and campaign plans use), and
 testability is the larger of (a) P(occultation happens) when at least one occultation window is
 observable from the site in the date range, and (b) the fraction of the RV visits needed to confirm
 e > 0 that fit in the range (0 when RVs cannot confirm it). Ties go to the larger density mismatch.
@@ -12,6 +14,7 @@ from __future__ import annotations
 import io
 import math
 
+from rhofollow.stages.assess import record_data_weight
 from rhofollow.core.samples import QUANTILE_LEVELS
 
 __all__ = ["PRIORITY_RULE", "rank_targets", "results_document", "flat_rows", "rows_to_csv", "rows_to_ecsv",
@@ -56,8 +59,9 @@ def rank_targets(result) -> dict:
         test = max(t_occ, t_rv)
         p_model = _num((rec.get("p_explanation") or {}).get("eccentric"), 1.0)
         # W rewards what the data show, not the prior: B/(1+B) of the posterior-to-prior odds of
-        # e > 0.1 (a target without information scores 0.5, not the prior's P(e > 0.1) ~ 0.7)
-        w_data = _num(rec.get("ecc_data_weight", rec.get("p_ecc_gt_0p1")))
+        # e > 0.1 (a target without information scores 0.5, not the prior's P(e > 0.1) ~ 0.7); the
+        # same W the night and campaign block values use (assess.record_data_weight)
+        w_data = _num(record_data_weight(rec))
         out[a.name] = {"priority": round(p_model * w_data * test, 6), "ecc_data_weight": rec.get("ecc_data_weight"),
                        "fits": rec.get("fits", True) is not False,
                        "testability": round(test, 6), "p_eccentric_explanation": round(p_model, 6),

@@ -15,7 +15,7 @@ from rhofollow.core.types import Measurement, Target
 from rhofollow.physics import stars as st
 from rhofollow.physics.eccentricity import (HYPOTHESES, MEASURED_STAR_HYPOTHESES, best_possible_loglike, HypothesisSetup, Obs,
                                    StarPool, TransitObservables, run_hypothesis)
-from rhofollow.physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior
+from rhofollow.physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior, reweight_to_prior
 from rhofollow.physics.transit import g_factor
 from rhofollow.physics.sampling import draw_split_normal
 from rhofollow.physics.transit import ars_from_t14_b, ecc_min_from_ratio, rho_from_ars, smo_invert
@@ -25,7 +25,8 @@ from rhofollow.core.seeds import target_seed  # the per-target generator (re-exp
 
 __all__ = ["Assessment", "assess_target", "assess_catalogue", "target_seed", "READINGS", "LABELS",
            "evidence_strength", "DEFAULT_N_SAMPLES", "ESS_FLOOR", "CHI2_REJECT", "DEFAULT_RADIUS_RATIO",
-           "PRIOR_DRIVEN_DELTA", "REMAINING_LN_B", "ORBIT_TENSION_SIGMA"]
+           "PRIOR_DRIVEN_DELTA", "REMAINING_LN_B", "ORBIT_TENSION_SIGMA", "data_weight", "record_data_weight",
+           "refresh_data_keys"]
 
 DEFAULT_N_SAMPLES = DEFAULT_SAMPLES
 #: An explanation whose best sample misses the transit measurements and the star's density by more than
@@ -378,6 +379,7 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     w = w / w.sum()
     aux = ecc_res.aux
     meta = {"route_transit": route, "route_star": star_label, "prior": prior.name,
+            "transit_prob": bool(transit_prob),
             "row": t.row, "source": t.source, "k_assumed": bool(k_assumed), "orbit_measured": bool(measured)}
     for key in ("ra_deg", "dec_deg", "vmag", "logg_cgs", "feh_dex", "jitter_ms", "mp_mearth",
                 "teff_k", "contam_frac"):
@@ -466,7 +468,7 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
         "p_ecc_gt_0p1": p_gt,
         "p_ecc_gt_0p1_prior": p_gt_prior,
         "ecc_odds_ratio": data_odds,
-        "ecc_data_weight": (data_odds / (1 + data_odds)) if math.isfinite(data_odds) else 1.0,
+        "ecc_data_weight": data_weight(p_gt, p_gt_prior, ess),
         **uni,
         "ess": float(ess),
         "reliable": reliability(ess)[0],
@@ -491,6 +493,42 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     return Assessment(t.name, t, True, [], warnings, samples, record)
 
 
+def data_weight(p: float, p0: float, ess: float) -> float:
+    """W = B/(1 + B), B the posterior-to-prior odds of e above the threshold (:func:`_odds_ratio`):
+    what the data add to the prior, 0.5 when they say nothing, towards 1 when they favour e above
+    it, towards 0 when they disfavour it. The one definition used by the record
+    (``ecc_data_weight``), the ranking (:func:`rhofollow.report.tables.rank_targets`) and the night
+    and campaign block values (:func:`rhofollow.planning.night.science_from_records`)."""
+    b = _odds_ratio(p, p0, ess)
+    return b / (1 + b) if math.isfinite(b) else 1.0
+
+
+def record_data_weight(record: dict) -> float:
+    """W of an assessment record from its ``p_ecc_gt_0p1``, ``p_ecc_gt_0p1_prior`` and ``ess``
+    (:func:`data_weight`), so a record whose posterior was updated (ledger RVs, occultation timings)
+    gives the updated W. A record without the prior's value falls back to its ``ecc_data_weight``,
+    then (a record written before either key) to its ``p_ecc_gt_0p1``, and one without a posterior
+    to 0.0."""
+    p, p0 = record.get("p_ecc_gt_0p1"), record.get("p_ecc_gt_0p1_prior")
+    if p is not None and p0 is not None:
+        return data_weight(float(p), float(p0), float(record.get("ess") or 1.0))
+    for key in ("ecc_data_weight", "p_ecc_gt_0p1"):
+        w = record.get(key)
+        if w is not None and math.isfinite(float(w)):
+            return float(w)
+    return 0.0
+
+
+def refresh_data_keys(record: dict) -> None:
+    """Recompute ``ecc_odds_ratio`` and ``ecc_data_weight`` after ``p_ecc_gt_0p1`` or ``ess`` changed."""
+    p, p0 = record.get("p_ecc_gt_0p1"), record.get("p_ecc_gt_0p1_prior")
+    if p is None or p0 is None:
+        return
+    ess = float(record.get("ess") or 1.0)
+    record["ecc_odds_ratio"] = _odds_ratio(float(p), float(p0), ess)
+    record["ecc_data_weight"] = data_weight(float(p), float(p0), ess)
+
+
 def _odds_ratio(p: float, p0: float, ess: float) -> float:
     """Posterior-to-prior odds of e > 0.1 (the Bayes factor of e > 0.1 against e <= 0.1), with the
     posterior probability kept at least half a sample from 0 and 1."""
@@ -512,14 +550,10 @@ def _uniform_prior_interval(e, w, prior: EccPrior, measured: bool, ecc_q: dict) 
                 "ecc_bounds": {"lower": "measured orbit", "upper": "measured orbit"}}
     if _UNIFORM is None:
         _UNIFORM = parse_prior("uniform")
-    p_def = prior.pdf(e)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ratio = np.where(p_def > 0, _UNIFORM.pdf(e) / p_def, 0.0)
-    wu = w * ratio
-    if not wu.sum() > 0:
+    wu = reweight_to_prior(e, w, prior, _UNIFORM)
+    if wu is None:
         return {"ecc_uniform_prior": None, "ess_uniform_prior": 0.0,
                 "ecc_bounds": {"lower": "unknown", "upper": "unknown"}}
-    wu = wu / wu.sum()
     qu = quantile_dict(e, wu)
     ess_u = float(1.0 / np.sum(wu * wu))
     bounds = {side: ("prior" if abs(ecc_q[key] - qu[key]) > PRIOR_DRIVEN_DELTA else "data")
