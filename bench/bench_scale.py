@@ -6,6 +6,10 @@ the catalogue size. Default: 60 rows x 20,000 samples (RV test with 200 simulate
 ``--full``: 10,000 rows (hours on a 2-core machine with the RV stage; add ``--no-rv`` for the
 assessment and occultation stages alone). Prints times, the speed-up and peak memory; checks that
 both modes give identical records.
+
+``--plan``: the whole ``rhofollow plan`` command on a synthetic catalogue of ``--rows`` rows (written
+to a temporary CSV with the columns of examples/hts_candidates.csv) at the demo site over ``--nights``
+evenings, run under ``/usr/bin/time -v``: prints its wall time and peak resident memory.
 """
 from __future__ import annotations
 
@@ -63,8 +67,53 @@ def run_mode(rows, samples, sims, workers, with_rv, chunk=20):
     print(json.dumps({"seconds": dt, "digest": digest, "peak_mb": peak_mb}))
 
 
+def write_catalogue(path, rows, seed=3):
+    """The synthetic rows of bench_assess as a catalogue CSV (value and ``_err`` columns, vmag)."""
+    import csv
+
+    sys.path.insert(0, str(HERE))
+    from bench_assess import synthetic_rows
+
+    targets = synthetic_rows(rows, seed=seed)
+    cols = sorted({c for t in targets for c in t.values})
+    with open(path, "w", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(["name", "vmag"] + [x for c in cols for x in (c, c + "_err")])
+        for t in targets:
+            row = [t.name, "10.5"]
+            for c in cols:
+                m = t.values.get(c)
+                row += ["", ""] if m is None else [repr(m.value), repr(m.err) if m.has_error else ""]
+            w.writerow(row)
+
+
+def run_plan(rows, samples, sims, nights, workers=1):
+    """``rhofollow plan`` under /usr/bin/time -v: (wall s, peak MiB, exit status)."""
+    import re
+    import tempfile
+
+    with tempfile.TemporaryDirectory() as d:
+        cat = Path(d) / "bench_catalogue.csv"
+        write_catalogue(cat, rows)
+        code = "import sys; from rhofollow.cli import main; sys.exit(main())"
+        cmd = ["/usr/bin/time", "-v", sys.executable, "-c", code, "plan", str(cat),
+               "--site", str(ROOT / "site_configs" / "alto_quemado.toml"), "--start", "2027-01-05",
+               "--end", f"2027-01-{4 + nights:02d}", "--out", str(Path(d) / "report"), "--samples",
+               str(samples), "--sims", str(sims), "--workers", str(workers), "--plot-targets", "10"]
+        p = subprocess.run(cmd, capture_output=True, text=True)
+    peak = float(re.search(r"Maximum resident set size \(kbytes\): (\d+)", p.stderr).group(1)) / 1024
+    wall = re.search(r"Elapsed \(wall clock\) time \(h:mm:ss or m:ss\): ([\d:.]+)", p.stderr).group(1)
+    secs = 0.0
+    for part in wall.split(":"):
+        secs = secs * 60 + float(part)
+    return secs, peak, p.returncode
+
+
 def main():
     ap = argparse.ArgumentParser()
+    ap.add_argument("--plan", action="store_true", help="time the whole plan command (see module doc)")
+    ap.add_argument("--nights", type=int, default=7, help="--plan: evenings planned (1-27)")
+    ap.add_argument("--workers", type=int, default=1, help="--plan: processes")
     ap.add_argument("--full", action="store_true")
     ap.add_argument("--rows", type=int)
     ap.add_argument("--samples", type=int, default=20000)
@@ -73,6 +122,12 @@ def main():
     ap.add_argument("--_mode", type=int, help=argparse.SUPPRESS)
     a = ap.parse_args()
     rows = a.rows or (10000 if a.full else 60)
+    if a.plan:
+        secs, peak, rc = run_plan(rows, a.samples, a.sims, a.nights, a.workers)
+        print(f"rhofollow plan: {rows} rows x {a.samples} samples, {a.sims} RV simulations, {a.nights} "
+              f"evenings, {a.workers} worker(s): {secs:.1f} s wall, peak memory {peak:.0f} MiB "
+              f"(/usr/bin/time -v), exit status {rc}")
+        return
     if a._mode is not None:
         run_mode(rows, a.samples, a.sims, a._mode, not a.no_rv)
         return

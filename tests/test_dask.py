@@ -1,4 +1,6 @@
-"""A small catalogue on a local dask.distributed cluster gives the serial run's results exactly."""
+"""A small catalogue on a local dask.distributed cluster (two worker processes) and on a process
+pool gives the serial run's records exactly (byte-identical JSON)."""
+import json
 from pathlib import Path
 
 import numpy as np
@@ -7,7 +9,7 @@ import pytest
 distributed = pytest.importorskip("distributed")
 
 from rhofollow.io.catalogue import read_catalogue  # noqa: E402
-from rhofollow.core.executor import assess_parallel  # noqa: E402
+from rhofollow.core.executor import assess_parallel, dispatch  # noqa: E402
 from rhofollow.pipeline import PipelineOptions, run_stages  # noqa: E402
 from rhofollow.planning.site import load_site  # noqa: E402
 
@@ -23,9 +25,21 @@ def targets():
 
 @pytest.fixture(scope="module")
 def cluster():
-    with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=False, dashboard_address=None,
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None,
                                   silence_logs=50) as c:
         yield c
+
+
+def _square_all(part, offset):
+    return [x * x + offset for x in part]
+
+
+@pytest.mark.parametrize("mode", ["serial", "pool", "dask"])
+def test_dispatch_keeps_input_order(mode, cluster):
+    kw = {"serial": {}, "pool": {"workers": 2}, "dask": {"dask_address": cluster.scheduler_address}}[mode]
+    parts = list(dispatch(_square_all, range(23), chunk=2, window=3, make_job=lambda p: (p, 1), **kw))
+    assert [x for p in parts for x in p] == [x * x + 1 for x in range(23)]
+    assert all(len(p) <= 2 for p in parts)
 
 
 def test_assessment_on_dask_equals_serial(targets, cluster):
@@ -39,13 +53,20 @@ def test_assessment_on_dask_equals_serial(targets, cluster):
         np.testing.assert_array_equal(a.samples.weights, b.samples.weights)
 
 
-def test_stages_on_dask_equal_serial(targets, cluster):
+def _dump(stages):
+    return json.dumps({"assess": [a.record for a in stages.assessments],
+                       "occ": stages.occultations["targets"], "rv": stages.rv}, sort_keys=True)
+
+
+def test_stages_on_dask_and_pool_equal_serial(targets, cluster):
     site = load_site(ROOT / "site_configs" / "alto_quemado.toml")
     start, end = "2026-12-10T12:00:00", "2026-12-14T12:00:00"
     base = dict(samples=2000, seed=5, sims=100)
     serial = run_stages(targets, site, start, end, PipelineOptions(**base))
     remote = run_stages(targets, site, start, end, PipelineOptions(dask_address=cluster.scheduler_address, **base))
-    assert [a.record for a in remote.assessments] == [a.record for a in serial.assessments]
-    assert remote.occultations["targets"] == serial.occultations["targets"]
-    assert remote.rv == serial.rv
+    pool = run_stages(targets, site, start, end, PipelineOptions(workers=2, **base))
     assert remote.rv and all(r["ok"] for r in remote.rv)
+    assert [r["name"] for r in remote.occultations["targets"]] == list(NAMES)
+    # byte-identical records, lrt_threshold included, in every execution mode
+    assert _dump(remote) == _dump(serial)
+    assert _dump(pool) == _dump(serial)

@@ -153,47 +153,64 @@ def _instruments(site):
     return spec, phot
 
 
-def _rv_chunk(args):
+def _rv_chunk(chunk, spec, rv_data, kw):
     """Worker: RV records of one chunk of assessments (module level so it pickles)."""
     from rhofollow.stages.rv import plan_rv
 
-    chunk, spec, rv_data, kw = args
     return plan_rv(chunk, spec, rv_data, **kw)
 
 
 def _rv_records(assessments, spec, opts: PipelineOptions, kw: dict, advance) -> list:
-    """RV records in input order: in this process, a process pool or on the dask cluster.
+    """RV records in input order: in this process, a process pool or on the dask cluster
+    (:func:`rhofollow.core.executor.dispatch`).
 
     Each target's RV draws depend on (seed, name, stage) only, so every mode gives the same records.
     """
-    from rhofollow.core.executor import chunked
-    from rhofollow.stages.rv import plan_rv
+    from rhofollow.core.executor import dispatch
 
-    workers = max(1, int(opts.workers or 1))
-    if not opts.dask_address and (workers <= 1 or len(assessments) < 2):
-        return plan_rv(assessments, spec, opts.rv_data, progress=advance, **kw)
-    size = max(1, -(-len(assessments) // (4 * workers)))
-    jobs = []
-    for chunk in chunked(list(assessments), size):
+    def job(chunk):
         data = {a.name: opts.rv_data[a.name] for a in chunk if opts.rv_data and a.name in opts.rv_data}
-        jobs.append((chunk, spec, data or None, kw))
+        return chunk, spec, data or None, kw
+
     out = []
-    if opts.dask_address:
-        from distributed import Client
-
-        with Client(opts.dask_address) as client:
-            for fut in client.map(_rv_chunk, jobs, pure=False):
-                part = fut.result()
-                out.extend(part)
-                advance(len(part))
-        return out
-    from concurrent.futures import ProcessPoolExecutor
-
-    with ProcessPoolExecutor(max_workers=workers) as pool:
-        for part in pool.map(_rv_chunk, jobs):
-            out.extend(part)
-            advance(len(part))
+    for part in dispatch(_rv_chunk, assessments, workers=opts.workers, dask_address=opts.dask_address,
+                         make_job=job):
+        out.extend(part)
+        advance(len(part))
     return out
+
+
+def _occultation_chunk(chunk, start_iso, end_iso, eopts):
+    """Worker: occultation predictions of one chunk, with the warnings raised while making them."""
+    from rhofollow.stages.occultations import predict_occultations
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        occ = predict_occultations(chunk, start_iso, end_iso, eopts)
+    return occ, [str(w.message) for w in caught]
+
+
+def _occultations(assessments, start_iso, end_iso, eopts, opts: PipelineOptions):
+    """Occultation predictions of every target in input order (:func:`rhofollow.core.executor.dispatch`):
+    one document, its ``targets`` concatenated and its notices and warnings each kept once."""
+    from rhofollow.core.executor import dispatch
+
+    out, notices, warned = None, [], []
+    # without a pool one call covers every target (one batched UTC conversion)
+    whole = not opts.dask_address and max(1, int(opts.workers or 1)) <= 1
+    for occ, caught in dispatch(_occultation_chunk, assessments, workers=opts.workers,
+                                dask_address=opts.dask_address, chunk=len(assessments) if whole else None,
+                                make_job=lambda chunk: (chunk, start_iso, end_iso, eopts)):
+        if out is None:
+            out = dict(occ, targets=[])
+        out["targets"] += occ["targets"]
+        notices += [n for n in occ.get("notices", []) if n not in notices]
+        warned += caught
+    if out is None:  # no targets: the document of an empty run
+        out, warned = _occultation_chunk([], start_iso, end_iso, eopts)
+        notices = list(out.get("notices", []))
+    out["notices"] = notices
+    return out, warned
 
 
 def apply_ledger(path, assessments) -> tuple[dict, set, list]:
@@ -311,7 +328,7 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
     options : :class:`PipelineOptions`
     progress : optional stage-progress callback (:data:`StageProgress`)
     """
-    from rhofollow.stages.occultations import EclipseInputError, EclipseOptions, predict_occultations
+    from rhofollow.stages.occultations import EclipseInputError, EclipseOptions
     from rhofollow.core.executor import assess_parallel
     from rhofollow.physics.priors import DEFAULT_PRIOR, parse_prior
     from rhofollow.planning.reach import unreachable_targets
@@ -346,13 +363,11 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
             eopts.scatter_ref_ppm, eopts.mag_ref = phot.precision_ref_ppm, phot.vmag_ref
     notices = list(ledger_notes)
     try:
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always")
-            occ = predict_occultations(assessments, start_iso, end_iso, eopts)
+        occ, caught = _occultations(assessments, start_iso, end_iso, eopts, opts)
     except EclipseInputError as exc:
         raise PipelineError(str(exc)) from None
     adv(1)
-    notices += occ.get("notices", []) + sorted({str(w.message) for w in caught})
+    notices += occ.get("notices", []) + sorted(set(caught))
     timings["occultations_s"] = time.perf_counter() - t
 
     t = time.perf_counter()

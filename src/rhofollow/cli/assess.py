@@ -150,11 +150,7 @@ def write_samples(assessments, directory) -> int:
         from rhofollow.io.safety import file_stem
 
         safe = file_stem(a.name)
-        tab = a.samples.to_table()
-        import io as _io
-        buf = _io.StringIO()
-        tab.write(buf, format="ascii.ecsv")
-        atomic_write_text(d / f"{safe}.ecsv", buf.getvalue())
+        atomic_write_text(d / f"{safe}.ecsv", a.samples.to_ecsv_text())
         n += 1
     return n
 

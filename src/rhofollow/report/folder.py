@@ -13,7 +13,6 @@ Per-target file names are :func:`rhofollow.io.safety.file_stem` of the name: uni
 """
 from __future__ import annotations
 
-import io
 import os
 import shutil
 import tempfile
@@ -151,9 +150,7 @@ def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict
     ok = [a for a in result.assessments if a.ok and a.samples is not None]
     adv = progress("writing samples", len(ok))
     for a in ok:
-        buf = io.StringIO()
-        a.samples.to_table().write(buf, format="ascii.ecsv")
-        files.append(_text(out / "samples" / f"{slug(a.name)}.ecsv", buf.getvalue()))
+        files.append(_text(out / "samples" / f"{slug(a.name)}.ecsv", a.samples.to_ecsv_text()))
         adv(1)
 
     # figures: run-level first, then per target in rank order
