@@ -15,7 +15,7 @@ import time
 import numpy as np
 
 from rhofollow.core.types import Measurement as M, Target
-from rhofollow.core.executor import assess_parallel
+from rhofollow.stages.assess_many import assess_parallel
 from rhofollow.physics.priors import parse_prior
 from rhofollow.physics.transit import ars_from_rho, eccentric_durations
 

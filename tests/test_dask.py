@@ -9,7 +9,8 @@ import pytest
 distributed = pytest.importorskip("distributed")
 
 from rhofollow.io.catalogue import read_catalogue  # noqa: E402
-from rhofollow.core.executor import assess_parallel, dispatch  # noqa: E402
+from rhofollow.core.executor import dispatch  # noqa: E402
+from rhofollow.stages.assess_many import assess_parallel  # noqa: E402
 from rhofollow.pipeline import PipelineOptions, run_stages  # noqa: E402
 from rhofollow.planning.site import load_site  # noqa: E402
 

@@ -329,7 +329,7 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
     progress : optional stage-progress callback (:data:`StageProgress`)
     """
     from rhofollow.stages.occultations import EclipseInputError, EclipseOptions
-    from rhofollow.core.executor import assess_parallel
+    from rhofollow.stages.assess_many import assess_parallel
     from rhofollow.physics.priors import DEFAULT_PRIOR, parse_prior
     from rhofollow.planning.reach import unreachable_targets
     from rhofollow.planning.tasks import ValueModel

@@ -157,7 +157,7 @@ def write_samples(assessments, directory) -> int:
 
 def _stream(targets, args):
     """Assess in chunks, writing samples as they come and keeping only the records (bounded memory)."""
-    from rhofollow.core.executor import assess_stream
+    from rhofollow.stages.assess_many import assess_stream
     from rhofollow.cli.common import checked_prior, count_progress
 
     prior = checked_prior(args)

@@ -148,7 +148,7 @@ def count_progress(total: int, label: str = "assessing"):
 
 def run_assessment(targets, args, label: str = "assessing"):
     """Run the assessment with a progress bar on stderr; returns the list of Assessments."""
-    from rhofollow.core.executor import assess_parallel
+    from rhofollow.stages.assess_many import assess_parallel
 
     prior = checked_prior(args)
     with count_progress(len(targets), label) as prog:

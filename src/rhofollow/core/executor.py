@@ -21,9 +21,7 @@ import threading
 from collections import deque
 from concurrent.futures import ProcessPoolExecutor
 
-from rhofollow.stages.assess import assess_catalogue
-
-__all__ = ["assess_parallel", "assess_stream", "chunked", "dispatch", "chunk_size", "single_blas_thread"]
+__all__ = ["chunked", "dispatch", "chunk_size", "single_blas_thread"]
 
 # (set, get) thread-count functions of the OpenBLAS builds numpy and scipy ship, by symbol name
 _BLAS_SYMBOLS = (("scipy_openblas_set_num_threads64_", "scipy_openblas_get_num_threads64_"),
@@ -190,39 +188,3 @@ def dispatch(fn, items, *, workers: int = 1, dask_address: str | None = None, ch
         yield from _windowed(lambda job: pool.submit(_run_part, fn, *job), jobs, window or 2 * workers)
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
-
-
-def _assess_chunk(targets, kw):
-    return assess_catalogue(targets, **kw)
-
-
-def assess_parallel(targets, *, n_samples, prior, seed, transit_prob=True, workers=1, chunk=None,
-                    progress=None, dask_address=None):
-    """Assess ``targets`` with ``workers`` processes (1 = in this process) or on a dask cluster.
-
-    Results come back in input order. ``progress(k)`` is called with the number of targets finished.
-    """
-    out = []
-    for part in assess_stream(targets, n_samples=n_samples, prior=prior, seed=seed,
-                              transit_prob=transit_prob, workers=workers, chunk=chunk,
-                              dask_address=dask_address):
-        out.extend(part)
-        if progress:
-            progress(len(part))
-    return out
-
-
-def assess_stream(targets, *, n_samples, prior, seed, transit_prob=True, workers=1, chunk=None,
-                  dask_address=None):
-    """Yield lists of Assessments chunk by chunk, in input order, for catalogues too large to hold.
-
-    The caller reduces each chunk (records, written samples) and lets its samples go, so memory
-    stays bounded by the chunk size times the window (:func:`dispatch`) whatever the catalogue size.
-    """
-    if isinstance(prior, str):
-        from rhofollow.physics.priors import parse_prior
-
-        prior = parse_prior(prior)  # once, not once per part
-    kw = dict(n_samples=n_samples, prior=prior, seed=seed, transit_prob=transit_prob)
-    yield from dispatch(_assess_chunk, targets, workers=workers, dask_address=dask_address, chunk=chunk,
-                        make_job=lambda part: (part, kw))
