@@ -23,63 +23,21 @@ from concurrent.futures import ProcessPoolExecutor
 
 __all__ = ["chunked", "dispatch", "chunk_size", "single_blas_thread"]
 
-# (set, get) thread-count functions of the OpenBLAS builds numpy and scipy ship, by symbol name
-_BLAS_SYMBOLS = (("scipy_openblas_set_num_threads64_", "scipy_openblas_get_num_threads64_"),
-                 ("scipy_openblas_set_num_threads", "scipy_openblas_get_num_threads"),
-                 ("openblas_set_num_threads64_", "openblas_get_num_threads64_"),
-                 ("openblas_set_num_threads", "openblas_get_num_threads"))
 _BLAS_LOCK = threading.RLock()
-_blas_cache: list | None = None
-
-
-def _blas_controls() -> list:
-    """(set, get) pairs of every OpenBLAS loaded in this process (Linux: from /proc/self/maps;
-    elsewhere none are found and :func:`single_blas_thread` changes nothing)."""
-    global _blas_cache
-    if _blas_cache is not None:
-        return _blas_cache
-    import numpy  # noqa: F401  (loads numpy's BLAS)
-    import scipy.linalg  # noqa: F401  (and scipy's)
-
-    paths = []
-    try:
-        with open("/proc/self/maps", encoding="utf-8", errors="replace") as fh:
-            for line in fh:
-                path = line.split()[-1] if line.strip() else ""
-                if "openblas" in path.lower() and path not in paths:
-                    paths.append(path)
-    except OSError:
-        pass
-    found = []
-    for path in paths:
-        try:
-            lib = ctypes.CDLL(path)
-        except OSError:
-            continue
-        for set_name, get_name in _BLAS_SYMBOLS:
-            if hasattr(lib, set_name) and hasattr(lib, get_name):
-                setter, getter = getattr(lib, set_name), getattr(lib, get_name)
-                setter.argtypes, setter.restype, getter.restype = [ctypes.c_int], None, ctypes.c_int
-                found.append((setter, getter))
-                break
-    _blas_cache = found
-    return found
-
-
-_blas_state = {"depth": 0, "before": []}
+_blas_state = {"depth": 0, "limiter": None}
 
 
 @contextlib.contextmanager
 def single_blas_thread():
-    """Run the block with one OpenBLAS thread, so that matrix products add in the same order
-    whatever the machine's or the worker's thread settings. Blocks may nest and overlap across
-    threads; the count before the first one is restored when the last one ends."""
+    """Run the block with one BLAS thread, so that matrix products add in the same order
+    whatever the machine's or the worker's thread settings (threadpoolctl finds every BLAS that
+    numpy and scipy loaded, on any platform). Blocks may nest and overlap across threads; the
+    counts before the first one are restored when the last one ends."""
+    from threadpoolctl import threadpool_limits
+
     with _BLAS_LOCK:
-        controls = _blas_controls()
         if _blas_state["depth"] == 0:
-            _blas_state["before"] = [get() for _, get in controls]
-            for setter, _ in controls:
-                setter(1)
+            _blas_state["limiter"] = threadpool_limits(limits=1, user_api="blas")
         _blas_state["depth"] += 1
     try:
         yield
@@ -87,8 +45,8 @@ def single_blas_thread():
         with _BLAS_LOCK:
             _blas_state["depth"] -= 1
             if _blas_state["depth"] == 0:
-                for (setter, _), n in zip(controls, _blas_state["before"]):
-                    setter(max(1, n))
+                _blas_state["limiter"].restore_original_limits()
+                _blas_state["limiter"] = None
 
 
 _MALLOC = {"tuned": False}
