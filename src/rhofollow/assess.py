@@ -12,11 +12,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .io.catalogue import PHYSICAL_RANGES
 from .io.table_types import Measurement, Target
 from .physics import stars as st
 from .physics.eccentricity import (HYPOTHESES, MEASURED_STAR_HYPOTHESES, best_possible_loglike, HypothesisSetup, Obs,
                                    StarPool, TransitObservables, run_hypothesis)
-from .physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior
+from .physics.priors import DEFAULT_PRIOR, MEASURED_ECC_DEFAULT_ERR, EccPrior, measured_prior, parse_prior
 from .physics.transit import g_factor
 from .physics.sampling import draw_split_normal
 from .physics.transit import ars_from_t14_b, ecc_min_from_ratio, rho_from_ars, smo_invert
@@ -192,7 +193,9 @@ def _circular_density_routes(t: Target, period: Obs, k: Obs, rng, n, warnings) -
 
 def _star_pool(t: Target, rng, n, warnings) -> tuple[StarPool, str, dict]:
     """Draws of the host star from the first independent route in order of directness."""
-    teff = _draw(rng, n, _obs(t, "teff_k", [], required=False), lower=1000) if t.has("teff_k") else np.full(n, np.nan)
+    # truncated at the catalogue's accepted lower limit (not higher: a valid row must not fail here)
+    teff = (_draw(rng, n, _obs(t, "teff_k", [], required=False), lower=PHYSICAL_RANGES["teff_k"][0])
+            if t.has("teff_k") else np.full(n, np.nan))
     candidates = {}
     if t.has("rho_star_cgs"):
         candidates["rho_star"] = _draw(rng, n, _obs(t, "rho_star_cgs", warnings), lower=0)
@@ -337,7 +340,8 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     if measured:
         em = t.get("ecc")
         try:
-            setup.prior = measured_prior(em.value, em.err_lo or 0.01, em.err_hi or 0.01)
+            setup.prior = measured_prior(em.value, em.err_lo or MEASURED_ECC_DEFAULT_ERR,
+                                         em.err_hi or MEASURED_ECC_DEFAULT_ERR)
         except ValueError as exc:
             raise _RowProblem(str(exc)) from None
         setup.transit_prob = False
