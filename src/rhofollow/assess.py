@@ -455,7 +455,7 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     if finding != "fits":
         warnings.append(consistency["check"])
 
-    p_gt = float(np.sum(w[samples.e > 0.1]))
+    p_gt = min(1.0, float(np.sum(w[samples.e > 0.1])))   # a probability: no rounding above 1
     p_gt_prior = float(prior.prob_above(0.1, transit_prob=transit_prob))
     data_odds = _odds_ratio(p_gt, p_gt_prior, ess)
     ecc_q = samples.quantiles("e")
