@@ -78,12 +78,13 @@ COLUMNS = ["name", "ra_deg", "dec_deg", "vmag", "period_d", "period_d_err", "t0_
 
 
 def _a_rs(rho_cgs: float, period_d: float) -> float:
-    """a/R* from Kepler's third law, rho = 3 pi (a/R*)^3 / (G P^2) (Seager & Mallen-Ornelas 2003 eq. 9)."""
+    """a/R* from Kepler's third law, rho = 3 pi (a/R*)^3 / (G P^2) (Seager & Mallen-Ornelas 2003; eq. 9, number
+    value from memory)."""
     return (G_SI * rho_cgs * 1e3 * (period_d * DAY_S) ** 2 / (3 * math.pi)) ** (1 / 3)
 
 
 def _durations_h(a_rs: float, b: float, k: float, period_d: float) -> tuple[float, float]:
-    """Circular-orbit T14 and T23 in hours (Seager & Mallen-Ornelas 2003 eqs. 1-3)."""
+    """Circular-orbit T14 and T23 in hours (Seager & Mallen-Ornelas 2003; eqs. 1-3, numbers value from memory)."""
     sin_i = math.sqrt(1 - (b / a_rs) ** 2)
     t14 = period_d / math.pi * math.asin(math.sqrt((1 + k) ** 2 - b * b) / (a_rs * sin_i))
     t23 = period_d / math.pi * math.asin(math.sqrt((1 - k) ** 2 - b * b) / (a_rs * sin_i))
@@ -298,7 +299,8 @@ def test_eclipses(outputs, name, tr, sr, q):
     assert _quantiles_ok(r["occ_phase"], 0.0, 1.0)
     assert _quantiles_ok(r["occ_duration_h"], lo=0.0)
     if q == 1.0:
-        # a circular orbit puts the occultation half a period after the transit (Winn 2010 eq. 33, e = 0)
+        # a circular orbit puts the occultation half a period after the transit (Winn 2010, the transit-
+        # occultation delay at e = 0; eq. 33, number value from memory)
         assert r["occ_phase"]["q50"] == pytest.approx(0.5, abs=0.05)
     # the thermal depth needs the star's Teff; without it the depth is null and the record says why
     if "teff_k" in STAR_ROUTES[sr]:
