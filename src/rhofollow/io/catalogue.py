@@ -556,10 +556,49 @@ _POSITIVE = {
 }
 _UNIT_INTERVAL_HALF_OPEN = {"ecc": "the eccentricity", "contam_frac": "a light fraction",
                             "companion_flux_frac": "a light fraction"}
+_INF = math.inf
+
+#: The definition checks, in the order they are reported: (column, low, high, low inclusive,
+#: high inclusive, reason template with {x} the value). They run before :data:`PHYSICAL_RANGES`.
+_DEFINITION_RANGES: list[tuple[str, float, float, bool, bool, str]] = (
+    [(c, 0.0, _INF, False, True, f"must be positive ({what}), got {{x:g}}") for c, what in _POSITIVE.items()]
+    + [(c, 0.0, 1.0, True, False, f"must be in [0, 1) ({what}), got {{x:g}}")
+       for c, what in _UNIT_INTERVAL_HALF_OPEN.items()]
+    + [("rp_rs", 0.0, 1.0, False, False, "must be in (0, 1), got {x:g}"),
+       ("depth_ppm", 0.0, 1e6, False, False, "must be in (0, 1e6) ppm, got {x:g}"),
+       ("b", 0.0, _INF, True, True, "must not be negative, got {x:g}"),
+       ("ra_deg", 0.0, 360.0, True, False, "must be in [0, 360) degrees, got {x:g}"),
+       ("dec_deg", -90.0, 90.0, True, True, "must be in [-90, 90] degrees, got {x:g}"),
+       ("jitter_ms", 0.0, _INF, True, True, "must not be negative, got {x:g}"),
+       ("t0_bjd", _T0_RANGE[0], _T0_RANGE[1], True, True,
+        "{x:.12g} is not a full BJD_TDB (expected about 2.4e6 to 2.5e6); add back any offset such as "
+        "2450000 or 2457000")])
 
 
-def _check_row(v: dict[str, float], given: set[str], label, require_coords: bool):
-    """Return (errors, warnings) as lists of (column label, reason). ``v`` holds parsed values."""
+def _physical_reason(canon: str, lo: float, hi: float, lo_in: bool, hi_in: bool) -> str:
+    """Reason template ({x} the value) for a value outside ``PHYSICAL_RANGES[canon]``."""
+    unit = COLUMNS[canon].unit
+    shown = "" if unit is None or unit is _LOGG_UNIT else f" {unit}"
+    return (f"{{x:g}} is outside the physical range {'[' if lo_in else '('}{lo:g}, "
+            f"{hi:g}{']' if hi_in else ')'}{shown}")
+
+
+def _drop_outside(v: dict[str, float], bad, canon: str, lo: float, hi: float, lo_in: bool, hi_in: bool,
+                  reason: str) -> None:
+    """Report ``reason`` (formatted with x = the value) on ``canon`` and drop its value when it lies
+    outside the interval, so no later cross-check uses it. Nothing happens when the value is absent."""
+    if canon not in v:
+        return
+    x = v[canon]
+    if not ((x >= lo if lo_in else x > lo) and (x <= hi if hi_in else x < hi)):
+        bad(canon, reason.format(x=x))
+        del v[canon]
+
+
+def _check_row(v: dict[str, float], given: set[str], label, require_coords: bool,
+               uncertainties: dict[str, tuple[float, float]] | None = None):
+    """Return (errors, warnings) as lists of (column label, reason). ``v`` holds parsed values,
+    ``uncertainties`` their (lower, upper) 1-sigma errors where given."""
     errs: list[tuple[str, str]] = []
     warns: list[tuple[str, str]] = []
 
@@ -570,41 +609,11 @@ def _check_row(v: dict[str, float], given: set[str], label, require_coords: bool
         if canon not in given:
             bad(canon, "is required but missing")
 
-    for canon, what in _POSITIVE.items():
-        if canon in v and v[canon] <= 0:
-            bad(canon, f"must be positive ({what}), got {v[canon]:g}")
-            del v[canon]
-    for canon, what in _UNIT_INTERVAL_HALF_OPEN.items():
-        if canon in v and not (0.0 <= v[canon] < 1.0):
-            bad(canon, f"must be in [0, 1) ({what}), got {v[canon]:g}")
-            del v[canon]
-    if "rp_rs" in v and not (0.0 < v["rp_rs"] < 1.0):
-        bad("rp_rs", f"must be in (0, 1), got {v.pop('rp_rs'):g}")
-    if "depth_ppm" in v and not (0.0 < v["depth_ppm"] < 1e6):
-        bad("depth_ppm", f"must be in (0, 1e6) ppm, got {v.pop('depth_ppm'):g}")
-    if "b" in v and v["b"] < 0:
-        bad("b", f"must not be negative, got {v.pop('b'):g}")
-    if "ra_deg" in v and not (0.0 <= v["ra_deg"] < 360.0):
-        bad("ra_deg", f"must be in [0, 360) degrees, got {v.pop('ra_deg'):g}")
-    if "dec_deg" in v and not (-90.0 <= v["dec_deg"] <= 90.0):
-        bad("dec_deg", f"must be in [-90, 90] degrees, got {v.pop('dec_deg'):g}")
-    if "jitter_ms" in v and v["jitter_ms"] < 0:
-        bad("jitter_ms", f"must not be negative, got {v.pop('jitter_ms'):g}")
-    if "t0_bjd" in v and not (_T0_RANGE[0] <= v["t0_bjd"] <= _T0_RANGE[1]):
-        bad("t0_bjd", f"{v.pop('t0_bjd'):.12g} is not a full BJD_TDB (expected about 2.4e6 to "
-                      "2.5e6); add back any offset such as 2450000 or 2457000")
-
+    # definitions first, then the physical ranges; a value that fails is dropped from every later check
+    for canon, lo, hi, lo_in, hi_in, reason in _DEFINITION_RANGES:
+        _drop_outside(v, bad, canon, lo, hi, lo_in, hi_in, reason)
     for canon, (lo, hi, lo_in, hi_in, _why) in PHYSICAL_RANGES.items():
-        if canon not in v:
-            continue
-        x = v[canon]
-        inside = (x >= lo if lo_in else x > lo) and (x <= hi if hi_in else x < hi)
-        if not inside:
-            unit = COLUMNS[canon].unit
-            shown = "" if unit is None or unit is _LOGG_UNIT else f" {unit}"
-            bad(canon, f"{x:g} is outside the physical range {'[' if lo_in else '('}{lo:g}, "
-                       f"{hi:g}{']' if hi_in else ')'}{shown}")
-            del v[canon]
+        _drop_outside(v, bad, canon, lo, hi, lo_in, hi_in, _physical_reason(canon, lo, hi, lo_in, hi_in))
 
     # Geometry cross-checks, only between values that passed their own checks.
     k = v.get("rp_rs")
@@ -659,6 +668,14 @@ def _check_row(v: dict[str, float], given: set[str], label, require_coords: bool
     elif "ecc" in v and "omega_deg" not in given and v["ecc"] > 0:
         warns.append((label("ecc"), "ecc is given without omega_deg; omega is treated as "
                                     "unknown"))
+    if "ecc" in v:
+        # the same test (and default error) the assessment applies to a measured orbit
+        from rhofollow.physics.priors import MEASURED_ECC_DEFAULT_ERR, measured_ecc_problem
+
+        lo, hi = (uncertainties or {}).get("ecc", (0.0, 0.0))
+        why = measured_ecc_problem(v["ecc"], lo or MEASURED_ECC_DEFAULT_ERR, hi or MEASURED_ECC_DEFAULT_ERR)
+        if why:
+            bad("ecc", why)
 
     geo = ("a_rs" in given or "rho_circ_cgs" in given or
            ("t14_h" in given and ("t23_h" in given or "b" in given)
@@ -839,7 +856,7 @@ def read_catalogue(path: str | os.PathLike, *, require_coords: bool = False) -> 
                 err_pairs[canon] = (got["errlo"], got["errhi"])
 
         checked = dict(values)
-        e2, w2 = _check_row(checked, given, label, require_coords)
+        e2, w2 = _check_row(checked, given, label, require_coords, err_pairs)
         errs += e2
         warns += w2
         for col, reason in errs:

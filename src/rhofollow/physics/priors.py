@@ -24,7 +24,7 @@ import numpy as np
 from scipy import stats
 
 __all__ = ["EccPrior", "MeasuredEcc", "parse_prior", "PRIOR_NAMES", "DEFAULT_PRIOR", "measured_prior",
-           "reweight_to_prior"]
+           "reweight_to_prior", "measured_ecc_problem", "MEASURED_ECC_DEFAULT_ERR"]
 
 DEFAULT_PRIOR = "kipping13"
 E_MAX = 0.99
@@ -191,6 +191,28 @@ class MeasuredEcc(EccPrior):
         return np.where((e >= 0) & (e < self.e_grid[-1]), dens, 0.0)
 
 
+#: 1-sigma error of a measured eccentricity given without one (common practice, no source).
+MEASURED_ECC_DEFAULT_ERR = 0.01
+
+
+def measured_ecc_problem(value: float, err_lo: float, err_hi: float) -> str:
+    """Why a measured eccentricity (value and its 1-sigma errors) cannot be used, or "".
+
+    The measurement is unusable when its split normal puts (almost) no probability in [0, E_MAX), the
+    range every sampler covers. The catalogue reader and :func:`measured_prior` share this test, so a
+    row that ``check`` accepts is one ``assess`` can use (both give an error left out
+    :data:`MEASURED_ECC_DEFAULT_ERR`).
+    """
+    from rhofollow.physics.sampling import split_normal_cdf
+    slo = max(err_lo, 1e-4)
+    shi = max(err_hi, 1e-4)
+    if split_normal_cdf(E_MAX, value, slo, shi) - split_normal_cdf(0.0, value, slo, shi) < 1e-12:
+        err = f"{slo:g}" if slo == shi else f"-{slo:g}/+{shi:g}"
+        return (f"measured eccentricity {value:g} +- {err} lies entirely outside [0, {E_MAX:g}), the range "
+                "the eccentricity samplers cover")
+    return ""
+
+
 def measured_prior(value: float, err_lo: float, err_hi: float) -> EccPrior:
     """The distribution of e from a published measurement (``ecc`` with its errors): split normal
     truncated to [0, 0.99), with an exact inverse CDF (:class:`MeasuredEcc`).
@@ -198,6 +220,9 @@ def measured_prior(value: float, err_lo: float, err_hi: float) -> EccPrior:
     Used when the catalogue gives ``ecc`` (a known orbit): the measurement replaces the population prior.
     The table (``e_grid``, ``cdf``) is kept for the moments; draws use the closed form.
     """
+    problem = measured_ecc_problem(value, err_lo, err_hi)
+    if problem:
+        raise ValueError(problem)
     slo = max(err_lo, 1e-4)
     shi = max(err_hi, 1e-4)
     from rhofollow.physics.sampling import split_normal_cdf

@@ -12,14 +12,16 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from rhofollow.core.types import Measurement, Target
+from rhofollow.io.catalogue import PHYSICAL_RANGES
 from rhofollow.physics import stars as st
 from rhofollow.physics.eccentricity import (HYPOTHESES, MEASURED_STAR_HYPOTHESES, best_possible_loglike, HypothesisSetup, Obs,
                                    StarPool, TransitObservables, run_hypothesis)
-from rhofollow.physics.priors import DEFAULT_PRIOR, EccPrior, measured_prior, parse_prior, reweight_to_prior
+from rhofollow.physics.priors import (DEFAULT_PRIOR, MEASURED_ECC_DEFAULT_ERR, EccPrior, measured_prior, parse_prior,
+                                      reweight_to_prior)
 from rhofollow.physics.transit import g_factor
 from rhofollow.physics.sampling import draw_split_normal
 from rhofollow.physics.transit import ars_from_t14_b, ecc_min_from_ratio, rho_from_ars, smo_invert
-from rhofollow.core.samples import SampleSet, quantile_dict, reliability, weighted_quantiles
+from rhofollow.core.samples import SampleSet, quantile_dict, reliability
 from rhofollow.core.defaults import DEFAULT_SAMPLES, DEFAULT_SEED
 from rhofollow.core.seeds import target_seed  # the per-target generator (re-exported here)
 
@@ -188,7 +190,9 @@ def _circular_density_routes(t: Target, period: Obs, k: Obs, rng, n, warnings) -
 
 def _star_pool(t: Target, rng, n, warnings) -> tuple[StarPool, str, dict]:
     """Draws of the host star from the first independent route in order of directness."""
-    teff = _draw(rng, n, _obs(t, "teff_k", [], required=False), lower=1000) if t.has("teff_k") else np.full(n, np.nan)
+    # truncated at the catalogue's accepted lower limit (not higher: a valid row must not fail here)
+    teff = (_draw(rng, n, _obs(t, "teff_k", [], required=False), lower=PHYSICAL_RANGES["teff_k"][0])
+            if t.has("teff_k") else np.full(n, np.nan))
     candidates = {}
     if t.has("rho_star_cgs"):
         candidates["rho_star"] = _draw(rng, n, _obs(t, "rho_star_cgs", warnings), lower=0)
@@ -333,7 +337,8 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     if measured:
         em = t.get("ecc")
         try:
-            setup.prior = measured_prior(em.value, em.err_lo or 0.01, em.err_hi or 0.01)
+            setup.prior = measured_prior(em.value, em.err_lo or MEASURED_ECC_DEFAULT_ERR,
+                                         em.err_hi or MEASURED_ECC_DEFAULT_ERR)
         except ValueError as exc:
             raise _RowProblem(str(exc)) from None
         setup.transit_prob = False
@@ -448,7 +453,7 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     if finding != "fits":
         warnings.append(consistency["check"])
 
-    p_gt = float(np.sum(w[samples.e > 0.1]))
+    p_gt = min(1.0, float(np.sum(w[samples.e > 0.1])))   # a probability: no rounding above 1
     p_gt_prior = float(prior.prob_above(0.1, transit_prob=transit_prob))
     data_odds = _odds_ratio(p_gt, p_gt_prior, ess)
     ecc_q = samples.quantiles("e")

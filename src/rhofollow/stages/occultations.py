@@ -239,7 +239,7 @@ def _target_record(s: SampleSet, target, opts, start_bjd, end_bjd, lam, resp):
     warn = _epoch_error_warnings(s, target)
     w = s.weights
     occ = occultation_occurs(s.a_rs, s.inc, s.e, s.omega, s.k)
-    p_occ = float(np.sum(w * occ))
+    p_occ = min(1.0, float(np.sum(w * occ)))   # a probability: no rounding above 1
     rec = {"p_occultation": p_occ, "n_samples": s.n, "ess": s.ess}
     rec["reliable"], why = reliability(s.ess)
     if not rec["reliable"]:
