@@ -24,9 +24,68 @@ def register(subparsers):
     p.add_argument("--ics", metavar="PATH", help="write the windows and visits as an iCalendar file")
     p.add_argument("--table", choices=["md", "latex", "csv"],
                    help="print the hours table in this format instead of the terminal table")
+    add_hours_option(p)
     add_json_option(p)
     add_plan_options(p)
     p.set_defaults(func=run)
+
+
+def add_hours_option(p) -> None:
+    """``--hours INSTRUMENT=H`` (repeatable): RV budgets per spectrograph."""
+    from ..planning.budget import MIN_GAIN_PER_HOUR
+
+    p.add_argument("--hours", metavar="INSTRUMENT=H", action="append",
+                   help="RV hours available on a spectrograph of the site (repeat for several): the visits "
+                   "are shared out to maximise the expected number of confirmed eccentric orbits. Without "
+                   f"it, targets are requested when they give at least {MIN_GAIN_PER_HOUR:g} expected "
+                   "confirmations per hour")
+
+
+def parse_hours(values, spectrographs) -> dict | None:
+    """``["AQ-VEL=40", ...]`` -> ``{"AQ-VEL": 40.0}``; a :class:`UserError` naming the bad value."""
+    import math
+
+    if not values:
+        return None
+    names = list(spectrographs)
+    out: dict[str, float] = {}
+    for v in values:
+        name, sep, h = str(v).partition("=")
+        name = name.strip()
+        if not sep or not name:
+            raise UserError(f"--hours {v!r}: write INSTRUMENT=HOURS, e.g. --hours {names[0] if names else 'RV'}=40")
+        try:
+            hours = float(h)
+        except ValueError:
+            raise UserError(f"--hours {v!r}: {h!r} is not a number of hours") from None
+        if not math.isfinite(hours) or hours <= 0:
+            raise UserError(f"--hours {v!r}: the hours must be a positive number")
+        if name not in names:
+            known = ", ".join(names) if names else "none"
+            raise UserError(f"--hours {v!r}: {name!r} is not a spectrograph of the site (spectrographs: {known})")
+        if name in out:
+            raise UserError(f"--hours {v!r}: {name} given twice")
+        out[name] = hours
+    return out
+
+
+def rv_request_lines(req: dict | None) -> list[str]:
+    """Plain sentences on the RV request (budget or threshold) for the terminal."""
+    if not req:
+        return []
+    hrs = ", ".join(f"{k} {v:.1f} h" for k, v in req["hours_requested"].items()) or "none"
+    if req["basis"] == "budget":
+        bud = ", ".join(f"{k} {v:g} h" for k, v in req["budgets_h"].items())
+        head = (f"RV budget {bud}: {len(req['requested'])} target(s) funded, {hrs}, "
+                f"{req['expected_confirmations']:.2f} expected confirmed eccentric orbits")
+    else:
+        head = (f"RV request (targets giving >= {req['min_gain_per_hour']:g} expected confirmations per hour): "
+                f"{len(req['requested'])} target(s), {hrs}, {req['expected_confirmations']:.2f} expected "
+                "confirmed eccentric orbits")
+    lines = [head + f"; {100 * req['loss_fraction']:.0f} % of visits assumed lost to weather and technical time."]
+    for t in req["not_requested"]:
+        lines.append(f"{t['name']}: not requested ({t['reason']})")
+    return lines
 
 
 def _date(s: str, opt: str):
@@ -42,17 +101,24 @@ def campaign_table(doc: dict, plan, site_name: str, start, end, n_nights: int, w
     """Per target: windows, RV visits and hours per instrument, with the columns that fit ``width``."""
     insts = list(dict.fromkeys(plan.instruments.values()))
     cols = ([Col("target", justify="left"), Col("occ.\nwindows"), Col("RV visits\nplaced"),
-             Col("RV visits\nneeded")] + [Col(f"{i}\nhours") for i in insts] + [Col("clashes", drop=1)])
+             Col("RV visits\nneeded"), Col("RV exp.\ns", drop=2, what="RV exposure")]
+            + [Col(f"{i}\nhours") for i in insts] + [Col("clashes", drop=1)])
     rows, styles = [], []
     for t in doc["targets"]:
         clash = sum(x["clash"] for x in t["occultation_windows"] + t["rv_visits"])
         need = t.get("rv_visits_needed")
-        rows.append([t["name"], str(len(t["occultation_windows"])), str(len(t["rv_visits"])),
-                     str(need) if need is not None else "no RV route",
+        req = t.get("rv_request")
+        if req is not None and not req.get("requested"):
+            need_s = "not requested"
+        else:
+            need_s = str(need) if need is not None else "no RV route"
+        ex = next((v.get("exposure_s") for v in t["rv_visits"] if v.get("exposure_s")), None)
+        rows.append([t["name"], str(len(t["occultation_windows"])), str(len(t["rv_visits"])), need_s,
+                     f"{ex:.0f}" if ex else "",
                      *[f"{t['hours'].get(i, 0.0):.2f}" for i in insts], str(clash) if clash else ""])
         styles.append(None)
     rows.append(["total", str(sum(len(t["occultation_windows"]) for t in doc["targets"])),
-                 str(sum(len(t["rv_visits"]) for t in doc["targets"])), "",
+                 str(sum(len(t["rv_visits"]) for t in doc["targets"])), "", "",
                  *[f"{doc['hours_total'].get(i, 0.0):.2f}" for i in insts], ""])
     styles.append("bold")
     return fit_table(f"{site_name}: campaign {start} to {end} ({n_nights} nights with dark time)", cols, rows,
@@ -93,8 +159,21 @@ def run(args) -> int:
         for g in grids:
             nights.append(NightVis(str(g.date), night_visibility(eng, g, prep.science), g.start_jd, g.end_jd))
             prog.advance(task)
+    from ..pipeline import PipelineOptions, _instruments
+    from ..planning.rvrequest import plan_rv_requests
+
+    spec, _phot = _instruments(site)
+    hours = parse_hours(args.hours, [spec.name] if spec is not None else [])
+    req = None
+    if spec is not None and any(e.get("rv") for e in prep.science):
+        sims = PipelineOptions().sims
+        with count_progress(len(prep.science), "RV at reachable epochs") as prog:
+            task = prog.add_task("RV reachable", total=len(prep.science))
+            req = plan_rv_requests(prep.stages.assessments, prep.science, nights, spec,
+                                   loss_fraction=site.loss_fraction, seed=args.seed, n_null=sims,
+                                   n_alt=min(400, sims), hours=hours, progress=lambda: prog.advance(task))
     plan = plan_campaign(prep.science, nights, site=site.name, overhead_h=prep.overhead_h,
-                         instruments=prep.instruments, model=prep.model)
+                         instruments=prep.instruments, model=prep.model, rv_request=req)
     from ..pipeline import campaign_document
 
     full = campaign_document(plan, prep.stages, site, start, end, args.seed, args.samples, prep.catalogue)
@@ -108,9 +187,12 @@ def run(args) -> int:
         fitted = campaign_table(doc, plan, site.name, start, end, len(nights), con.width)
         con.print(fitted.table)
         table_note(fitted)
-        say(f"Hours include {prep.overhead_h * 60:.0f} min slew + setup per block and the instrument "
-            "overheads; 'no RV route': RVs from this instrument cannot confirm the eccentricity; clashes: "
+        say(f"Hours: an RV visit is its exposure plus the spectrograph's overhead (pointing, acquisition, "
+            f"read-out), counted once; an occultation block adds {prep.overhead_h * 60:.0f} min slew + setup. "
+            "'no RV route': RVs cannot confirm the eccentricity in this range; clashes: "
             "items that cannot share their night with more valuable ones (details in --json).")
+        for line in rv_request_lines(req):
+            say(line)
         message(CAUTION, "caution", to_stdout=True)
     for n in prep.notices:
         message(n, "notice")

@@ -56,6 +56,9 @@ def add_plan_options(p, demo: bool = False) -> None:
                    help="measured RVs: a folder of <target>.csv / .ecsv files, or one file with a 'target' column")
     p.add_argument("--sims", type=int, default=500 if demo else 2000, metavar="N",
                    help=f"simulated null data sets per RV test (default {500 if demo else 2000})")
+    from .campaign import add_hours_option
+
+    add_hours_option(p)
     p.add_argument("--plot-targets", type=int, default=10, metavar="N",
                    help="per-target figures for the N highest-ranked targets (0: all; default 10)")
     add_seed_option(p)
@@ -112,6 +115,16 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
             rv_data = read_rv_data(args.rv_data)
         except RVDataError as exc:
             raise UserError(str(exc)) from None
+    hours = None
+    if getattr(args, "hours", None):
+        from ..pipeline import _instruments
+        from .campaign import parse_hours
+
+        try:
+            spec, _phot = _instruments(site)
+        except PipelineError as exc:
+            raise UserError(str(exc)) from None
+        hours = parse_hours(args.hours, [spec.name] if spec is not None else [])
     cat = load_catalogue(catalog, require_coords=True)
     report_row_issues(cat)
     if not cat.targets:
@@ -121,7 +134,7 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
         return {"doc": envelope(command, catalogue=cat, seed=args.seed), "files": [], "result": None}
     opts = PipelineOptions(samples=args.samples, seed=args.seed, ecc_prior=args.ecc_prior,
                            transit_weight=not args.no_transit_weight, workers=args.workers,
-                           dask_address=args.dask, sims=args.sims, rv_data=rv_data)
+                           dask_address=args.dask, sims=args.sims, rv_data=rv_data, rv_hours=hours)
     with stage_progress(transient=False) as stage:
         try:
             result = run_pipeline(cat.targets, site, start, end, opts, progress=stage, catalogue=cat)
@@ -198,6 +211,10 @@ def _print_summary(written: dict, out: Path, top: int = 8) -> None:
     tot = doc.get("hours_total", {})
     if tot:
         say("Hours to request: " + ", ".join(f"{k} {v:.1f} h" for k, v in tot.items()))
+    from .campaign import rv_request_lines
+
+    for line in rv_request_lines(doc.get("rv_request")):
+        say(line)
     n_bad = sum(1 for t in doc["targets"] if not t.get("ok"))
     if n_bad:
         say(f"{n_bad} target(s) could not be assessed (see summary.md).")

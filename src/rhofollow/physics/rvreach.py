@@ -20,6 +20,8 @@ Pure numpy / scipy: no I/O.
 """
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from scipy import stats
 
@@ -236,6 +238,8 @@ def choose_exposure(lam_unit, weights, vmag, jitter_ms, inst, *, n_cap: int, los
     w = np.ones(lam.size) / lam.size if weights is None else np.asarray(weights, float) / np.sum(weights)
     t = np.geomspace(inst.exposure_min_s, inst.exposure_max_s, n_candidates) \
         if inst.exposure_max_s > inst.exposure_min_s else np.array([inst.exposure_min_s])
+    # whole seconds inside the limits (the budget counts whole seconds)
+    t = np.unique(np.clip(np.round(t), math.ceil(inst.exposure_min_s), math.floor(inst.exposure_max_s)))
     sig = epoch_precision(vmag, t, inst.precision_ref_ms, inst.vmag_ref, inst.exposure_ref_s,
                           inst.floor_ms, jitter_ms)
     thr = stats.chi2.isf(fap, 2)
