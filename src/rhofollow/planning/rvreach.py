@@ -127,8 +127,8 @@ def _one(rec, entry, s, nights, inst, loss, fap, power, seed, n_alt, n_null, rel
     _mp, k, _used = mass_and_k(s, _rng(seed, name, "mass"), relation)
     e, om, kk = _subsample(s, k, seed, name)
     vmag = float(s.meta.get("vmag"))
-    rec["uniform_phase"] = {key: rec.get(key) for key in ("n_epochs_confirm_ecc", "hours_confirm_ecc",
-                                                          "exposure_s", "sigma_rv_ms", "visit_h", "power_at_n")}
+    rec.setdefault("uniform_phase", {key: rec.get(key) for key in ("n_epochs_confirm_ecc", "hours_confirm_ecc",
+                                                          "exposure_s", "sigma_rv_ms", "visit_h", "power_at_n")})
     # exposure: fewest hours on the Fisher estimate at the reachable phases of the shortest visit
     short = visit_overheads(inst.exposure_min_s, inst)["visit_h"]
     pool0 = epoch_pool(nights, entry, short)
@@ -169,7 +169,7 @@ def _one(rec, entry, s, nights, inst, loss, fap, power, seed, n_alt, n_null, rel
         rec["confirm_reachable"]["note"] = (
             f"not confirmable in this range: {m} reachable visits give power {curve['power'][-1]:.2f} "
             f"< {power:.2f}")
-        rec.setdefault("warnings", []).append(rec["confirm_reachable"]["note"])
+        _warn(rec, rec["confirm_reachable"]["note"])
 
 
 def _not_confirmable(rec, m, loss, power, why):
@@ -179,4 +179,10 @@ def _not_confirmable(rec, m, loss, power, why):
     rec["n_epochs_confirm_ecc"] = None
     rec["hours_confirm_ecc"] = None
     rec["power_at_n"] = 0.0
-    rec.setdefault("warnings", []).append(rec["confirm_reachable"]["note"])
+    _warn(rec, rec["confirm_reachable"]["note"])
+
+
+def _warn(rec, text):
+    ws = rec.setdefault("warnings", [])
+    if text not in ws:
+        ws.append(text)
