@@ -30,7 +30,7 @@ from .rvconfirm import EccGrid, ecc_grid
 from .rvnoise import epoch_precision
 
 __all__ = ["EpochPool", "N_MIN", "visit_ladder", "power_curve_at_pool", "visits_for_power",
-           "fisher_noncentrality_at", "choose_exposure", "uniform_pool"]
+           "fisher_noncentrality_at", "choose_exposure", "choose_exposure_uniform", "uniform_pool"]
 
 #: Fewest visits the eccentric model can be tested with (gamma, K, e cos w, e sin w and one more).
 N_MIN = 5
@@ -210,7 +210,7 @@ def fisher_noncentrality_at(e, omega, k, phases, step: float = 1e-4) -> np.ndarr
 
 
 def choose_exposure(lam_unit, weights, vmag, jitter_ms, inst, *, n_cap: int, loss: float = 0.0,
-                    fap: float = 0.01, power: float = 0.8, n_candidates: int = 12):
+                    fap: float = 0.01, power: float = 0.8, n_candidates: int = 12, ns=None):
     """Exposure per visit that minimises the hours to reach ``power``, within the instrument limits.
 
     For candidate exposures spaced geometrically in [exposure_min_s, exposure_max_s], the per-visit
@@ -229,6 +229,7 @@ def choose_exposure(lam_unit, weights, vmag, jitter_ms, inst, *, n_cap: int, los
     inst : spectrograph (attributes precision_ref_ms, vmag_ref, exposure_ref_s, floor_ms,
         exposure_min_s, exposure_max_s, overhead_s)
     n_cap : most visits the date range allows
+    ns : visit counts tried (default every integer from :data:`N_MIN` to ``n_cap``)
 
     Returns
     -------
@@ -244,7 +245,7 @@ def choose_exposure(lam_unit, weights, vmag, jitter_ms, inst, *, n_cap: int, los
                           inst.floor_ms, jitter_ms)
     thr = stats.chi2.isf(fap, 2)
     n_cap = max(int(n_cap), N_MIN)
-    ns = np.arange(N_MIN, n_cap + 1)
+    ns = np.arange(N_MIN, n_cap + 1) if ns is None else np.asarray([n for n in ns if n <= n_cap], int)
     # power (candidates, N) -- posterior mean over samples
     nc = (ns[None, :, None] * (1.0 - loss) * lam[None, None, :]) / (sig[:, None, None] ** 2)
     pw = np.tensordot(stats.ncx2.sf(thr, 2, nc), w, axes=([2], [0]))
@@ -258,3 +259,23 @@ def choose_exposure(lam_unit, weights, vmag, jitter_ms, inst, *, n_cap: int, los
     i = int(np.argmax(pw[:, -1]))
     return {"exposure_s": float(t[i]), "sigma_ms": float(sig[i]), "n_fisher": None,
             "reason": "highest power at the most visits the range allows (Fisher estimate)"}
+
+
+def choose_exposure_uniform(e, omega, k, weights, vmag, jitter_ms, inst, *, fap: float = 0.01,
+                            power: float = 0.8, ladder=None, max_samples: int = 1000, seed=0):
+    """:func:`choose_exposure` for epochs spread uniformly in phase (no site or date range known).
+
+    The posterior is resampled to at most ``max_samples`` draws by weight (seeded); visit counts
+    are tried on ``ladder`` (default :data:`rhofollow.physics.rvconfirm.N_LADDER`).
+    """
+    from .rvconfirm import N_LADDER
+
+    e = np.atleast_1d(np.asarray(e, float))
+    omega, k = np.atleast_1d(np.asarray(omega, float)), np.atleast_1d(np.asarray(k, float))
+    rng = np.random.default_rng(seed)
+    n = min(max_samples, e.size)
+    idx = _draw_indices(weights, n, rng, e.size)
+    ph = (np.arange(256) + 0.5) / 256
+    lam = fisher_noncentrality_at(e[idx], omega[idx], k[idx], ph)
+    lad = list(ladder or N_LADDER)
+    return choose_exposure(lam, None, vmag, jitter_ms, inst, n_cap=lad[-1], fap=fap, power=power, ns=lad)
