@@ -258,24 +258,27 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
 
 
 def hours_table(plan: CampaignPlan, fmt: str = "md") -> str:
-    """The proposal table: per target the windows, visits and hours per instrument, and totals.
+    """The proposal table: per target the windows, visits, hours per instrument and the RV exposure
+    per visit, and totals.
 
     ``fmt`` is "md" (Markdown), "latex" (a tabular environment) or "csv".
     """
     if fmt not in TABLE_FORMATS:
         raise ValueError(f"unknown table format {fmt!r}; choose one of {', '.join(TABLE_FORMATS)}")
     insts = list(dict.fromkeys(plan.instruments.values()))
-    head = ["Target", "Occultation windows", "RV visits"] + [f"{i} (h)" for i in insts] + ["Total (h)"]
+    head = (["Target", "Occultation windows", "RV visits"] + [f"{i} (h)" for i in insts]
+            + ["RV exposure (s)", "Total (h)"])
     rows = []
     for t in plan.targets:
         hs = [t["hours"].get(i, 0.0) for i in insts]
+        ex = next((v.get("exposure_s") for v in t["rv_visits"] if v.get("exposure_s")), None)
         rows.append([t["name"], str(len(t["occultation_windows"])), str(len(t["rv_visits"]))]
-                    + [f"{h:.2f}" for h in hs] + [f"{sum(hs):.2f}"])
+                    + [f"{h:.2f}" for h in hs] + [f"{ex:.0f}" if ex else "", f"{sum(hs):.2f}"])
     tot = plan.hours_total
     hs = [tot.get(i, 0.0) for i in insts]
     rows.append(["Total", str(sum(len(t["occultation_windows"]) for t in plan.targets)),
                  str(sum(len(t["rv_visits"]) for t in plan.targets))]
-                + [f"{h:.2f}" for h in hs] + [f"{sum(hs):.2f}"])
+                + [f"{h:.2f}" for h in hs] + ["", f"{sum(hs):.2f}"])
     if fmt == "csv":
         from ..io.safety import csv_text
 
