@@ -133,7 +133,7 @@ def proposal_entries(doc: dict) -> list[dict]:
         pe = f"P(e > 0.1) = {num['p_ecc_gt_0p1']:.2f}" if num["p_ecc_gt_0p1"] is not None else ""
         text = (f"{t['name']}: {num['visits']} RV visits of {num['visit_min']:.0f} min on {inst} "
                 f"({num['exposure_s']:.0f} s exposure + {num['overhead_min']:.0f} min overhead; {num['hours']:.1f} h "
-                f"in total) at orbital phases {ph}{when} give a {100 * num['power']:.0f} % chance of confirming "
+                f"in total) at orbital phases {ph}{when} give {_an(100 * num['power'])} {100 * num['power']:.0f} % chance of confirming "
                 f"e > 0 at a false-alarm probability of {100 * fap:g} % (likelihood-ratio test simulated at the "
                 "epochs the site can observe"
                 + (f", {100 * loss:.0f} % of visits assumed lost" if loss is not None else "") + "). "
@@ -141,6 +141,12 @@ def proposal_entries(doc: dict) -> list[dict]:
                 + f" Expected confirmed eccentric orbits: {num['expected_confirmations']:.2f}.")
         out.append({"name": t["name"], "numbers": num, "text": text})
     return out
+
+
+def _an(pct: float) -> str:
+    """'an' before a percentage read with a vowel sound (8, 11, 18, 80-89 ...), else 'a'."""
+    t = f"{pct:.0f}"
+    return "an" if t.startswith("8") or t in ("11", "18") else "a"
 
 
 def _proposal_total(doc: dict, entries: list[dict]) -> str:
