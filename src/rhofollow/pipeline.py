@@ -366,6 +366,9 @@ def run_stages(targets, site, start_iso: str, end_iso: str, options: PipelineOpt
         occ_targets = [dict(r, events=[]) if r.get("name") in occ_measured else r for r in occ_targets]
     science, skipped, failures = _science_contained(assessments, occ_targets, rv, n_done)
     notices += failures
+    from .planning.occsn import screen_occultations   # fund only windows whose S/N x catch pays off
+
+    notices += screen_occultations(assessments, science, phot)
     skipped += [{"name": n, "reason": "occultation already measured (ledger): no more windows"}
                 for n in sorted(occ_measured)]
     model = ValueModel(baseline_h=0.0, lead_h=(phot.overhead_min / 60.0) if phot else 0.0,

@@ -159,7 +159,11 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
         rec = {"name": name, "ok": True, "occultation_windows": [], "rv_visits": [], "hours": {},
                "rv_visits_needed": None, "n_windows_unobservable": 0, "notes": []}
         occ_h = 0.0
+        rec["notes"] += list(entry.get("occ_notes") or [])
+        if entry.get("occ_screen"):
+            rec["occultation_windows_left_out"] = list(entry["occ_screen"])
         if entry.get("occultation"):
+            snr_of = {ev.get("epoch"): ev.get("snr") for ev in entry["occultation"].get("events") or []}
             for ni, night in enumerate(nights):
                 tasks, skipped = occultation_tasks(dict(entry["occultation"], name=name),
                                                    entry["evidence"], night.vis, model)
@@ -177,6 +181,8 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
                          "partial": bool(t.meta.get("partial", False))}
                     if t.meta.get("partial"):
                         w["p_catch"] = t.meta["p_catch"]
+                    if snr_of.get(t.meta["epoch"]) is not None:
+                        w["snr"] = snr_of[t.meta["epoch"]]
                     rec["occultation_windows"].append(w)
                     per_night.setdefault(ni, []).append((w, j0, j1, t.value, None))
                     occ_h += (j1 - j0) * 24.0 + overhead_h
