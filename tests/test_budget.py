@@ -63,11 +63,17 @@ def test_threshold_rule_requests_worthwhile_targets_only():
             "visit_h": 1.0}
     never = {"name": "C", "instrument": "RV", "options": [Option(30, 15.0, 0.1)], "visits_to_power": None,
              "visit_h": 0.5}
-    out = threshold_requests([good, poor, never], 0.8)
+    short = {"name": "D", "instrument": "RV", "options": [Option(5, 2.0, 0.2), Option(12, 4.8, 0.5)],
+             "visits_to_power": None, "visit_h": 0.4}
+    empty = {"name": "E", "instrument": "RV", "options": [], "visits_to_power": None, "visit_h": 0.4}
+    out = threshold_requests([good, poor, never, short, empty], 0.8)
     assert out["A"]["requested"] and out["A"]["hours"] == 5.0
     assert 0.2 / 60.0 < MIN_GAIN_PER_HOUR and not out["B"]["requested"]
     assert "would cost 60.0 h" in out["B"]["reason"]
     assert not out["C"]["requested"] and "not confirmable" in out["C"]["reason"]
+    # power out of reach but worth its hours: requested at the reachable visits of most value
+    assert out["D"]["requested"] and out["D"]["visits"] == 12 and "not confirmable at 80%" in out["D"]["reason"]
+    assert not out["E"]["requested"]
 
 
 def test_parse_hours_errors():

@@ -80,7 +80,7 @@ def rv_table(records: list[dict], instrument: str, fap: float, power: float, wid
         cr = r.get("confirm_reachable")
         never = f"not in range ({cr['n_nights_reachable']} nights)" if cr else f">{N_LADDER[-1]}"
         rows.append([r["name"] + (" ?" if r.get("reliable") is False else ""), (_fmt(r["k_ms"]), _num(r["k_ms"]["q50"])), _num(r["mp_mearth"]["q50"]),
-                     f"{r['sigma_rv_ms']:.2f}", f"{r['exposure_s']:.0f}", str(r["n_epochs_detect_k"] or "-"),
+                     f"{r['sigma_rv_ms']:.2f}", f"{r['exposure_s']:.0f}" if r.get("exposure_s") else "—", str(r["n_epochs_detect_k"] or "-"),
                      str(n) if n else never,
                      f"{r['hours_confirm_ecc']:.1f}" if r["hours_confirm_ecc"] else "-",
                      " ".join(f"{p:.2f}" for p in r["best_phases"][:2])])

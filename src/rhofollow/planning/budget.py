@@ -15,7 +15,8 @@ chosen set never exceeds the budget). Monotone by construction: a larger budget 
 feasible set, so the optimum never drops.
 
 Without a budget, :func:`threshold_requests` requests each target at the visits that reach the
-wanted power when its expected gain per hour ``P_i power_i(N) / hours_i(N)`` is at least
+wanted power (or, when the power is out of reach in the range, at the reachable visits of most
+value) when its expected gain per hour ``P_i power_i(N) / hours_i(N)`` is at least
 :data:`MIN_GAIN_PER_HOUR`, and reports what the others would cost.
 """
 from __future__ import annotations
@@ -154,20 +155,22 @@ def threshold_requests(items: list[dict], power: float, min_gain_per_hour: float
     for it in items:
         n = it.get("visits_to_power")
         opts = {o.n: o for o in it["options"]}
-        if n is None:
-            full = it["options"][-1] if it["options"] else None
+        if n is None and not it["options"]:
             out[it["name"]] = {"visits": 0, "hours": 0.0, "value": 0.0, "gain_per_hour": 0.0,
-                               "requested": False,
-                               "reason": "not confirmable in this range" + (
-                                   f" ({full.n} visits, {full.hours:.1f} h, reach "
-                                   f"{full.value:.2f} expected confirmations)" if full else "")}
+                               "requested": False, "reason": "not confirmable in this range (too few reachable "
+                                                             "visits, or no power gained)"}
             continue
-        o = opts.get(n) or Option(n, n * it["visit_h"], it.get("value_at_power", 0.0))
+        if n is None:   # the wanted power is out of reach: the option of most value (all reachable visits)
+            o = it["options"][-1]
+            pre = f"not confirmable at {power:.0%} power in this range; "
+        else:
+            o = opts.get(n) or Option(n, n * it["visit_h"], it.get("value_at_power", 0.0))
+            pre = ""
         g = o.value / o.hours if o.hours > 0 else 0.0
         ok = g >= min_gain_per_hour
         out[it["name"]] = {"visits": o.n if ok else 0, "hours": o.hours if ok else 0.0,
                            "value": o.value if ok else 0.0, "gain_per_hour": g, "requested": ok,
-                           "reason": (f"{g:.3f} expected confirmations per hour"
+                           "reason": (pre + f"{o.n} visits, {o.hours:.1f} h: {g:.3f} expected confirmations per hour"
                                       + ("" if ok else f" < {min_gain_per_hour:g}: would cost {o.hours:.1f} h "
-                                         f"({o.n} visits) for {o.value:.2f} expected confirmations"))}
+                                         f"for {o.value:.2f} expected confirmations"))}
     return out
