@@ -235,7 +235,7 @@ def test_log_update_envelope_and_exit_status(cats, tmp_path, capsys):
 def test_demo_runs_from_package_data_with_the_envelope(tmp_path, monkeypatch, capsys):
     import rhofollow.cli.options as options_mod
 
-    monkeypatch.setattr(options_mod, "DEMO_DAYS", 1)
+    monkeypatch.setattr(options_mod, "DEMO_DAYS", 9)   # ten nights: enough visits for an RV request
     monkeypatch.chdir(tmp_path)                  # outside the checkout
     out = tmp_path / "r"
     assert main(["demo", "--out", str(out), "--samples", "500", "--sims", "100", "--plot-targets", "1"]) == 0

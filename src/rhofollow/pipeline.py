@@ -58,6 +58,7 @@ class PipelineOptions:
     sims: int = 2000
     rv_data: dict | None = None
     ledger: str | None = None
+    rv_hours: dict | None = None    # spectrograph -> RV budget (h); None: gain-per-hour threshold
 
 
 @dataclass
@@ -460,6 +461,22 @@ def campaign_document(plan, stages: Stages, site, start, end, seed, samples, cat
                     caution=body["cautions"][0] if body.get("cautions") else None, payload=body)
 
 
+def _rv_request(stages: Stages, nights, site, opts: PipelineOptions, progress):
+    """Time-to-confirm at reachable epochs and the RV request (:mod:`rhofollow.planning.rvrequest`)."""
+    from rhofollow.planning.rvrequest import plan_rv_requests
+
+    spec, _ = _instruments(site)
+    if spec is None or not any(e.get("rv") for e in stages.science):
+        return None
+    t = time.perf_counter()
+    adv = progress("RV at reachable epochs", len(stages.science))
+    req = plan_rv_requests(stages.assessments, stages.science, nights, spec, loss_fraction=site.loss_fraction,
+                           fap=opts.fap, power=opts.power, seed=opts.seed, n_null=opts.sims,
+                           n_alt=min(400, opts.sims), hours=opts.rv_hours, progress=adv)
+    stages.timings["rv_reachable_s"] = time.perf_counter() - t
+    return req
+
+
 def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: PipelineOptions | None = None,
                  progress: StageProgress | None = None, max_nights: int = 400,
                  catalogue=None) -> PipelineResult:
@@ -512,10 +529,18 @@ def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: Pipelin
         adv(1)
     timings["visibility_s"] = time.perf_counter() - t
 
+    rv_request = _rv_request(stages, nights, site, opts, progress)
+    if rv_request is not None:   # the night plan sees the request, with the first night's BJD offsets
+        vis0 = night_visibility(eng, first, stages.science)
+        nplan = plan_night(stages.science, vis0, site=site.name, night_start_jd=first.start_jd,
+                           night_end_jd=first.end_jd, overhead_h=stages.overhead_h, model=stages.model)
+        night_doc = night_document(nplan, stages, site, first.date, opts.seed, opts.samples, catalogue)
+        for g in grids[-1:]:
+            night_visibility(eng, g, stages.science)
     t = time.perf_counter()
     adv = progress("scheduling", 1)
     cplan = plan_campaign(stages.science, nights, site=site.name, overhead_h=stages.overhead_h,
-                          instruments=stages.instruments, model=stages.model)
+                          instruments=stages.instruments, model=stages.model, rv_request=rv_request)
     camp = campaign_document(cplan, stages, site, start, end, opts.seed, opts.samples, catalogue)
     adv(1)
     timings["scheduling_s"] = time.perf_counter() - t

@@ -3,16 +3,13 @@ with the hours to request per instrument."""
 from __future__ import annotations
 
 from rhofollow.cli.common import UserError, add_json_option, add_plan_options, atomic_write_text, console, write_json
-from rhofollow.cli.options import load_site_arg
+from rhofollow.cli.options import MAX_NIGHTS, add_hours_option, load_site_arg, parse_hours
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 from rhofollow.cli.runs import nothing_to_plan, prepare
-from rhofollow.cli.summaries import print_planner_messages
+from rhofollow.cli.summaries import print_planner_messages, rv_request_lines
 from rhofollow.core.defaults import MIN_PLANNING_SAMPLES
 
 __all__ = ["register", "run"]
-
-#: Longest campaign accepted (nights): one visibility grid per night is kept in memory.
-MAX_NIGHTS = 400
 
 
 def register(subparsers):
@@ -28,6 +25,7 @@ def register(subparsers):
     p.add_argument("--ics", metavar="PATH", help="write the windows and visits as an iCalendar file")
     p.add_argument("--table", choices=["md", "latex", "csv"],
                    help="print the hours table in this format instead of the terminal table")
+    add_hours_option(p)
     add_json_option(p)
     add_plan_options(p)
     p.set_defaults(func=run)
@@ -46,17 +44,24 @@ def campaign_table(doc: dict, plan, site_name: str, start, end, n_nights: int, w
     """Per target: windows, RV visits and hours per instrument, with the columns that fit ``width``."""
     insts = list(dict.fromkeys(plan.instruments.values()))
     cols = ([Col("target", justify="left"), Col("occ.\nwindows"), Col("RV visits\nplaced"),
-             Col("RV visits\nneeded")] + [Col(f"{i}\nhours") for i in insts] + [Col("clashes", drop=1)])
+             Col("RV visits\nneeded"), Col("RV exp.\ns", drop=2, what="RV exposure")]
+            + [Col(f"{i}\nhours") for i in insts] + [Col("clashes", drop=1)])
     rows, styles = [], []
     for t in doc["targets"]:
         clash = sum(x["clash"] for x in t["occultation_windows"] + t["rv_visits"])
         need = t.get("rv_visits_needed")
-        rows.append([t["name"], str(len(t["occultation_windows"])), str(len(t["rv_visits"])),
-                     str(need) if need is not None else "no RV route",
+        req = t.get("rv_request")
+        if req is not None and not req.get("requested"):
+            need_s = "not requested"
+        else:
+            need_s = str(need) if need is not None else "no RV route"
+        ex = next((v.get("exposure_s") for v in t["rv_visits"] if v.get("exposure_s")), None)
+        rows.append([t["name"], str(len(t["occultation_windows"])), str(len(t["rv_visits"])), need_s,
+                     f"{ex:.0f}" if ex else "",
                      *[f"{t['hours'].get(i, 0.0):.2f}" for i in insts], str(clash) if clash else ""])
         styles.append(None)
     rows.append(["total", str(sum(len(t["occultation_windows"]) for t in doc["targets"])),
-                 str(sum(len(t["rv_visits"]) for t in doc["targets"])), "",
+                 str(sum(len(t["rv_visits"]) for t in doc["targets"])), "", "",
                  *[f"{doc['hours_total'].get(i, 0.0):.2f}" for i in insts], ""])
     styles.append("bold")
     return fit_table(f"{site_name}: campaign {start} to {end} ({n_nights} nights with dark time)", cols, rows,
@@ -94,8 +99,21 @@ def run(args) -> int:
         for g in grids:
             nights.append(NightVis(str(g.date), night_visibility(eng, g, prep.science), g.start_jd, g.end_jd))
             prog.advance(task)
+    from rhofollow.pipeline import PipelineOptions, _instruments
+    from rhofollow.planning.rvrequest import plan_rv_requests
+
+    spec, _phot = _instruments(site)
+    hours = parse_hours(args.hours, [spec.name] if spec is not None else [])
+    req = None
+    if spec is not None and any(e.get("rv") for e in prep.science):
+        sims = PipelineOptions().sims
+        with count_progress(len(prep.science), "RV at reachable epochs") as prog:
+            task = prog.add_task("RV reachable", total=len(prep.science))
+            req = plan_rv_requests(prep.stages.assessments, prep.science, nights, spec,
+                                   loss_fraction=site.loss_fraction, seed=args.seed, n_null=sims,
+                                   n_alt=min(400, sims), hours=hours, progress=lambda: prog.advance(task))
     plan = plan_campaign(prep.science, nights, site=site.name, overhead_h=prep.overhead_h,
-                         instruments=prep.instruments, model=prep.model)
+                         instruments=prep.instruments, model=prep.model, rv_request=req)
     from rhofollow.pipeline import campaign_document
 
     full = campaign_document(plan, prep.stages, site, start, end, args.seed, args.samples, prep.catalogue)
@@ -109,9 +127,12 @@ def run(args) -> int:
         fitted = campaign_table(doc, plan, site.name, start, end, len(nights), con.width)
         con.print(fitted.table)
         table_note(fitted)
-        say(f"Hours include {prep.overhead_h * 60:.0f} min slew + setup per block and the instrument "
-            "overheads; 'no RV route': RVs from this instrument cannot confirm the eccentricity; clashes: "
+        say(f"Hours: an RV visit is its exposure plus the spectrograph's overhead (pointing, acquisition, "
+            f"read-out), counted once; an occultation block adds {prep.overhead_h * 60:.0f} min slew + setup. "
+            "'no RV route': RVs cannot confirm the eccentricity in this range; clashes: "
             "items that cannot share their night with more valuable ones (details in --json).")
+        for line in rv_request_lines(req):
+            say(line)
         message(CAUTION, "caution", to_stdout=True)
     print_planner_messages(prep.notices, full, prep.stages.unreachable)
     if args.json:

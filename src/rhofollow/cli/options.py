@@ -15,7 +15,11 @@ from pathlib import Path
 from rhofollow.cli.common import UserError, add_seed_option
 from rhofollow.core.defaults import DEFAULT_SAMPLES, DEFAULT_SIMS, QUICK_SAMPLES, QUICK_SIMS
 
-__all__ = ["add_report_options", "load_site_arg", "demo_paths", "site_evening_date", "DEMO_DAYS"]
+__all__ = ["add_report_options", "load_site_arg", "demo_paths", "site_evening_date", "DEMO_DAYS",
+           "add_hours_option", "parse_hours", "MAX_NIGHTS"]
+
+#: Most nights one campaign (or one reachable-epoch RV estimate) may span; split longer ranges.
+MAX_NIGHTS = 400
 
 #: Length of the demo's date range (days from today).
 DEMO_DAYS = 60
@@ -50,6 +54,7 @@ def add_report_options(p, demo: bool = False) -> None:
     sims = QUICK_SIMS if demo else DEFAULT_SIMS
     p.add_argument("--sims", type=int, default=sims, metavar="N",
                    help=f"simulated null data sets per RV test (default {sims})")
+    add_hours_option(p)
     p.add_argument("--plot-targets", type=int, default=10, metavar="N",
                    help="per-target figures for the N highest-ranked targets (0: all; default 10)")
     add_seed_option(p)
@@ -88,3 +93,42 @@ def site_evening_date(site_path) -> dt.date:
         return dt.datetime.now(dt.timezone.utc).date()
     now = dt.datetime.now(tz)
     return now.date() - dt.timedelta(days=1) if now.hour < 12 else now.date()
+
+
+def add_hours_option(p) -> None:
+    """``--hours INSTRUMENT=H`` (repeatable): RV budgets per spectrograph."""
+    from rhofollow.planning.budget import MIN_GAIN_PER_HOUR
+
+    p.add_argument("--hours", metavar="INSTRUMENT=H", action="append",
+                   help="RV hours available on a spectrograph of the site (repeat for several): the visits "
+                   "are shared out to maximise the expected number of confirmed eccentric orbits. Without "
+                   f"it, targets are requested when they give at least {MIN_GAIN_PER_HOUR:g} expected "
+                   "confirmations per hour")
+
+
+def parse_hours(values, spectrographs) -> dict | None:
+    """``["AQ-VEL=40", ...]`` -> ``{"AQ-VEL": 40.0}``; a :class:`UserError` naming the bad value."""
+    import math
+
+    if not values:
+        return None
+    names = list(spectrographs)
+    out: dict[str, float] = {}
+    for v in values:
+        name, sep, h = str(v).partition("=")
+        name = name.strip()
+        if not sep or not name:
+            raise UserError(f"--hours {v!r}: write INSTRUMENT=HOURS, e.g. --hours {names[0] if names else 'RV'}=40")
+        try:
+            hours = float(h)
+        except ValueError:
+            raise UserError(f"--hours {v!r}: {h!r} is not a number of hours") from None
+        if not math.isfinite(hours) or hours <= 0:
+            raise UserError(f"--hours {v!r}: the hours must be a positive number")
+        if name not in names:
+            known = ", ".join(names) if names else "none"
+            raise UserError(f"--hours {v!r}: {name!r} is not a spectrograph of the site (spectrographs: {known})")
+        if name in out:
+            raise UserError(f"--hours {v!r}: {name} given twice")
+        out[name] = hours
+    return out

@@ -99,6 +99,16 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
             rv_data = read_rv_data(args.rv_data)
         except RVDataError as exc:
             raise UserError(str(exc)) from None
+    hours = None
+    if getattr(args, "hours", None):
+        from rhofollow.cli.options import parse_hours
+        from rhofollow.pipeline import _instruments
+
+        try:
+            spec, _phot = _instruments(site)
+        except PipelineError as exc:
+            raise UserError(str(exc)) from None
+        hours = parse_hours(args.hours, [spec.name] if spec is not None else [])
     cat = load_catalogue(catalog, require_coords=True)
     report_row_issues(cat)
     if not cat.targets:
@@ -108,7 +118,7 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
         return {"doc": envelope(command, catalogue=cat, seed=args.seed), "files": [], "result": None}
     opts = PipelineOptions(samples=args.samples, seed=args.seed, ecc_prior=args.ecc_prior,
                            transit_weight=not args.no_transit_weight, workers=args.workers,
-                           dask_address=args.dask, sims=args.sims, rv_data=rv_data)
+                           dask_address=args.dask, sims=args.sims, rv_data=rv_data, rv_hours=hours)
     with stage_progress(transient=False) as stage:
         try:
             result = run_pipeline(cat.targets, site, start, end, opts, progress=stage, catalogue=cat)

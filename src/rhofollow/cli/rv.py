@@ -40,6 +40,11 @@ def register(subparsers):
     p.add_argument("--sims", type=int, default=DEFAULT_SIMS,
                    help=f"simulated data sets under the circular null per test (default {DEFAULT_SIMS}; the "
                    "false-alarm threshold needs several per FAP^-1)")
+    p.add_argument("--site", metavar="FILE",
+                   help="site file (TOML): simulate the test at the epochs the site can observe between "
+                   "--start and --end (with the site's loss fraction) instead of uniform orbital phases")
+    p.add_argument("--start", metavar="YYYY-MM-DD", help="with --site: local date of the first evening")
+    p.add_argument("--end", metavar="YYYY-MM-DD", help="with --site: local date of the last evening")
     add_json_option(p)
     add_assess_options(p)
     p.set_defaults(func=run)
@@ -64,17 +69,20 @@ def rv_table(records: list[dict], instrument: str, fap: float, power: float, wid
 
     cols = [Col("target", justify="left"), Col("K m/s (68%)", compact_header="K m/s", what="K interval"),
             Col("Mp M⊕", drop=2), Col("σ m/s", drop=3, what="per-epoch σ"),
+            Col("exp. s", drop=5, what="exposure per visit"),
             Col("epochs to\ndetect K", drop=1, what="epochs to detect K"), Col("epochs to\nconfirm e>0"),
             Col("hours to\nconfirm e>0"), Col("best RV\nphases", justify="left", drop=4, what="best RV phases")]
     rows = []
     for r in records:
         if not r["ok"]:
-            rows.append([r["name"], *["—"] * 6, Text("not assessed (see errors)", style="red")])
+            rows.append([r["name"], *["—"] * 7, Text("not assessed (see errors)", style="red")])
             continue
         n = r["n_epochs_confirm_ecc"]
+        cr = r.get("confirm_reachable")
+        never = f"not in range ({cr['n_nights_reachable']} nights)" if cr else f">{N_LADDER[-1]}"
         rows.append([r["name"] + (" ?" if r.get("reliable") is False else ""), (_fmt(r["k_ms"]), _num(r["k_ms"]["q50"])), _num(r["mp_mearth"]["q50"]),
-                     f"{r['sigma_rv_ms']:.2f}", str(r["n_epochs_detect_k"] or "-"),
-                     str(n) if n else f">{N_LADDER[-1]}",
+                     f"{r['sigma_rv_ms']:.2f}", f"{r['exposure_s']:.0f}" if r.get("exposure_s") else "—", str(r["n_epochs_detect_k"] or "-"),
+                     str(n) if n else never,
                      f"{r['hours_confirm_ecc']:.1f}" if r["hours_confirm_ecc"] else "-",
                      " ".join(f"{p:.2f}" for p in r["best_phases"][:2])])
     return fit_table(f"RV follow-up on {instrument} (FAP {fap:g}, power {power:.0%})", cols, rows, width)
@@ -94,6 +102,40 @@ def update_table(records: list[dict], fap: float, width: int = 80) -> FittedTabl
                          f"{r['lrt_p_value']:.3g}",
                          Text("yes", style="green") if r["ecc_confirmed"] else "no"])
     return fit_table(f"Update from measured RVs (eccentric if LRT p < {fap:g})", cols, rows, width)
+
+
+def _reachable(args, assessments, records, inst) -> str:
+    """Rewrite the records with the time-to-confirm at the site's reachable epochs; returns a label."""
+    import datetime as dt
+
+    from rhofollow.planning.campaign import NightVis
+    from rhofollow.planning.night import night_visibility, science_from_records
+    from rhofollow.planning.rvreach import reachable_rv
+    from rhofollow.planning.visibility import VisibilityEngine
+    from rhofollow.cli.options import MAX_NIGHTS, load_site_arg
+
+    missing = [o for o, v in (("--start", args.start), ("--end", args.end)) if not v]
+    if missing:
+        raise UserError(f"with --site, give {' and '.join(missing)}")
+    try:
+        start, end = dt.date.fromisoformat(args.start), dt.date.fromisoformat(args.end)
+    except ValueError:
+        raise UserError(f"--start and --end must be YYYY-MM-DD, got {args.start!r} and {args.end!r}") from None
+    if end < start:
+        raise UserError(f"--end {end} is before --start {start}")
+    if (end - start).days + 1 > MAX_NIGHTS:
+        raise UserError(f"{(end - start).days + 1} nights requested; at most {MAX_NIGHTS}")
+    site = load_site_arg(args.site)
+    eng = VisibilityEngine(site)
+    grids = [g for g in eng.nights(start, end) if g.kind != "no_night"]
+    if not grids:
+        raise UserError(f"no dark time at {site.name} between {start} and {end}")
+    sci, _ = science_from_records(assessments, [], records)
+    nights = [NightVis(str(g.date), night_visibility(eng, g, sci), g.start_jd, g.end_jd) for g in grids]
+    reachable_rv(assessments, sci, nights, inst, loss_fraction=site.loss_fraction, fap=args.fap,
+                 power=args.power, seed=args.seed, n_alt=min(400, args.sims), n_null=args.sims,
+                 relation=args.relation)
+    return f"{site.name} {start} to {end}"
 
 
 def run(args) -> int:
@@ -147,14 +189,26 @@ def run(args) -> int:
                           relation=args.relation, k_mode=args.k_mode, n_null=args.sims,
                           n_alt=min(400, args.sims), progress=lambda: prog.advance(task2))
 
+    where = None
+    if args.site:
+        where = _reachable(args, assessments, records, plan_inst)
+
     con = console()
     fitted = rv_table(records, plan_inst.name, args.fap, args.power, con.width)
+
     con.print(fitted.table)
     table_note(fitted)
     upd = update_table(records, args.fap, con.width)
     if upd is not None:
         con.print(upd.table)
         table_note(upd)
+    if where:
+        say(f"Epochs and hours at the reachable epochs of {where}: visits to request (one per "
+            "night, a share of them lost to weather), exposure per visit chosen for the fewest hours; a "
+            "visit costs its exposure plus the instrument overhead.", style="dim")
+    else:
+        say("Epochs and hours at orbital phases spread uniformly (no --site); give --site, --start and --end "
+            "for the epochs the site can observe.", style="dim")
     say("K, Mp: median (68 % interval). Phases: orbital phases from mid-transit (0..1) where eccentric and "
         "circular orbits differ most. ?: unreliable quantiles (effective sample size below the floor).",
         style="dim")
@@ -169,6 +223,9 @@ def run(args) -> int:
     doc = envelope("rv", catalogue=cat, seed=args.seed, targets=records, caution=CAUTION,
                    payload={"instrument": plan_inst.name, "instrument_file": plan_inst.source,
                             "fap": args.fap, "power": args.power, "samples": args.samples,
+                            "phase_model": "reachable" if where else "uniform",
+                            "site": args.site, "start": args.start if where else None,
+                            "end": args.end if where else None,
                             "rv_data": str(args.rv_data) if args.rv_data else None})
     if args.json:
         write_json(args.json, doc)

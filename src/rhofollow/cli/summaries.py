@@ -12,7 +12,7 @@ from pathlib import Path
 from rhofollow.cli.common import console
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 
-__all__ = ["print_planner_messages", "summary_table", "print_plan_summary"]
+__all__ = ["print_planner_messages", "summary_table", "print_plan_summary", "rv_request_lines"]
 
 
 def print_planner_messages(notices, doc: dict, unreachable: dict) -> None:
@@ -90,6 +90,8 @@ def print_plan_summary(written: dict, out: Path, top: int = 8) -> None:
     tot = doc.get("hours_total", {})
     if tot:
         say("Hours to request: " + ", ".join(f"{k} {v:.1f} h" for k, v in tot.items()))
+    for line in rv_request_lines(doc.get("rv_request")):
+        say(line)
     n_bad = sum(1 for t in doc["targets"] if not t.get("ok"))
     if n_bad:
         say(f"{n_bad} target(s) could not be assessed (see summary.md).")
@@ -98,3 +100,22 @@ def print_plan_summary(written: dict, out: Path, top: int = 8) -> None:
         f"campaign.json, windows.ics, plots/, samples/)")
     for n in doc.get("notices", []):
         message(n, "notice")
+
+
+def rv_request_lines(req: dict | None) -> list[str]:
+    """Plain sentences on the RV request (budget or threshold) for the terminal."""
+    if not req:
+        return []
+    hrs = ", ".join(f"{k} {v:.1f} h" for k, v in req["hours_requested"].items()) or "none"
+    if req["basis"] == "budget":
+        bud = ", ".join(f"{k} {v:g} h" for k, v in req["budgets_h"].items())
+        head = (f"RV budget {bud}: {len(req['requested'])} target(s) funded, {hrs}, "
+                f"{req['expected_confirmations']:.2f} expected confirmed eccentric orbits")
+    else:
+        head = (f"RV request (targets giving >= {req['min_gain_per_hour']:g} expected confirmations per hour): "
+                f"{len(req['requested'])} target(s), {hrs}, {req['expected_confirmations']:.2f} expected "
+                "confirmed eccentric orbits")
+    lines = [head + f"; {100 * req['loss_fraction']:.0f} % of visits assumed lost to weather and technical time."]
+    for t in req["not_requested"]:
+        lines.append(f"{t['name']}: not requested ({t['reason']})")
+    return lines

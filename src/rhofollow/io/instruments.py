@@ -14,7 +14,8 @@ exposure_ref_s           required  reference exposure time (s)
 floor_ms                 required  instrumental noise floor per epoch (m/s)
 exposure_min_s           60        shortest useful exposure (s)
 exposure_max_s           3600      longest exposure (s): a fainter star gets this and a larger error
-overhead_min             required  pointing, acquisition and read-out per visit (minutes)
+overhead_min             required  pointing, acquisition and read-out per visit (minutes): the whole
+                                   overhead of an RV visit (the site's slew and setup are not added)
 observatory              ""        free text
 =======================  ========  ==========================================================
 

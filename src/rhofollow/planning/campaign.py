@@ -12,8 +12,10 @@ whose :meth:`CampaignPlan.to_dict` is the ``campaign`` JSON contract::
 RV visits are placed one per night: visit ``k`` of a target aims at informative phase
 ``best_phases[k mod m]`` and takes the not yet used night whose best start (on the candidate grid
 inside the visible slots) has the highest value at that phase (value formula of
-:mod:`.tasks`). Hours per instrument are block lengths plus the per-block overhead
-(slew + setup); occultation blocks include their baselines. Finally each night's items are
+:mod:`.tasks`). Hours per instrument: an RV visit costs its exposure plus the spectrograph's own
+overhead (pointing, acquisition, read-out; itemised in the RV record's ``overheads``), counted once;
+an occultation block costs its length (baselines included) plus the site's slew + setup. A record
+with a ``request`` (:mod:`.rvrequest`) gets the requested visits only (none when not requested). Finally each night's items are
 scheduled together with the exact scheduler (:func:`.scheduler.schedule`): RV visits may move
 inside their visible slots (valued at their target phase) to fit around each other and the
 occultation windows; items that still cannot share the night with more valuable ones are flagged
@@ -54,6 +56,7 @@ class CampaignPlan:
     targets: list
     instruments: dict
     cautions: list = field(default_factory=lambda: [CAUTION])
+    rv_request: dict | None = None
 
     @property
     def hours_total(self) -> dict:
@@ -67,7 +70,7 @@ class CampaignPlan:
     def to_dict(self) -> dict:
         return {"site": self.site, "start": self.start, "end": self.end, "targets": self.targets,
                 "hours_total": self.hours_total, "instruments": dict(self.instruments),
-                "cautions": list(self.cautions)}
+                "rv_request": self.rv_request, "cautions": list(self.cautions)}
 
 
 def _rv_night_options(entry: dict, night: NightVis, model: ValueModel):
@@ -126,7 +129,8 @@ def _resolve_night(night: NightVis, items: list, overhead_h: float, model: Value
 
 
 def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, overhead_h: float = 0.0,
-                  instruments: dict | None = None, model: ValueModel = ValueModel()) -> CampaignPlan:
+                  instruments: dict | None = None, model: ValueModel = ValueModel(),
+                  rv_request: dict | None = None) -> CampaignPlan:
     """Windows, RV visits and hours per instrument for every target over the nights given.
 
     Parameters
@@ -142,6 +146,9 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
     instruments : dict
         ``{"occultation": name, "rv": name}``: instrument names the hours are booked on.
     model : ValueModel
+    rv_request : dict or None
+        The run-level RV request (:func:`rhofollow.planning.rvrequest.plan_rv_requests`), carried
+        into the JSON; a record's own ``request`` decides how many of its visits are placed.
     """
     inst = {"occultation": "photometer", "rv": "spectrograph"}
     inst.update(instruments or {})
@@ -175,6 +182,8 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
                          "partial": bool(t.meta.get("partial", False))}
                     if t.meta.get("partial"):
                         w["p_catch"] = t.meta["p_catch"]
+                    if t.meta.get("occ_snr") is not None:
+                        w["snr"] = t.meta["occ_snr"]
                     rec["occultation_windows"].append(w)
                     per_night.setdefault(ni, []).append((w, j0, j1, t.value, None))
                     occ_h += (j1 - j0) * 24.0 + overhead_h
@@ -182,12 +191,19 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
         rv = entry.get("rv")
         if rv and np.isfinite(entry.get("period_d", np.nan)) and np.isfinite(entry.get("t0_bjd", np.nan)):
             n_need = rv.get("n_epochs_confirm_ecc")
+            req = rv.get("request")
+            if req is not None:
+                n_need = req["visits"] if req.get("requested") else None
+                rec["rv_request"] = {k: req[k] for k in ("visits", "hours", "power", "expected_confirmations",
+                                                         "basis", "requested", "reason")}
             try:
                 n_rem = int(np.ceil(max(0.0, float(n_need) - entry.get("n_done", 0))))
             except (TypeError, ValueError, OverflowError):
                 n_rem = -1
             rec["rv_visits_needed"] = n_rem if n_rem >= 0 else None
-            if n_rem < 0:
+            if req is not None and not req.get("requested"):
+                rec["notes"].append(f"no RV visits requested: {req['reason']}")
+            elif n_rem < 0:
                 rec["notes"].append("eccentricity cannot be confirmed with RVs (no finite epoch count)")
             elif not entry["evidence"] > 0:
                 rec["notes"].append("no RV visits: no evidence for eccentricity")
@@ -219,9 +235,12 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
                          "phase": round(ph, 4), "target_phase": target_phase, "value": round(val, 6),
                          "airmass_max": round(float(night.vis.airmass_max(name, j0, j1)), 4),
                          "clash": False, "_target": name}
+                    if rv.get("overheads"):
+                        v["exposure_s"] = rv["overheads"]["exposure_s"]
+                        v["overhead_s"] = rv["overheads"]["instrument_overhead_s"]
                     rec["rv_visits"].append(v)
                     per_night.setdefault(ni, []).append((v, j0, j1, val, (task, flat, target_phase)))
-                    rv_h += task.duration + overhead_h
+                    rv_h += task.duration   # exposure + instrument overhead: the visit's whole cost
                 rec["rv_visits"].sort(key=lambda x: x["start_utc"])
         # windows left for want of signal: one note per reason, with the count
         rec["occultation_windows_not_funded"] = sum(left.values())
@@ -246,28 +265,31 @@ def plan_campaign(science: list[dict], nights: list[NightVis], *, site: str, ove
             v.pop("_target", None)
         rec["rv_visits"].sort(key=lambda x: x["start_utc"])
     return CampaignPlan(site, nights[0].date if nights else "", nights[-1].date if nights else "",
-                        out, inst)
+                        out, inst, rv_request=rv_request)
 
 
 def hours_table(plan: CampaignPlan, fmt: str = "md") -> str:
-    """The proposal table: per target the windows, visits and hours per instrument, and totals.
+    """The proposal table: per target the windows, visits, hours per instrument and the RV exposure
+    per visit, and totals.
 
     ``fmt`` is "md" (Markdown), "latex" (a tabular environment) or "csv".
     """
     if fmt not in TABLE_FORMATS:
         raise ValueError(f"unknown table format {fmt!r}; choose one of {', '.join(TABLE_FORMATS)}")
     insts = list(dict.fromkeys(plan.instruments.values()))
-    head = ["Target", "Occultation windows", "RV visits"] + [f"{i} (h)" for i in insts] + ["Total (h)"]
+    head = (["Target", "Occultation windows", "RV visits"] + [f"{i} (h)" for i in insts]
+            + ["RV exposure (s)", "Total (h)"])
     rows = []
     for t in plan.targets:
         hs = [t["hours"].get(i, 0.0) for i in insts]
+        ex = next((v.get("exposure_s") for v in t["rv_visits"] if v.get("exposure_s")), None)
         rows.append([t["name"], str(len(t["occultation_windows"])), str(len(t["rv_visits"]))]
-                    + [f"{h:.2f}" for h in hs] + [f"{sum(hs):.2f}"])
+                    + [f"{h:.2f}" for h in hs] + [f"{ex:.0f}" if ex else "", f"{sum(hs):.2f}"])
     tot = plan.hours_total
     hs = [tot.get(i, 0.0) for i in insts]
     rows.append(["Total", str(sum(len(t["occultation_windows"]) for t in plan.targets)),
                  str(sum(len(t["rv_visits"]) for t in plan.targets))]
-                + [f"{h:.2f}" for h in hs] + [f"{sum(hs):.2f}"])
+                + [f"{h:.2f}" for h in hs] + ["", f"{sum(hs):.2f}"])
     if fmt == "csv":
         from rhofollow.io.safety import csv_text
 

@@ -5,7 +5,7 @@ A site file (see ``site_configs/alto_quemado.toml`` for a documented example) ho
     [site]          name, latitude_deg, longitude_deg, elevation_m, timezone (IANA name)
     instruments     list of instrument files, relative to the site file
     [constraints]   min_altitude_deg and/or max_airmass, twilight, Moon separation, horizon_mask
-    [overheads]     slew_minutes, setup_minutes
+    [overheads]     slew_minutes, setup_minutes, loss_fraction
 
 Every problem is reported with the file and the dotted key (``constraints.twilight``), all at
 once: :func:`check_site` returns them as a list, :func:`load_site` raises :class:`ConfigError`
@@ -111,6 +111,9 @@ class Site:
     instruments: tuple[Path, ...] = ()
     slew_minutes: float = 0.0
     setup_minutes: float = 0.0
+    #: Probability that a requested visit is lost to weather or technical problems (0 to 0.95;
+    #: default 0.25 when the file gives none, common practice, no source).
+    loss_fraction: float = 0.25
     source: Path | None = field(default=None, compare=False)
 
     @property
@@ -141,7 +144,10 @@ _TOP_KEYS = {"site", "instruments", "constraints", "overheads"}
 _SITE_KEYS = {"name", "latitude_deg", "longitude_deg", "elevation_m", "timezone", "instruments"}
 _CONSTRAINT_KEYS = {"min_altitude_deg", "max_airmass", "twilight", "min_moon_separation_deg",
                     "min_moon_separation_new_deg", "moon_ignore_below_horizon", "horizon_mask"}
-_OVERHEAD_KEYS = {"slew_minutes", "setup_minutes"}
+_OVERHEAD_KEYS = {"slew_minutes", "setup_minutes", "loss_fraction"}
+
+#: Loss fraction of a site file without ``overheads.loss_fraction``.
+DEFAULT_LOSS_FRACTION = 0.25
 
 
 class _Collector:
@@ -294,6 +300,8 @@ def _validate(doc: dict, base_dir: Path | None, check_files: bool, source: Path 
     c.unknown(o, _OVERHEAD_KEYS, "overheads.")
     slew = c.number(o, "slew_minutes", "overheads.", required=False, lo=0.0, hi=600.0, default=0.0)
     setup = c.number(o, "setup_minutes", "overheads.", required=False, lo=0.0, hi=600.0, default=0.0)
+    loss = c.number(o, "loss_fraction", "overheads.", required=False, lo=0.0, hi=0.95,
+                    default=DEFAULT_LOSS_FRACTION)
 
     if c.problems:
         return None, c.problems
@@ -305,7 +313,7 @@ def _validate(doc: dict, base_dir: Path | None, check_files: bool, source: Path 
                        moon_ignore_below_horizon=ignore_down, horizon_mask=mask)
     site = Site(name=name, latitude_deg=lat, longitude_deg=lon, elevation_m=elev, timezone=tz,
                 constraints=cons, instruments=tuple(instruments), slew_minutes=slew,
-                setup_minutes=setup, source=source)
+                setup_minutes=setup, loss_fraction=loss, source=source)
     return site, []
 
 

@@ -54,6 +54,9 @@ reliable one worth less than half as much. The tasks say so (``meta["reliable"]`
 A target whose tasks cannot be built (an unexpected failure in its record) gets no task and a
 "skipped" entry with the reason; the other targets are planned as usual.
 
+A record whose ``request`` (:mod:`.rvrequest`: budget or gain-per-hour threshold) says it is not
+requested gets no RV task; a requested one counts its requested visits as ``n_epochs_confirm_ecc``.
+
 A fully decided target (E = 0) or an impossible confirmation (``n_epochs_confirm_ecc`` missing or
 infinite) gets no task; the reason is recorded in the "skipped" list.
 """
@@ -514,7 +517,12 @@ def rv_task(record: dict, evidence: float, vis: VisGrid, t0_bjd: float, period_d
 
 def _rv_task(record, evidence, vis, t0_bjd, period_d, bjd_minus_jd, n_done, model):
     name = record["name"]
+    req = record.get("request")
+    if isinstance(req, dict) and not req.get("requested", True):
+        return None, Skip(f"{name} rv", f"no RV visits requested: {req.get('reason', 'not requested')}")
     n_need = _num(record.get("n_epochs_confirm_ecc"))
+    if isinstance(req, dict) and req.get("visits"):
+        n_need = float(req["visits"])
     hours = _num(record.get("hours_confirm_ecc"))
     if not (np.isfinite(n_need) and n_need > 0):
         return None, Skip(f"{name} rv", "eccentricity cannot be confirmed with RVs (no finite epoch count)")

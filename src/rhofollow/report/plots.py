@@ -693,7 +693,10 @@ def campaign_figure(campaign: dict, nights: list | None = None, order: list[str]
                     ax.plot(x, i, marker, ms=11, mew=2.2 if not it.get("clash") else 0.8, color=colour)
     ax.set_yticks(range(len(names)))
     ax.set_yticklabels(names, fontsize=8)
-    ax.set_ylim(len(names) - 0.5, -0.5)
+    ax.set_ylim(max(len(names), 1) - 0.5, -0.5)   # an empty campaign still gets a non-degenerate axis
+    if not names:
+        ax.text(0.5, 0.5, "nothing requested or observable in this range", transform=ax.transAxes,
+                ha="center", va="center", fontsize=9, color="0.35")
     ax.grid(axis="x", color=COLOURS["grid"], lw=0.5)
     ax.xaxis.set_major_locator(mdates.AutoDateLocator(minticks=4, maxticks=12))
     ax.xaxis.set_major_formatter(mdates.DateFormatter("%Y-%m-%d"))

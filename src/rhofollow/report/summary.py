@@ -11,7 +11,8 @@ import html
 from rhofollow.stages.records import CAUTION
 from rhofollow.io.safety import md_text
 
-__all__ = ["assumptions", "CAUTIONS", "ranked_table", "first_night_table", "markdown_summary", "html_summary"]
+__all__ = ["assumptions", "CAUTIONS", "ranked_table", "first_night_table", "markdown_summary", "html_summary",
+           "proposal_entries"]
 
 #: Cautions every report carries.
 CAUTIONS = [
@@ -83,6 +84,81 @@ def ranked_table(doc: dict, top: int | None = None) -> tuple[list[str], list[lis
     return head, rows[:top] if top else rows
 
 
+_MONTHS = ("January", "February", "March", "April", "May", "June", "July", "August", "September", "October",
+           "November", "December")
+
+
+def proposal_entries(doc: dict) -> list[dict]:
+    """One proposal paragraph per requested RV target, with the numbers it states.
+
+    Every number comes from the target's records in ``doc`` (``results.json``): the request
+    (``rv.request``: visits, hours, power), the visit cost (``rv.exposure_s``, ``rv.overheads``), the
+    placed visits (``campaign.rv_visits``: phases and nights), the assessment (``density_ratio``,
+    ``density_ratio_sigma``, ``p_ecc_gt_0p1``). Returns dicts ``{"name", "numbers", "text"}`` in rank
+    order; ``numbers`` holds the values as stated (before formatting).
+    """
+    out = []
+    fap = doc.get("fap", 0.01)
+    req_all = doc.get("rv_request") or {}
+    loss = req_all.get("loss_fraction")
+    inst = (doc.get("instruments") or {}).get("rv", "the spectrograph")
+    ranked = sorted((t for t in doc["targets"] if t.get("ok")), key=lambda t: (t.get("rank") is None, t.get("rank") or 0))
+    for t in ranked:
+        rv, camp = t.get("rv") or {}, t.get("campaign") or {}
+        req = rv.get("request") or {}
+        if not req.get("requested"):
+            continue
+        visits = camp.get("rv_visits") or []
+        phases = sorted(round(float(v["phase"]), 2) for v in visits if v.get("phase") is not None)
+        months = [_MONTHS[int(m) - 1] for m in sorted({v["night"][5:7] for v in visits if v.get("night")},
+                                                      key=lambda m: min(v["night"] for v in visits
+                                                                        if v["night"][5:7] == m))]
+        ov = rv.get("overheads") or {}
+        num = {"visits": int(req["visits"]), "hours": float(req["hours"]), "power": float(req["power"]),
+               "fap": float(fap), "visit_min": 60.0 * float(rv.get("visit_h") or 0.0),
+               "exposure_s": float(rv.get("exposure_s") or 0.0),
+               "overhead_min": float(ov.get("instrument_overhead_s", 0.0)) / 60.0,
+               "visits_placed": len(visits), "phases": phases, "months": months,
+               "density_ratio": (t.get("density_ratio") or {}).get("q50"),
+               "density_ratio_sigma": t.get("density_ratio_sigma"), "p_ecc_gt_0p1": t.get("p_ecc_gt_0p1"),
+               "expected_confirmations": float(req.get("expected_confirmations", 0.0)),
+               "loss_fraction": loss}
+        ph = ", ".join(f"{p:.2f}" for p in phases) if phases else "phases the schedule will fix"
+        when = f" in {', '.join(months)}" if months else ""
+        mism = ""
+        if num["density_ratio"] is not None:
+            mism = (f"The transit implies a circular-orbit stellar density {num['density_ratio']:.2f} times the "
+                    "independent one" + (f" ({num['density_ratio_sigma']:.1f}σ)" if num["density_ratio_sigma"]
+                                         is not None else "") + ", ")
+        pe = f"P(e > 0.1) = {num['p_ecc_gt_0p1']:.2f}" if num["p_ecc_gt_0p1"] is not None else ""
+        text = (f"{t['name']}: {num['visits']} RV visits of {num['visit_min']:.0f} min on {inst} "
+                f"({num['exposure_s']:.0f} s exposure + {num['overhead_min']:.0f} min overhead; {num['hours']:.1f} h "
+                f"in total) at orbital phases {ph}{when} give {_an(100 * num['power'])} {100 * num['power']:.0f} % chance of confirming "
+                f"e > 0 at a false-alarm probability of {100 * fap:g} % (likelihood-ratio test simulated at the "
+                "epochs the site can observe"
+                + (f", {100 * loss:.0f} % of visits assumed lost" if loss is not None else "") + "). "
+                + (mism + pe + "." if mism or pe else "")
+                + f" Expected confirmed eccentric orbits: {num['expected_confirmations']:.2f}.")
+        out.append({"name": t["name"], "numbers": num, "text": text})
+    return out
+
+
+def _an(pct: float) -> str:
+    """'an' before a percentage read with a vowel sound (8, 11, 18, 80-89 ...), else 'a'."""
+    t = f"{pct:.0f}"
+    return "an" if t.startswith("8") or t in ("11", "18") else "a"
+
+
+def _proposal_total(doc: dict, entries: list[dict]) -> str:
+    req = doc.get("rv_request") or {}
+    hrs = sum(e["numbers"]["hours"] for e in entries)
+    basis = (f"within the budget of {', '.join(f'{k} {v:g} h' for k, v in req.get('budgets_h', {}).items())}"
+             if req.get("basis") == "budget" else
+             f"targets giving at least {req.get('min_gain_per_hour', 0):g} expected confirmations per hour")
+    return (f"Total RV request: {hrs:.1f} h for {len(entries)} target(s) ({basis}), overheads included, "
+            f"{sum(e['numbers']['expected_confirmations'] for e in entries):.2f} expected confirmed eccentric orbits.")
+
+
 def _local_hm(iso_utc: str, tz) -> tuple[str, str]:
     """('HH:MM', zone abbreviation) of an ISO UTC time in the time zone ``tz`` (a ZoneInfo)."""
     import datetime as dt
@@ -142,6 +218,13 @@ def markdown_summary(doc: dict, figures: dict[str, list[str]], night: dict | Non
     if tot:
         lines += ["Hours to request (blocks + overheads): " + ", ".join(f"{k} {v:.1f} h" for k, v in tot.items()),
                   ""]
+    prop = proposal_entries(doc)
+    if prop:
+        lines += ["## RV request: the case per target", ""] + [e(p["text"]) + "\n" for p in prop] + \
+            [e(_proposal_total(doc, prop)), ""]
+    nreq = (doc.get("rv_request") or {}).get("not_requested") or []
+    if nreq:
+        lines += ["Not requested:", ""] + [f"- {e(t['name'])}: {e(t['reason'])}" for t in nreq] + [""]
     if night is not None:
         lines += [f"## First night ({e(night.get('date'))})", ""]
         if night.get("blocks"):
@@ -188,6 +271,15 @@ def html_summary(doc: dict, figures: dict[str, list[tuple[str, bytes]]], night: 
     if tot:
         parts.append("<p>Hours to request (blocks + overheads): "
                      + e(", ".join(f"{k} {v:.1f} h" for k, v in tot.items())) + "</p>")
+    prop = proposal_entries(doc)
+    if prop:
+        parts.append("<h2>RV request: the case per target</h2>")
+        parts += [f"<p>{e(p['text'])}</p>" for p in prop]
+        parts.append(f"<p><b>{e(_proposal_total(doc, prop))}</b></p>")
+    nreq = (doc.get("rv_request") or {}).get("not_requested") or []
+    if nreq:
+        parts.append("<p>Not requested:</p><ul>" + "".join(f"<li>{e(t['name'])}: {e(t['reason'])}</li>"
+                                                           for t in nreq) + "</ul>")
     if night is not None:
         parts.append(f"<h2>First night ({e(str(night.get('date')))})</h2>")
         if night.get("blocks"):

@@ -136,7 +136,8 @@ def results_document(result, ranking: dict, assumptions: list[str], cautions: li
         "prior_description": result.stages.prior.description, "transit_weight": opts.transit_weight,
         "coverage": opts.coverage, "fap": opts.fap, "power": opts.power,
         "instruments": result.stages.instruments, "priority_rule": PRIORITY_RULE,
-        "hours_total": result.campaign.get("hours_total", {}), "assumptions": assumptions,
+        "hours_total": result.campaign.get("hours_total", {}), "rv_request": result.campaign.get("rv_request"),
+        "assumptions": assumptions,
         "cautions": cautions, "notices": result.stages.notices})
 
 

@@ -19,7 +19,7 @@ import numpy as np
 
 from rhofollow.io.instruments import Spectrograph
 from rhofollow.io.rvdata import RVData
-from rhofollow.physics import rvconfirm, rvnoise, rvupdate
+from rhofollow.physics import rvconfirm, rvnoise, rvreach, rvupdate
 from rhofollow.physics.constants import G_SI, M_SUN_KG, R_EARTH_M, R_SUN_M
 from rhofollow.physics.massradius import draw_planet_mass
 from rhofollow.physics.rv import semi_amplitude
@@ -96,11 +96,14 @@ def rv_record(s: SampleSet, instrument: Spectrograph, rv_data: RVData | None = N
         rec["jitter_ms"] = float(rvnoise.stellar_jitter(teff, logg))
         rec["jitter_source"] = f"default for Teff {teff:.0f} K, log g {logg:.2f}"
     inst = instrument
-    texp = float(rvnoise.default_exposure(vmag, rec["jitter_ms"], inst.precision_ref_ms, inst.vmag_ref,
-                                          inst.exposure_ref_s, inst.floor_ms, inst.exposure_min_s,
-                                          inst.exposure_max_s))
+    # exposure per visit: fewest hours to the power on the Fisher estimate, within the instrument's
+    # exposure limits (physics/rvreach.py); a large K gets a short exposure
+    pick = rvreach.choose_exposure_uniform(s.e, s.omega, k, w, vmag, rec["jitter_ms"], inst, fap=fap,
+                                           power=power, seed=_rng(seed, s.name, "exposure"))
+    texp = pick["exposure_s"]
     sigma = float(rvnoise.epoch_precision(vmag, texp, inst.precision_ref_ms, inst.vmag_ref,
                                           inst.exposure_ref_s, inst.floor_ms, rec["jitter_ms"]))
+    rec["exposure_reason"] = pick["reason"].replace("reachable epochs", "uniform phases")
     rec["exposure_s"] = round(texp, 1)
     rec["sigma_rv_ms"] = sigma
     rec["visit_h"] = float(rvnoise.hours_needed(1, texp, inst.overhead_s))

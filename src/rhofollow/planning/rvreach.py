@@ -1,0 +1,188 @@
+"""RV time-to-confirm at the epochs the site can observe in the date range, with the exposure per
+visit chosen from the instrument's precision model and the overheads itemised once.
+
+:func:`reachable_rv` takes the RV records of :func:`rhofollow.stages.rv.plan_rv` (uniform-phase
+answer), the posterior samples, the campaign's per-night visibility (:class:`.campaign.NightVis`)
+and the site's loss fraction, and rewrites each record's planning keys in place:
+
+``exposure_s, sigma_rv_ms, visit_h, overheads (itemised per visit), n_epochs_confirm_ecc (visits to
+request), hours_confirm_ecc, power_at_n`` and ``confirm_reachable`` = ``{"phase_model":
+"reachable", "n_nights_reachable", "loss_fraction", "power_curve": [{"n", "power"}], "visits",
+"hours", "power_target", "confirmable", "exposure_reason"}``. The uniform-phase numbers stay under
+``uniform_phase`` (``n_epochs_confirm_ecc``, ``hours_confirm_ecc``, ``exposure_s``).
+
+Visit cost, itemised once (:func:`visit_overheads`): exposure + the spectrograph's
+``overhead_min`` (pointing/slew, acquisition, read-out: the instrument file's own definition). The
+site's ``slew_minutes`` and ``setup_minutes`` are *not* added again to an RV visit: they stay the
+gap the scheduler keeps between consecutive blocks and count in the hours of occultation blocks,
+which have no pointing overhead of their own.
+
+Observatory safety limits and site operations rules override any plan made from these numbers.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from rhofollow.physics import rvreach
+from rhofollow.planning.tasks import rv_task
+
+__all__ = ["visit_overheads", "night_phases", "epoch_pool", "reachable_rv", "DEFAULT_LOSS_FRACTION"]
+
+#: Loss fraction used when the site file gives none (weather and technical losses; common
+#: practice, no source): see ``[overheads] loss_fraction`` in :mod:`.site`.
+from rhofollow.planning.site import DEFAULT_LOSS_FRACTION  # noqa: E402
+
+_MAX_POSTERIOR = 1000   # posterior draws used per target (weighted resampling)
+_MAX_PHASES = 400       # reachable phases used in the Fisher exposure choice
+
+
+def visit_overheads(exposure_s: float, inst) -> dict:
+    """Itemised cost of one RV visit (seconds and hours): ``exposure_s``, ``instrument_overhead_s``
+    (the spectrograph's pointing, acquisition and read-out), ``site_slew_setup_s`` (0: covered by the
+    instrument overhead) and ``visit_h`` = their sum / 3600."""
+    o = float(inst.overhead_s)
+    return {"exposure_s": round(float(exposure_s), 1), "instrument_overhead_s": o, "site_slew_setup_s": 0.0,
+            "visit_h": (float(exposure_s) + o) / 3600.0}
+
+
+def night_phases(night, name: str, visit_h: float, t0_bjd: float, period_d: float,
+                 bjd_minus_jd: float, step_h: float) -> np.ndarray:
+    """Orbital phases (0..1, of the visit middle) of the candidate visit starts of one night.
+
+    The candidates are those the campaign would consider: the starts of
+    :func:`rhofollow.planning.tasks.rv_task` inside the night's limits (every grid point of the
+    visit observable).
+    """
+    rec = {"name": name, "n_epochs_confirm_ecc": 1, "visit_h": visit_h, "best_phases": []}
+    from rhofollow.planning.tasks import ValueModel
+
+    task, _ = rv_task(rec, 1.0, night.vis, t0_bjd, period_d, bjd_minus_jd, 0, ValueModel(step_h=step_h))
+    if task is None:
+        return np.zeros(0)
+    h0, h1 = night.vis.hours(night.start_jd), night.vis.hours(night.end_jd)
+    st = task.starts()
+    st = st[(st >= h0 - 1e-9) & (st + task.duration <= h1 + 1e-9)]
+    mid = night.vis.t_jd[0] + (st + 0.5 * visit_h) / 24.0
+    return ((mid + bjd_minus_jd - t0_bjd) / period_d) % 1.0
+
+
+def epoch_pool(nights, entry: dict, visit_h: float, step_h: float = 1.0 / 6.0) -> rvreach.EpochPool:
+    """The reachable epochs of one science entry (``name, t0_bjd, period_d, bjd_minus_jd``)."""
+    return rvreach.EpochPool([night_phases(n, entry["name"], visit_h, entry["t0_bjd"], entry["period_d"],
+                                           entry.get("bjd_minus_jd", 0.0), step_h) for n in nights])
+
+
+def _subsample(s, k, seed, name):
+    from rhofollow.stages.rv import _rng
+
+    rng = _rng(seed, name, "reach-sub")
+    n = min(_MAX_POSTERIOR, s.n)
+    w = s.weights / s.weights.sum()
+    cw = np.cumsum(w)
+    cw[-1] = 1.0
+    idx = np.searchsorted(cw, (rng.random() + np.arange(n)) / n)
+    return s.e[idx], s.omega[idx], np.asarray(k)[idx]
+
+
+def reachable_rv(assessments, science: list[dict], nights, inst, *, loss_fraction: float,
+                 fap: float = 0.01, power: float = 0.8, seed: int = 0, n_alt: int = 400, n_null: int = 2000,
+                 relation: str = "auto", progress=None) -> None:
+    """Time-to-confirm at reachable epochs for every science entry with an RV record (in place).
+
+    Parameters
+    ----------
+    assessments : objects with ``name`` and ``samples`` (:class:`rhofollow.core.samples.SampleSet`)
+    science : science dicts (:func:`rhofollow.planning.night.science_from_records`); their ``rv``
+        records are updated (the same dicts as the RV stage's records)
+    nights : list of :class:`rhofollow.planning.campaign.NightVis` (the date range)
+    inst : the spectrograph (:class:`rhofollow.io.instruments.Spectrograph`)
+    loss_fraction : probability that a requested visit is lost (site file)
+    fap, power : the test's false-alarm probability and the power wanted
+    seed : run seed (per-target draws depend on seed and name only)
+    n_alt, n_null : simulated data sets per visit count
+    relation : mass-radius relation (the RV stage's)
+    progress : optional callable, once per target
+    """
+    from rhofollow.stages.rv import _rng, planet_mass_and_k
+
+    samples = {a.name: a.samples for a in assessments if getattr(a, "samples", None) is not None}
+    for entry in science:
+        rec = entry.get("rv")
+        s = samples.get(entry["name"])
+        if rec and rec.get("ok", True) and s is not None and "sigma_rv_ms" in rec \
+                and np.isfinite(entry.get("period_d", np.nan)) and np.isfinite(entry.get("t0_bjd", np.nan)):
+            try:
+                _one(rec, entry, s, nights, inst, loss_fraction, fap, power, seed, n_alt, n_null, relation,
+                     _rng, planet_mass_and_k)
+            except Exception as exc:  # noqa: BLE001 - one target's failure stays with that target
+                rec.setdefault("warnings", []).append(
+                    f"time-to-confirm at reachable epochs failed ({type(exc).__name__}: {exc}); "
+                    "the uniform-phase answer is kept")
+        if progress is not None:
+            progress()
+
+
+def _one(rec, entry, s, nights, inst, loss, fap, power, seed, n_alt, n_null, relation, _rng, mass_and_k):
+    name = entry["name"]
+    _mp, k, _used = mass_and_k(s, _rng(seed, name, "mass"), relation)
+    e, om, kk = _subsample(s, k, seed, name)
+    vmag = float(s.meta.get("vmag"))
+    rec.setdefault("uniform_phase", {key: rec.get(key) for key in ("n_epochs_confirm_ecc", "hours_confirm_ecc",
+                                                          "exposure_s", "sigma_rv_ms", "visit_h", "power_at_n")})
+    # exposure: fewest hours on the Fisher estimate at the reachable phases of the shortest visit
+    short = visit_overheads(inst.exposure_min_s, inst)["visit_h"]
+    pool0 = epoch_pool(nights, entry, short)
+    if pool0.n_nights == 0:
+        _not_confirmable(rec, 0, loss, power, "not observable for an RV visit on any night of the range")
+        return
+    ph = pool0.phases
+    if ph.size > _MAX_PHASES:
+        ph = ph[np.linspace(0, ph.size - 1, _MAX_PHASES).astype(int)]
+    lam = rvreach.fisher_noncentrality_at(e, om, kk, ph)
+    pick = rvreach.choose_exposure(lam, None, vmag, rec["jitter_ms"], inst, n_cap=pool0.n_nights, loss=loss,
+                                   fap=fap, power=power)
+    cost = visit_overheads(pick["exposure_s"], inst)
+    pool = epoch_pool(nights, entry, cost["visit_h"])
+    rec.update(exposure_s=cost["exposure_s"], sigma_rv_ms=pick["sigma_ms"], visit_h=cost["visit_h"],
+               overheads=cost)
+    m = pool.n_nights
+    if m < rvreach.N_MIN:
+        _not_confirmable(rec, m, loss, power, f"only {m} night(s) of the range allow a visit "
+                         f"(at least {rvreach.N_MIN} visits are needed)")
+        rec["confirm_reachable"]["exposure_reason"] = pick["reason"]
+        return
+    curve = rvreach.power_curve_at_pool(e, om, kk, pick["sigma_ms"], pool, rvreach.visit_ladder(m), loss=loss,
+                                        fap=fap, seed=_rng(seed, name, "reach-lrt"), n_alt=n_alt, n_null=n_null)
+    n = rvreach.visits_for_power(curve, power)
+    pts = [{"n": a, "power": round(b, 4)} for a, b in zip(curve["n"], curve["power"])]
+    hours = None if n is None else n * cost["visit_h"]
+    rec["confirm_reachable"] = {
+        "phase_model": "reachable", "n_nights_reachable": m, "loss_fraction": loss, "power_target": power,
+        "power_curve": pts, "visits": n, "hours": hours, "confirmable": n is not None,
+        "exposure_reason": pick["reason"], "n_fisher": pick["n_fisher"]}
+    rec["n_epochs_confirm_ecc"] = n
+    rec["hours_confirm_ecc"] = hours
+    i = curve["n"].index(n) if n is not None else len(curve["n"]) - 1
+    rec["power_at_n"] = curve["power"][i]
+    rec["lrt_threshold"] = curve["threshold"][i]
+    if n is None:
+        rec["confirm_reachable"]["note"] = (
+            f"not confirmable in this range: {m} reachable visits give power {curve['power'][-1]:.2f} "
+            f"< {power:.2f}")
+        _warn(rec, rec["confirm_reachable"]["note"])
+
+
+def _not_confirmable(rec, m, loss, power, why):
+    rec["confirm_reachable"] = {"phase_model": "reachable", "n_nights_reachable": m, "loss_fraction": loss,
+                                "power_target": power, "power_curve": [], "visits": None, "hours": None,
+                                "confirmable": False, "note": f"not confirmable in this range: {why}"}
+    rec["n_epochs_confirm_ecc"] = None
+    rec["hours_confirm_ecc"] = None
+    rec["power_at_n"] = 0.0
+    _warn(rec, rec["confirm_reachable"]["note"])
+
+
+def _warn(rec, text):
+    ws = rec.setdefault("warnings", [])
+    if text not in ws:
+        ws.append(text)
