@@ -21,7 +21,7 @@ def register(subparsers):
     p.add_argument("--site", metavar="FILE", required=True, help="site file (TOML)")
     p.add_argument("--date", metavar="YYYY-MM-DD",
                    help="local date of the evening (default: the coming night at the site)")
-    p.add_argument("--plot", metavar="PNG", help="write an altitude chart with the chosen blocks")
+    p.add_argument("--plot", metavar="PNG", help="write the night's schedule chart (blocks on a timeline, altitudes beneath)")
     add_json_option(p)
     add_plan_options(p)
     p.set_defaults(func=run)
