@@ -1,0 +1,64 @@
+"""Shared pieces of the report figures: palette, colour maps, the pyplot handle, quantile text, site helpers."""
+from __future__ import annotations
+
+import numpy as np
+
+
+#: Our palette: circular-orbit quantities warm, the independent star cool, plans green.
+COLOURS = {"circ": "#c0603a", "star": "#2f6f8f", "ecc": "#2f6f8f", "plan": "#4f7d2c",
+           "occ": "#b5532f", "rv": "#2a7f86", "ink": "#222222", "grid": "#d9d9d9"}
+
+_PROB_STOPS = ["#f6f1e4", "#d9e8c9", "#8cc5b0", "#3f8f9f", "#2d4f7c", "#24153f"]
+
+
+def highest_altitude_deg(dec_deg, latitude_deg):
+    """Geometric altitude (deg) of a target at upper culmination: 90 - |latitude - declination|.
+
+    Common practice, no source (spherical astronomy of the meridian transit). NaN in, NaN out.
+    """
+    return 90.0 - np.abs(np.asarray(latitude_deg, float) - np.asarray(dec_deg, float))
+
+
+def rises_at_site(dec_deg, site) -> bool:
+    """False when the target never climbs above the site's altitude limit (per-target plots skip it);
+    True when it does or when its declination is unknown."""
+    if dec_deg is None:
+        return True
+    h = float(highest_altitude_deg(dec_deg, site.latitude_deg))
+    return not (np.isfinite(h) and h < site.constraints.min_altitude_deg)
+
+
+def _plt():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    return plt
+
+
+def evidence_cmap():
+    """Sequential colour scale of P(e > 0.1): pale sand (0) through sea green to deep indigo (1)."""
+    from matplotlib.colors import LinearSegmentedColormap
+
+    return LinearSegmentedColormap.from_list("rhofollow_evidence", _PROB_STOPS)
+
+
+def ecc_cmap():
+    """Sequential scale for posterior density maps (white for empty cells)."""
+    from matplotlib.colors import LinearSegmentedColormap
+
+    return LinearSegmentedColormap.from_list("rhofollow_density", ["#ffffff"] + _PROB_STOPS[1:])
+
+
+def _q(d, key="q50"):
+    if not d:
+        return np.nan
+    v = d.get(key)
+    return np.nan if v is None else float(v)
+
+
+def _fmt_q(d, nd=2):
+    if not d or d.get("q50") is None:
+        return "n/a"
+    return f"{d['q50']:.{nd}f} (68%: {d['q16']:.{nd}f}-{d['q84']:.{nd}f})"

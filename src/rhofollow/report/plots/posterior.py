@@ -1,0 +1,176 @@
+"""The (e, omega) posterior of one target, with the uniform-prior interval and prior-driven bounds."""
+from __future__ import annotations
+
+import numpy as np
+
+from rhofollow.report.plots.common import COLOURS, _plt, ecc_cmap
+
+
+# ---------------------------------------------------------------------------------------------
+# (e, omega) posterior
+
+def _uniform_marginal(samples, record):
+    """Weights of the samples re-weighted to the uniform e prior (None for a measured orbit or an
+    unknown prior): the same re-weighting as the record's ``ecc_uniform_prior``."""
+    from rhofollow.physics.priors import parse_prior, reweight_to_prior
+
+    if not record or record.get("orbit_measured") or not record.get("ecc_uniform_prior"):
+        return None
+    try:
+        prior = parse_prior(record.get("prior") or samples.meta.get("prior"))
+    except ValueError:
+        return None
+    return reweight_to_prior(samples.e, samples.weights, prior, parse_prior("uniform"))
+
+
+def ecc_omega_figure(samples, record: dict | None = None):
+    """2-D weighted histogram of (omega, e) with both marginals.
+
+    The e marginal (right) also shows the e marginal re-weighted to a uniform e prior (outline) and
+    the 95 % intervals under the run's prior and under the uniform one (bars at the right edge); a
+    bound the prior sets (``record['ecc_bounds']``) carries a dagger, as in the terminal table.
+    ``ecc_min`` (the smallest e giving the median density ratio) is a dashed line named in the key
+    below the axes, so no label covers the posterior.
+    """
+    plt = _plt()
+    from matplotlib.gridspec import GridSpec
+    from matplotlib.lines import Line2D
+
+    rec = record or {}
+    om = np.degrees(np.mod(samples.omega, 2 * np.pi))
+    e, w = samples.e, samples.weights
+    wu = _uniform_marginal(samples, rec)
+    top_e = float(np.quantile(e, 0.999))
+    uq = rec.get("ecc_uniform_prior") or {}
+    if uq.get("q975") is not None:
+        top_e = max(top_e, float(uq["q975"]))
+    emax = min(1.0, max(0.2, top_e * 1.15))
+    fig = plt.figure(figsize=(7.6, 7.0))
+    gs = GridSpec(2, 3, width_ratios=[4, 1.5, 0.18], height_ratios=[1.1, 4], hspace=0.05, wspace=0.05,
+                  figure=fig)
+    ax = fig.add_subplot(gs[1, 0])
+    axt = fig.add_subplot(gs[0, 0], sharex=ax)
+    axr = fig.add_subplot(gs[1, 1], sharey=ax)
+    cax = fig.add_subplot(gs[1, 2])
+    h, xe, ye = np.histogram2d(om, e, bins=[72, 50], range=[[0, 360], [0, emax]], weights=w)
+    h = h / (h.sum() * np.diff(xe)[0] * np.diff(ye)[0])
+    mesh = ax.pcolormesh(xe, ye, h.T, cmap=ecc_cmap(), shading="flat", rasterized=True)
+    cb = fig.colorbar(mesh, cax=cax)
+    cb.set_label("posterior density (per degree per unit e)", fontsize=8)
+    cb.ax.tick_params(labelsize=7)
+    axt.hist(om, bins=72, range=(0, 360), weights=w, color=COLOURS["ecc"], alpha=0.75, histtype="stepfilled")
+    dens, _, _ = axr.hist(e, bins=50, range=(0, emax), weights=w, density=True, orientation="horizontal",
+                          color=COLOURS["ecc"], alpha=0.75, histtype="stepfilled")
+    peak = float(np.max(dens)) if dens.size else 1.0
+    handles = []
+    if wu is not None:
+        du, _, _ = axr.hist(e, bins=50, range=(0, emax), weights=wu, density=True, orientation="horizontal",
+                            histtype="step", color="0.2", lw=1.1, ls="-")
+        peak = max(peak, float(np.max(du)))
+        ess_u = rec.get("ess_uniform_prior")
+        handles.append(Line2D([], [], color="0.2", lw=1.1, label="e marginal re-weighted to a uniform e prior"
+                              + (f" (ESS {ess_u:.0f})" if ess_u is not None else "")))
+    # interval bars at the right edge of the e marginal, clear of the histograms
+    axr.set_xlim(0, peak * 1.55)
+    bounds = rec.get("ecc_bounds") or {}
+    eq = samples.quantiles("e")
+    prior_name = rec.get("prior") or samples.meta.get("prior") or "run's prior"
+    first = ("95 % interval of e (the measured orbit)" if rec.get("orbit_measured")
+             else f"95 % interval of e, {prior_name} prior (the run's)")
+    bars = [(eq, COLOURS["ecc"], 1.22, first, True)]
+    if uq.get("q025") is not None:
+        bars.append((uq, "0.45", 1.42, "95 % interval of e, uniform prior (same samples re-weighted)", False))
+    for q, colour, x, label, mark in bars:
+        xx = peak * x
+        axr.plot([xx, xx], [q["q025"], q["q975"]], color=colour, lw=4, solid_capstyle="butt")
+        axr.plot(xx, q["q50"], "o", color="white", mec=colour, ms=4.5)
+        handles.append(Line2D([], [], color=colour, lw=4, label=label))
+        if mark:
+            for side, key in (("lower", "q025"), ("upper", "q975")):
+                if bounds.get(side) == "prior":
+                    axr.text(xx + 0.06 * peak, q[key], "†", color="#b00020", fontsize=11, va="center",
+                             ha="left", fontweight="bold")
+    driven = [side for side in ("lower", "upper") if bounds.get(side) == "prior"]
+    if driven:
+        handles.append(Line2D([], [], ls="", marker="$†$", color="#b00020", ms=8,
+                              label=f"{' and '.join(driven)} bound set by the prior (moves > "
+                                    f"{_prior_delta():g} in e under a uniform prior)"))
+    emin = rec.get("ecc_min")
+    if emin is not None and np.isfinite(emin):
+        for a in (ax, axr):
+            a.axhline(emin, color=COLOURS["circ"], ls="--", lw=1.3)
+        handles.insert(0, Line2D([], [], color=COLOURS["circ"], ls="--", lw=1.3,
+                                 label=f"e_min = {emin:.2f}: smallest e giving the median density ratio"))
+    for v, lab in ((90, "transit at periastron"), (270, "transit at apastron")):
+        ax.axvline(v, color="0.45", lw=0.7, ls=":")
+        ax.text(v + 2, emax * 0.97, lab, fontsize=7, color="0.35", va="top", rotation=90)
+    ax.set_xlim(0, 360)
+    ax.set_ylim(0, emax)
+    ax.set_xticks(range(0, 361, 45))
+    ax.set_xlabel("ω, argument of periastron of the star (deg; transit at true anomaly 90° − ω)")
+    ax.set_ylabel("eccentricity e")
+    axt.set_ylabel("P(ω)", fontsize=8)
+    axr.set_xlabel("P(e)", fontsize=8)
+    plt.setp(axt.get_xticklabels(), visible=False)
+    plt.setp(axr.get_yticklabels(), visible=False)
+    axt.set_yticks([])
+    axr.set_xticks([])
+    p01 = float(np.sum(w[e > 0.1]))
+    p0 = rec.get("p_ecc_gt_0p1_prior")
+    line2 = (f"e = {eq['q50']:.2f} (95 %: {eq['q025']:.2f}–{eq['q975']:.2f})"
+             + (f"; uniform prior: {uq['q025']:.2f}–{uq['q975']:.2f}" if uq.get("q025") is not None else "")
+             + (";  measured orbit" if rec.get("orbit_measured") else "")
+             + f";  P(e > 0.1) = {p01:.2f}" + (f" (prior {p0:.2f})" if p0 is not None else "")
+             + f";  ESS {samples.ess:.0f}")
+    fig.suptitle(_title_lines(f"{samples.name}: eccentricity posterior", fig) + "\n"
+                 + _title_lines(line2, fig, 9.0), fontsize=9.5)
+    fig.legend(handles=handles, loc="lower center", ncol=1, fontsize=7.5, frameon=False,
+               bbox_to_anchor=(0.5, 0.0))
+    n_lines = _title_lines(f"{samples.name}: eccentricity posterior", fig).count("\n") + 2
+    bottom = 0.085 + 0.024 * len(handles)
+    fig.subplots_adjust(left=0.1, right=0.9, top=max(0.6, 0.965 - 0.03 * n_lines), bottom=bottom)
+    return fig
+
+
+def _prior_delta() -> float:
+    from rhofollow.stages.assess import PRIOR_DRIVEN_DELTA
+
+    return PRIOR_DRIVEN_DELTA
+
+
+def _text_width_pt(text: str, fontsize: float) -> float:
+    """Rendered width of ``text`` in points at ``fontsize`` (matplotlib's own text metrics)."""
+    from matplotlib.font_manager import FontProperties
+    from matplotlib.textpath import TextToPath
+
+    w, _, _ = TextToPath().get_text_width_height_descent(text, FontProperties(size=fontsize), ismath=False)
+    return float(w)
+
+
+def _title_lines(text: str, fig, fontsize: float = 9.5, share: float = 0.94, max_lines: int = 5) -> str:
+    """``text`` folded into lines no wider than ``share`` of the figure, measured with matplotlib's
+    text metrics: words move to the next line, and a word (a long target name) wider than a line
+    breaks inside, so a title never runs off the figure whatever the name. Beyond ``max_lines``
+    lines the title ends in an ellipsis, so the axes keep their room (tight_layout stays
+    applicable)."""
+    limit = fig.get_figwidth() * 72 * share
+    lines, cur = [], ""
+    for word in text.split(" "):
+        trial = word if not cur else cur + " " + word
+        if _text_width_pt(trial, fontsize) <= limit:
+            cur = trial
+            continue
+        if cur:
+            lines.append(cur)
+        cur = ""
+        for ch in word:  # the word alone is too wide: break it where it must
+            if cur and _text_width_pt(cur + ch, fontsize) > limit:
+                lines.append(cur)
+                cur = ""
+            cur += ch
+    if cur:
+        lines.append(cur)
+    if len(lines) > max_lines:  # an absurdly long name: keep the layout, end the title visibly cut
+        lines = lines[:max_lines]
+        lines[-1] = lines[-1][:-1] + "…"
+    return "\n".join(lines)

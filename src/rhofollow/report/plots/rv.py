@@ -1,0 +1,167 @@
+"""RV curves of one target: model draws, K summary, planned visits and measured RVs."""
+from __future__ import annotations
+
+import numpy as np
+
+from rhofollow.core.defaults import DEFAULT_SEED
+from rhofollow.core.seeds import target_rng
+from rhofollow.report.plots.common import COLOURS, _plt
+from rhofollow.report.plots.posterior import _title_lines
+
+
+# ---------------------------------------------------------------------------------------------
+# RV curves
+
+def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = DEFAULT_SEED, k=None,
+                   weights=None):
+    """Posterior draws of the RV curve against phase from transit.
+
+    Returns ``(phase, eccentric (D, n_phase), circular (D, n_phase), k (D,))`` in m/s. K per sample
+    is ``k`` when given, else the K the RV record of this target uses: drawn from the planet mass
+    and the sample's e, i, M* and P (:func:`rhofollow.stages.rv.planet_mass_and_k`) with the record's
+    generator for (seed, target); ``weights`` replace the samples' weights.
+    """
+    from rhofollow.physics.rv import circular_shape, rv_shape
+
+    if k is None:
+        k, _ = record_k_draws(samples, seed)
+    rng = target_rng(seed, samples.name, "rv-model-draws")
+    w = samples.weights if weights is None else np.asarray(weights, float) / np.sum(weights)
+    cw = np.cumsum(w)
+    cw[-1] = 1.0
+    idx = np.searchsorted(cw, (rng.random() + np.arange(n_draws)) / n_draws)
+    ph = np.linspace(0.0, 1.0, n_phase)
+    e, om, kk = samples.e[idx], samples.omega[idx], np.asarray(k)[idx]
+    ecc = kk[:, None] * rv_shape(ph[None, :], e[:, None], om[:, None])
+    circ = kk[:, None] * circular_shape(ph)[None, :]
+    return ph, ecc, circ, kk
+
+
+def record_k_draws(samples, seed: int = DEFAULT_SEED, relation: str = "auto"):
+    """(K per sample in m/s, weights): the very draws behind the RV record's ``k_ms`` for this seed."""
+    from rhofollow.stages.rv import planet_mass_and_k
+
+    _, k, _ = planet_mass_and_k(samples, target_rng(seed, samples.name, "mass"), relation)
+    return k, samples.weights
+
+
+def _rv_update(samples, rv_data, jitter, seed, k_mode="marginal"):
+    """(weights, K per sample) of the posterior after the measured RVs (offsets free), drawn as the
+    RV record's update draws them (same generator, same K mode)."""
+    from rhofollow.physics.rvupdate import conditional_k, rv_log_likelihood
+
+    k_mass, _ = record_k_draws(samples, seed)
+    args = (rv_data.bjd_tdb, rv_data.rv_ms, rv_data.rv_err_ms, rv_data.groups(), samples.period,
+            samples.t0, samples.e, samples.omega)
+    post = samples.reweighted(rv_log_likelihood(*args, k_ms=k_mass if k_mode == "mass" else None,
+                                                jitter_ms=jitter))
+    if k_mode == "mass":
+        return post.weights, k_mass
+    k = conditional_k(*args, jitter_ms=jitter, rng=target_rng(seed, samples.name, "kcond"))
+    return post.weights, k
+
+
+def k_summary(rv_record: dict | None, k=None, weights=None) -> tuple[float, dict | None, str]:
+    """The K summary every report shows: ``(K, quantiles, which)`` in m/s.
+
+    K is the posterior-weighted median of K over the samples as the RV record reports it:
+    ``k_updated_ms["q50"]`` after measured RVs, else ``k_ms["q50"]``. Only without a record is it
+    computed, the same way, from the draws ``k`` with ``weights``.
+    """
+    from rhofollow.core.samples import quantile_dict
+
+    rec = rv_record or {}
+    for key, which in (("k_updated_ms", "after the measured RVs"), ("k_ms", "before any RV")):
+        q = rec.get(key)
+        if q and q.get("q50") is not None:
+            return float(q["q50"]), q, which
+    if k is None:
+        return float("nan"), None, "unknown"
+    q = quantile_dict(np.asarray(k, float), weights)
+    return q["q50"], q, "from the samples"
+
+
+def rv_figure(samples, rv_record: dict | None, visits: list | None = None, night_phases: list | None = None,
+              rv_data=None, seed: int = DEFAULT_SEED):
+    """Predicted RV curves (posterior draws), circular vs eccentric, with the informative phases,
+    the planned visits (campaign: triangles, first night: star) and measured RVs when given.
+
+    With measured RVs the draws come from the posterior updated by them (K and one offset per
+    instrument free); the points are shown with the offsets of the median curve removed.
+    """
+    plt = _plt()
+    rec = rv_record or {}
+    k = w = None
+    if rv_data is not None:
+        w, k = _rv_update(samples, rv_data, float(rec.get("jitter_ms") or 0.0), seed,
+                          rec.get("k_mode", "marginal"))
+        if not np.all(np.isfinite(w)) or w.sum() <= 0:
+            k = w = None
+    ph, ecc, circ, kk = rv_model_draws(samples, seed=seed, k=k, weights=w)
+    fig, ax = plt.subplots(figsize=(8.6, 5.4))
+    for row in ecc:
+        ax.plot(ph, row, color=COLOURS["ecc"], lw=0.8, alpha=0.2)
+    from rhofollow.physics.rv import circular_shape
+
+    if k is None:
+        k, w_k = record_k_draws(samples, seed)
+    else:
+        w_k = w
+    if w is not None and not rec.get("k_updated_ms"):
+        # the record carries no update: summarise the update's draws the same way
+        kmed, kq, _ = k_summary({}, k, w_k)
+        which = "after the measured RVs"
+    else:
+        kmed, kq, which = k_summary(rec, k, w_k)
+    rng68 = f"; 68 %: {kq['q16']:.0f}-{kq['q84']:.0f} m/s" if kq else ""
+    ax.plot(ph, kmed * circular_shape(ph), color=COLOURS["circ"], lw=2.2, ls="--", gid="circular-k",
+            label=f"circular orbit, K = {kmed:.1f} m/s (posterior-weighted median {which}{rng68})")
+    what = "updated by the measured RVs" if w is not None else "before any RV"
+    ax.plot([], [], color=COLOURS["ecc"], lw=1.5, alpha=0.6,
+            label=f"eccentric posterior, {what} ({ecc.shape[0]} draws)")
+    for j, p in enumerate(rec.get("best_phases") or []):
+        ax.axvline(p, color=COLOURS["plan"], lw=1.2, alpha=0.9, ls="-.",
+                   label="most informative phases" if j == 0 else None)
+    # y range: most draws, not the extreme ones (a broad mass prior has a long tail of large K)
+    ymax = float(np.quantile(np.max(np.abs(ecc), axis=1), 0.85)) * 1.25 if ecc.size else 1.0
+    if rv_data is not None:
+        t0 = float(np.sum(samples.weights * samples.t0))
+        per = float(np.sum(samples.weights * samples.period))
+        phase = np.mod((rv_data.bjd_tdb - t0) / per, 1.0)
+        model = np.interp(phase, ph, np.median(ecc, axis=0))
+        g = rv_data.groups()
+        v = np.array(rv_data.rv_ms, dtype=float)
+        err = np.array(rv_data.rv_err_ms, dtype=float)
+        for gi in np.unique(g):
+            m = g == gi
+            wt = 1.0 / err[m] ** 2
+            v[m] = v[m] - np.sum(wt * (v[m] - model[m])) / np.sum(wt)
+        ax.errorbar(phase, v, yerr=err, fmt="o", color="black", ms=4, lw=1, capsize=2,
+                    label=f"measured RVs ({rv_data.n}), instrument offsets removed")
+        ymax = max(ymax, float(np.max(np.abs(v) + err)) * 1.15)
+    n_out = int(np.sum(np.max(np.abs(ecc), axis=1) > ymax)) if ecc.size else 0
+    if n_out:
+        ax.text(0.99, 0.98, f"{n_out} of {ecc.shape[0]} draws run beyond the plotted range (large K)",
+                transform=ax.transAxes, ha="right", va="top", fontsize=7.5, color="0.35",
+                bbox={"fc": "white", "ec": "none", "alpha": 0.85, "pad": 1})
+    if visits:
+        vp = [v["phase"] for v in visits if v.get("phase") is not None]
+        ax.plot(vp, np.full(len(vp), -0.92 * ymax), "^", color=COLOURS["plan"], ms=8, mec="white",
+                label=f"campaign RV visits ({len(vp)}), at their phase")
+    if night_phases:
+        ax.plot(night_phases, np.full(len(night_phases), -0.92 * ymax), "*", color="#e0a100", ms=14,
+                mec="0.2", label="first night's RV block")
+    ax.set_xlim(0, 1)
+    ax.set_ylim(-ymax, ymax)
+    ax.axhline(0, color="0.6", lw=0.6)
+    ax.set_xlabel("orbital phase from mid-transit (0 = transit)")
+    ax.set_ylabel("stellar radial velocity (m/s)")
+    sub = ""
+    if rec.get("sigma_rv_ms") is not None:
+        n = rec.get("n_epochs_confirm_ecc")
+        sub = (f"; σ per visit {rec['sigma_rv_ms']:.1f} m/s, "
+               + (f"{n} visits confirm e > 0" if n else "e > 0 not confirmable with RVs"))
+    ax.set_title(_title_lines(f"{samples.name}: predicted RV curve{sub}", fig, 10, 0.85), fontsize=10)
+    ax.legend(fontsize=7.5, loc="upper center", bbox_to_anchor=(0.5, -0.13), ncol=2, frameon=False)
+    fig.tight_layout()
+    return fig
