@@ -299,3 +299,13 @@ def test_one_caution_text_everywhere():
 
     assert eclipses.CAUTION is rvplan.CAUTION is night.CAUTION is summary.CAUTIONS[0] is CAUTION
     assert "Sun avoidance" in CAUTION and "override" in CAUTION
+
+
+def test_plan_tables_show_prior_beside_posterior():
+    """The plan's tables show P(e > 0.1) under the prior alone beside the value after the data, and the
+    CSV carries both (issue: say how much the data moved the prior)."""
+    from rhofollow.report.summary import prior_post_text
+
+    assert prior_post_text({"p_ecc_gt_0p1": 0.981, "p_ecc_gt_0p1_prior": 0.704}) == "0.70→0.98"
+    assert prior_post_text({"p_ecc_gt_0p1": 0.5}) == "0.50"
+    assert prior_post_text({}) == "–"

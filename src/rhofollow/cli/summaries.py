@@ -10,6 +10,7 @@ from __future__ import annotations
 from pathlib import Path
 
 from rhofollow.cli.common import console
+from rhofollow.report.summary import prior_post_text
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["print_planner_messages", "summary_table", "print_plan_summary", "rv_request_lines"]
@@ -51,7 +52,7 @@ def summary_table(doc: dict, width: int = 80, top: int | None = 8) -> FittedTabl
     by_name = {t["name"]: t for t in doc["targets"]}
     cols = [Col("rank"), Col("target", justify="left"), Col("priority"),
             Col("tie-break:\nmismatch σ", what="mismatch (tie-break)"),
-            Col("P(e>0.1)", drop=4), Col("e\nmedian", what="e median", drop=3),
+            Col("P(e>0.1)\nprior→data", what="P(e>0.1)", drop=4), Col("e\nmedian", what="e median", drop=3),
             Col("favoured", justify="left", drop=2), Col("occ.\nwindows"), Col("RV visits\nplaced"),
             Col("RV visits\nto confirm", drop=5, what="RV visits to confirm")]
     shown_t = [by_name[r[1]] for r in (_rows[:top] if top else _rows)]
@@ -64,7 +65,7 @@ def summary_table(doc: dict, width: int = 80, top: int | None = 8) -> FittedTabl
         e = (t.get("ecc") or {}).get("q50")
         rows.append([str(t["rank"]), t["name"] + (" ?" if t.get("reliable") is False else ""), f"{float(t.get('priority') or 0.0):.{nd}f}",
                      "—" if sig is None else f"{sig:.1f}σ",
-                     "—" if t.get("p_ecc_gt_0p1") is None else f"{t['p_ecc_gt_0p1']:.2f}",
+                     "—" if t.get("p_ecc_gt_0p1") is None else prior_post_text(t),
                      "—" if e is None else f"{e:.2f}", str(t.get("favoured", "—")).replace("_", " "),
                      str(len(c.get("occultation_windows", []))), str(len(c.get("rv_visits", []))),
                      str(n) if n else ("not possible" if rv else "—")])

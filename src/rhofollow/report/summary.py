@@ -62,10 +62,18 @@ def _qtxt(q, nd=2):
     return f"{q['q50']:.{nd}f} [{q['q16']:.{nd}f}, {q['q84']:.{nd}f}]"
 
 
+def prior_post_text(t: dict) -> str:
+    """P(e > 0.1) under the prior alone → after the data (the posterior alone when no prior value)."""
+    post, prior = t.get("p_ecc_gt_0p1"), t.get("p_ecc_gt_0p1_prior")
+    if post is None:
+        return "–"
+    return f"{post:.2f}" if prior is None else f"{prior:.2f}→{post:.2f}"
+
+
 def ranked_table(doc: dict, top: int | None = None) -> tuple[list[str], list[list[str]]]:
     """(header, rows) of the ranked target table (assessed targets only, rank order)."""
     insts = list(doc.get("hours_total", {}))
-    head = ["rank", "target", "priority", "P(e>0.1)", "e [68%]", "ρ_circ/ρ* [68%]", "favoured",
+    head = ["rank", "target", "priority", "P(e>0.1) prior→data", "e [68%]", "ρ_circ/ρ* [68%]", "favoured",
             "P(occ)", "K m/s [68%]", "RV visits to confirm", "occ windows / RV visits at site"] + \
         [f"{i} h" for i in insts]
     rows = []
@@ -75,7 +83,7 @@ def ranked_table(doc: dict, top: int | None = None) -> tuple[list[str], list[lis
         rv, occ, c = t.get("rv") or {}, t.get("occultation") or {}, t.get("campaign") or {}
         n = rv.get("n_epochs_confirm_ecc")
         mark = "?" if t.get("reliable") is False else ""   # ?: unreliable (low ESS), ranked last
-        rows.append([str(t["rank"]), t["name"], _f(t.get("priority"), 3) + mark, _f(t.get("p_ecc_gt_0p1")),
+        rows.append([str(t["rank"]), t["name"], _f(t.get("priority"), 3) + mark, prior_post_text(t),
                      _qtxt(t.get("ecc")), _qtxt(t.get("density_ratio")), t.get("favoured", "–"),
                      _f(occ.get("p_occultation")), _qtxt(rv.get("k_ms"), 1),
                      str(n) if n else ("not confirmable" if rv else "–"),

@@ -162,6 +162,8 @@ def flat_rows(doc: dict, periods: dict | None = None) -> list[dict]:
         _q(t, "ecc", "ecc", row, tuple(QUANTILE_LEVELS))
         _q(t, "omega_deg", "omega_deg", row)
         row["p_ecc_gt_0p1"] = _num(t.get("p_ecc_gt_0p1"), math.nan)
+        row["p_ecc_gt_0p1_prior"] = _num(t.get("p_ecc_gt_0p1_prior"), math.nan)
+        row["ecc_data_weight"] = _num(t.get("ecc_data_weight"), math.nan)
         row["favoured"] = t.get("favoured", "")
         row["ess"] = _num(t.get("ess"), math.nan)
         o = t.get("occultation") or {}
