@@ -144,10 +144,15 @@ def _check_header(cols: list[str], n_rows: int, errs: _Issues) -> None:
 
 # ------------------------------------------------------------------------------- row checks
 
-def _number(errs: _Issues, i: int, row: dict, col: str, name: str, *, positive=False) -> float | None:
+def cell_number(errs, i: int, row: dict, col: str, name: str = "", *, required: bool = True,
+                positive: bool = False) -> float | None:
+    """The finite number in ``row[col]`` (``positive``: > 0), or None with the problem added to
+    ``errs`` (anything with ``add(row, column, reason, name)``); an empty cell is a problem only when
+    ``required``. Shared by the RV reader and the ledger's other file kinds (same wording)."""
     text = row.get(col, "")
     if text == "":
-        errs.add(i, col, "value is missing", name)
+        if required:
+            errs.add(i, col, "value is missing", name)
         return None
     try:
         v = float(text)
@@ -179,11 +184,11 @@ def _parse_row(errs: _Issues, i: int, row: dict, has_column: bool, default: str,
     """(row, target, time, rv, error, instrument) of a valid row, or None (issues added)."""
     name, who = _row_target(errs, i, row, has_column, default)
     n0 = len(errs.issues)
-    t = _number(errs, i, row, "bjd_tdb", who)
+    t = cell_number(errs, i, row, "bjd_tdb", who)
     if t is not None and not 2.0e6 < t < 3.0e6:
         errs.add(i, "bjd_tdb", f"{row['bjd_tdb']} is not a full BJD_TDB (expected ~2.4e6 days)", who)
-    v = _number(errs, i, row, "rv_ms", who)
-    err = _number(errs, i, row, "rv_err_ms", who, positive=True)
+    v = cell_number(errs, i, row, "rv_ms", who)
+    err = cell_number(errs, i, row, "rv_err_ms", who, positive=True)
     inst = row.get("instrument", "")
     if not inst:
         errs.add(i, "instrument", "value is missing", who)

@@ -18,7 +18,7 @@ from rhofollow.core.types import RowIssue, RVSeries
 from rhofollow.io.ledger.records import (OBSERVATION_KINDS, OBSERVATION_OUTCOMES, TIMING_KINDS,
                                          IngestError)
 from rhofollow.io.ledger.schema import KEYS, row_key
-from rhofollow.io.rvdata import RVDataError, read_rv_file
+from rhofollow.io.rvdata import RVDataError, cell_number, read_rv_file
 from rhofollow.io.safety import csv_unquote
 
 __all__ = ["RowErrors", "Rows", "sha256", "now_utc", "parse_rv", "parse_occultations",
@@ -96,23 +96,7 @@ def _read_csv(path: Path, required: tuple[str, ...], errs: RowErrors) -> list[tu
 
 
 def _num(errs, i, row, col, *, required=True, positive=False, name="") -> float | None:
-    text = row.get(col, "")
-    if text == "":
-        if required:
-            errs.add(i, col, "value is missing", name)
-        return None
-    try:
-        v = float(text)
-    except ValueError:
-        errs.add(i, col, f"'{text}' is not a number", name)
-        return None
-    if not math.isfinite(v):
-        errs.add(i, col, f"'{text}' is not a finite number", name)
-        return None
-    if positive and v <= 0:
-        errs.add(i, col, f"must be > 0, got {text}", name)
-        return None
-    return v
+    return cell_number(errs, i, row, col, name, required=required, positive=positive)
 
 
 def _utc(errs, i, row, col, *, required=True, name="") -> str | None:
