@@ -25,8 +25,9 @@ from rhofollow.physics import rvreach
 from rhofollow.physics.rv import circular_shape, rv_shape
 
 FAP = 0.05          # false-alarm probability (a larger FAP keeps the null quantile well sampled)
-N_BRUTE = 200       # brute-force data sets per target, alternative and null each
+N_BRUTE = 160       # brute-force data sets per target, alternative and null each
 E_CAP = 0.95        # eccentricities above this are clipped in the brute-force fit
+MAX_NFEV = 80       # function evaluations per start (a start that drifts to the cap stops there)
 
 
 def _targets():
@@ -59,7 +60,7 @@ def _delta_chi2(y, ph, starts):
     best = chi_c
     for e0, w0 in starts:
         p0 = [coef[0], coef[1], np.sqrt(e0) * np.cos(w0), np.sqrt(e0) * np.sin(w0)]
-        r = optimize.least_squares(resid, p0, method="lm")
+        r = optimize.least_squares(resid, p0, method="lm", max_nfev=MAX_NFEV)
         best = min(best, float(np.sum(r.fun ** 2)))
     return max(chi_c - best, 0.0)
 
