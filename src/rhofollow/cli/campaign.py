@@ -3,7 +3,7 @@ with the hours to request per instrument."""
 from __future__ import annotations
 
 from rhofollow.cli.common import UserError, add_json_option, add_plan_options, atomic_write_text, console, write_json
-from rhofollow.cli.options import MAX_NIGHTS, add_hours_option, load_site_arg, parse_hours
+from rhofollow.cli.options import add_hours_option, load_site_arg, night_range, parse_hours
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 from rhofollow.cli.runs import nothing_to_plan, prepare
 from rhofollow.cli.summaries import print_planner_messages, rv_request_lines
@@ -29,15 +29,6 @@ def register(subparsers):
     add_json_option(p)
     add_plan_options(p)
     p.set_defaults(func=run)
-
-
-def _date(s: str, opt: str):
-    import datetime as dt
-
-    try:
-        return dt.date.fromisoformat(s)
-    except ValueError:
-        raise UserError(f"{opt} must be YYYY-MM-DD, got {s!r}") from None
 
 
 def campaign_table(doc: dict, plan, site_name: str, start, end, n_nights: int, width: int = 80) -> FittedTable:
@@ -76,12 +67,7 @@ def run(args) -> int:
     from rhofollow.planning.tasks import jd_to_iso
     from rhofollow.planning.visibility import VisibilityEngine
 
-    start, end = _date(args.start, "--start"), _date(args.end, "--end")
-    if end < start:
-        raise UserError(f"--end {end} is before --start {start}")
-    n_nights = (end - start).days + 1
-    if n_nights > MAX_NIGHTS:
-        raise UserError(f"{n_nights} nights requested; at most {MAX_NIGHTS} (split the campaign)")
+    start, end = night_range(args.start, args.end)
     if args.samples < MIN_PLANNING_SAMPLES:
         raise UserError(f"--samples must be at least {MIN_PLANNING_SAMPLES}, got {args.samples}")
     site = load_site_arg(args.site)

@@ -16,7 +16,7 @@ from rhofollow.cli.common import UserError, add_seed_option
 from rhofollow.core.defaults import DEFAULT_SAMPLES, DEFAULT_SIMS, QUICK_SAMPLES, QUICK_SIMS
 
 __all__ = ["add_report_options", "load_site_arg", "demo_paths", "site_evening_date", "DEMO_DAYS",
-           "add_hours_option", "parse_hours", "MAX_NIGHTS"]
+           "add_hours_option", "parse_hours", "MAX_NIGHTS", "night_range"]
 
 #: Most nights one campaign (or one reachable-epoch RV estimate) may span; split longer ranges.
 MAX_NIGHTS = 400
@@ -132,3 +132,21 @@ def parse_hours(values, spectrographs) -> dict | None:
             raise UserError(f"--hours {v!r}: {name} given twice")
         out[name] = hours
     return out
+
+
+def night_range(start_text: str, end_text: str) -> tuple[dt.date, dt.date]:
+    """``--start`` and ``--end`` as dates (YYYY-MM-DD), in order, spanning at most :data:`MAX_NIGHTS`
+    evenings; a :class:`UserError` naming the option otherwise."""
+    dates = []
+    for text, opt in ((start_text, "--start"), (end_text, "--end")):
+        try:
+            dates.append(dt.date.fromisoformat(text))
+        except (TypeError, ValueError):
+            raise UserError(f"{opt} must be YYYY-MM-DD, got {text!r}") from None
+    start, end = dates
+    if end < start:
+        raise UserError(f"--end {end} is before --start {start}")
+    n_nights = (end - start).days + 1
+    if n_nights > MAX_NIGHTS:
+        raise UserError(f"{n_nights} nights requested; at most {MAX_NIGHTS} (split the date range)")
+    return start, end

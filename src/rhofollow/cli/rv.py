@@ -106,25 +106,16 @@ def update_table(records: list[dict], fap: float, width: int = 80) -> FittedTabl
 
 def _reachable(args, assessments, records, inst) -> str:
     """Rewrite the records with the time-to-confirm at the site's reachable epochs; returns a label."""
-    import datetime as dt
-
     from rhofollow.planning.campaign import NightVis
     from rhofollow.planning.night import night_visibility, science_from_records
     from rhofollow.planning.rvreach import reachable_rv
     from rhofollow.planning.visibility import VisibilityEngine
-    from rhofollow.cli.options import MAX_NIGHTS, load_site_arg
+    from rhofollow.cli.options import load_site_arg, night_range
 
     missing = [o for o, v in (("--start", args.start), ("--end", args.end)) if not v]
     if missing:
         raise UserError(f"with --site, give {' and '.join(missing)}")
-    try:
-        start, end = dt.date.fromisoformat(args.start), dt.date.fromisoformat(args.end)
-    except ValueError:
-        raise UserError(f"--start and --end must be YYYY-MM-DD, got {args.start!r} and {args.end!r}") from None
-    if end < start:
-        raise UserError(f"--end {end} is before --start {start}")
-    if (end - start).days + 1 > MAX_NIGHTS:
-        raise UserError(f"{(end - start).days + 1} nights requested; at most {MAX_NIGHTS}")
+    start, end = night_range(args.start, args.end)
     site = load_site_arg(args.site)
     eng = VisibilityEngine(site)
     grids = [g for g in eng.nights(start, end) if g.kind != "no_night"]

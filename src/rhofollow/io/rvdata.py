@@ -107,10 +107,18 @@ def _read_ecsv(path: Path, errs: _Issues) -> tuple[list[str], list[tuple[int, di
 
 
 def _read_csv(path: Path, errs: _Issues) -> tuple[list[str], list[tuple[int, dict]]]:
+    return read_csv_rows(path, errs, not_found="RV file not found")
+
+
+def read_csv_rows(path: Path, errs, *, not_found: str | None = None) -> tuple[list[str], list[tuple[int, dict]]]:
+    """(header, rows) of a CSV file: rows as (1-based data-row number, {column: stripped text}),
+    '#' lines and blank lines skipped, formula-quoted cells unquoted; a row with the wrong number of
+    fields is a problem in ``errs`` (anything with ``add(row, column, reason)`` and
+    ``raise_if_any()``). Shared by the RV reader and the ledger's other file kinds."""
     try:
         text = path.read_bytes().decode("utf-8-sig")
-    except FileNotFoundError:
-        errs.add(0, "", "RV file not found")
+    except FileNotFoundError as exc:
+        errs.add(0, "", not_found or f"cannot read the file ({exc.strerror or exc})")
     except OSError as exc:
         errs.add(0, "", f"cannot read the file ({exc.strerror or exc})")
     except UnicodeDecodeError:

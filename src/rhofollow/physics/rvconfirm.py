@@ -313,7 +313,18 @@ def fisher_noncentrality(e, omega, k, sigma, n_phase: int | None = None, step: f
 
 def _fisher_lambda(e, om, k, sigma, n_phase, step):
     """:func:`fisher_noncentrality` on ``n_phase`` midpoint phases (1-d arrays of one length)."""
-    ph = (np.arange(n_phase) + 0.5) / n_phase
+    return fisher_lambda_at_phases(e, om, k, (np.arange(n_phase) + 0.5) / n_phase, sigma, step)
+
+
+def fisher_lambda_at_phases(e, om, k, ph, sigma=1.0, step=1e-4, ridge=0.0):
+    """Per-visit Fisher non-centrality of the eccentricity test, the Fisher matrix averaged over the
+    phases ``ph`` (1-d), per sample (1-d ``e``, ``om`` [rad], ``k`` [m/s]), at RV error ``sigma``.
+
+    Parameters (gamma, K, e cos w, e sin w); the (e cos w, e sin w) block is profiled over (gamma, K)
+    by its Schur complement and evaluated at the sample's own (e cos w, e sin w). Derivatives by
+    central differences of size ``step``; ``ridge`` regularises the (gamma, K) block (one phase
+    only makes them degenerate).
+    """
     h, q = e * np.cos(om), e * np.sin(om)
 
     def shape(hh, qq):
@@ -323,8 +334,10 @@ def _fisher_lambda(e, om, k, sigma, n_phase, step):
     dh = (shape(h + step, q) - shape(h - step, q)) / (2 * step)
     dq = (shape(h, q + step) - shape(h, q - step)) / (2 * step)
     grads = np.stack([np.ones_like(s0), s0, k[:, None] * dh, k[:, None] * dq], axis=1)  # (S, 4, P)
-    fis = np.einsum("sip,sjp->sij", grads, grads) / (n_phase * sigma * sigma)
+    fis = np.einsum("sip,sjp->sij", grads, grads) / (ph.size * sigma * sigma)
     a, b, c = fis[:, 2:, 2:], fis[:, 2:, :2], fis[:, :2, :2]
+    if ridge:
+        c = c + ridge * np.eye(2)
     schur = a - b @ np.linalg.solve(c, np.swapaxes(b, 1, 2))
     theta = np.stack([h, q], axis=1)
     return np.einsum("si,sij,sj->s", theta, schur, theta)

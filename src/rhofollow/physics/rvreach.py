@@ -26,7 +26,7 @@ import numpy as np
 from scipy import stats
 
 from rhofollow.physics.rv import circular_shape, rv_shape
-from rhofollow.physics.rvconfirm import EccGrid, ecc_grid
+from rhofollow.physics.rvconfirm import EccGrid, ecc_grid, fisher_lambda_at_phases
 from rhofollow.physics.rvnoise import epoch_precision
 
 __all__ = ["EpochPool", "N_MIN", "visit_ladder", "power_curve_at_pool", "visits_for_power",
@@ -192,21 +192,8 @@ def fisher_noncentrality_at(e, omega, k, phases, step: float = 1e-4) -> np.ndarr
     om = np.atleast_1d(np.asarray(omega, float))
     k = np.atleast_1d(np.asarray(k, float))
     ph = np.asarray(phases, float).ravel()
-    h, q = e * np.cos(om), e * np.sin(om)
-
-    def shape(hh, qq):
-        return rv_shape(ph[None, :], np.hypot(hh, qq)[:, None], np.arctan2(qq, hh)[:, None])
-
-    s0 = shape(h, q)
-    dh = (shape(h + step, q) - shape(h - step, q)) / (2 * step)
-    dq = (shape(h, q + step) - shape(h, q - step)) / (2 * step)
-    grads = np.stack([np.ones_like(s0), s0, k[:, None] * dh, k[:, None] * dq], axis=1)
-    fis = np.einsum("sip,sjp->sij", grads, grads) / ph.size
-    a, b, c = fis[:, 2:, 2:], fis[:, 2:, :2], fis[:, :2, :2]
-    c = c + 1e-9 * np.eye(2)           # one phase only: gamma and K are degenerate
-    schur = a - b @ np.linalg.solve(c, np.swapaxes(b, 1, 2))
-    theta = np.stack([h, q], axis=1)
-    return np.maximum(np.einsum("si,sij,sj->s", theta, schur, theta), 0.0)
+    # c + 1e-9 I: with one phase only, gamma and K are degenerate
+    return np.maximum(fisher_lambda_at_phases(e, om, k, ph, 1.0, step, ridge=1e-9), 0.0)
 
 
 def choose_exposure(lam_unit, weights, vmag, jitter_ms, inst, *, n_cap: int, loss: float = 0.0,

@@ -7,7 +7,6 @@ reader, with its rules (see that module); occultation and observation files are 
 """
 from __future__ import annotations
 
-import csv
 import datetime as _dt
 import hashlib
 import json
@@ -18,8 +17,7 @@ from rhofollow.core.types import RowIssue, RVSeries
 from rhofollow.io.ledger.records import (OBSERVATION_KINDS, OBSERVATION_OUTCOMES, TIMING_KINDS,
                                          IngestError)
 from rhofollow.io.ledger.schema import KEYS, row_key
-from rhofollow.io.rvdata import RVDataError, cell_number, read_rv_file
-from rhofollow.io.safety import csv_unquote
+from rhofollow.io.rvdata import RVDataError, cell_number, read_csv_rows, read_rv_file
 
 __all__ = ["RowErrors", "Rows", "sha256", "now_utc", "parse_rv", "parse_occultations",
            "parse_done", "occultation_entry", "done_entry", "target_json", "parse_targets_jsonl",
@@ -61,22 +59,7 @@ class Rows(list):
 
 def _read_csv(path: Path, required: tuple[str, ...], errs: RowErrors) -> list[tuple[int, dict]]:
     """Rows of a CSV file as (data-row number, {column: stripped text}); '#' lines are comments."""
-    try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        errs.add(0, "", f"cannot read the file ({exc.strerror or exc})")
-        errs.raise_if_any()
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        errs.add(0, "", "not UTF-8 text")
-        errs.raise_if_any()
-    lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
-    if not lines:
-        errs.add(0, "", "no header line and no data")
-        errs.raise_if_any()
-    reader = csv.reader(lines)
-    header = [csv_unquote(h.strip()) for h in next(reader)]
+    header, rows = read_csv_rows(path, errs)
     missing = [c for c in required if c not in header]
     for c in missing:
         errs.add(0, c, "required column is missing")
@@ -84,12 +67,6 @@ def _read_csv(path: Path, required: tuple[str, ...], errs: RowErrors) -> list[tu
     for c in dup:
         errs.add(0, c, "column appears more than once")
     errs.raise_if_any()
-    rows = []
-    for i, cells in enumerate(reader, start=1):
-        if len(cells) != len(header):
-            errs.add(i, "", f"has {len(cells)} fields, the header has {len(header)}")
-            continue
-        rows.append((i, {h: csv_unquote(c.strip()) for h, c in zip(header, cells)}))
     if not rows and not errs.issues:
         errs.add(0, "", "header only, no data rows")
     return rows
@@ -233,17 +210,23 @@ def parse_occultations(path: Path) -> Rows:
     IngestError
         With every problem of the file (file, row, column, reason).
     """
+    return _parse_rows(path, ("target", "kind"), _timing_record, "occultation_timings")
+
+
+def _parse_rows(path: Path, required: tuple, make_record, table: str) -> Rows:
+    """Every row of a ledger CSV through ``make_record(errs, i, row, name)``, then the within-file
+    checks of ``table``; raises :class:`IngestError` with every problem of the file."""
     errs = RowErrors(str(path))
-    rows = _read_csv(path, ("target", "kind"), errs)
+    rows = _read_csv(path, required, errs)
     errs.raise_if_any()
     out = []
     for i, r in rows:
         name = r["target"]
         if not name:
             errs.add(i, "target", "value is missing")
-        out.append((i, _timing_record(errs, i, r, name)))
+        out.append((i, make_record(errs, i, r, name)))
     errs.raise_if_any()
-    checked = _check_within_file("occultation_timings", out, errs)
+    checked = _check_within_file(table, out, errs)
     errs.raise_if_any()
     return checked
 
@@ -287,19 +270,7 @@ def parse_done(path: Path) -> Rows:
     IngestError
         With every problem of the file (file, row, column, reason).
     """
-    errs = RowErrors(str(path))
-    rows = _read_csv(path, ("target", "start_utc", "kind"), errs)
-    errs.raise_if_any()
-    out = []
-    for i, r in rows:
-        name = r["target"]
-        if not name:
-            errs.add(i, "target", "value is missing")
-        out.append((i, _observation_record(errs, i, r, name)))
-    errs.raise_if_any()
-    checked = _check_within_file("observations", out, errs)
-    errs.raise_if_any()
-    return checked
+    return _parse_rows(path, ("target", "start_utc", "kind"), _observation_record, "observations")
 
 
 def done_entry(target: str, values: dict) -> dict:
