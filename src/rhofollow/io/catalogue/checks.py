@@ -67,6 +67,9 @@ def _check_row(v: dict[str, float], given: set[str], label, require_coords: bool
     def bad(canon, reason):
         errs.append((label(canon), reason))
 
+    def warn(canon, reason):
+        warns.append((label(canon), reason))
+
     for canon in REQUIRED + (COORDS if require_coords else ()):
         if canon not in given:
             bad(canon, "is required but missing")
@@ -81,25 +84,57 @@ def _check_row(v: dict[str, float], given: set[str], label, require_coords: bool
     k = v.get("rp_rs")
     if k is None and "depth_ppm" in v:
         k = math.sqrt(v["depth_ppm"] * 1e-6)
+    _check_depth_ratio(v, warn)
+    _check_impact(v, k, bad, warn)
+    _check_durations(v, k, bad)
+    _check_orbit(v, given, uncertainties, bad, warn)
+
+    if not _has_geometry_route(given):
+        errs.append(("a_rs | t14_h | rho_circ_cgs",
+                     "no transit-geometry route: give a_rs; or t14_h with t23_h or b, and "
+                     "depth_ppm or rp_rs; or rho_circ_cgs"))
+    if not _has_star_route(given):
+        errs.append(("rho_star_cgs | mstar_msun | logg_cgs | teff_k",
+                     "no independent stellar-density route: give rho_star_cgs; or mstar_msun "
+                     "and rstar_rsun; or logg_cgs and rstar_rsun; or teff_k, logg_cgs and "
+                     "feh_dex"))
+
+    # Warnings: the row is kept.
+    _warn_extremes(v, warn)
+    return errs, warns
+
+
+def _check_depth_ratio(v: dict[str, float], warn) -> None:
+    """Warn when depth_ppm and rp_rs^2 disagree by more than a factor of 2."""
     if "rp_rs" in v and "depth_ppm" in v and v["rp_rs"] ** 2 > 0:  # (a tiny rp_rs can underflow)
         ratio = v["depth_ppm"] * 1e-6 / v["rp_rs"] ** 2
         if not (0.5 <= ratio <= 2.0):
-            warns.append((label("depth_ppm"), f"depth_ppm is {ratio:.2g} x rp_rs^2; the two "
-                                              "disagree by more than a factor of 2"))
+            warn("depth_ppm", f"depth_ppm is {ratio:.2g} x rp_rs^2; the two "
+                              "disagree by more than a factor of 2")
+
+
+def _check_impact(v: dict[str, float], k: float | None, bad, warn) -> None:
+    """The a_rs / b route: b must allow a transit (grazing is a warning) and a_rs must put the planet
+    outside the star; ``k`` is the radius ratio (from rp_rs or depth_ppm) or None."""
     if "b" in v:
         limit = 1.0 + (k if k is not None else 1.0)
         if v["b"] > limit:
             what = "1 + rp_rs" if k is not None else "2"
             bad("b", f"b = {v.pop('b'):g} exceeds {what} = {limit:g}: no transit")
         elif k is not None and v["b"] > 1.0 - k:
-            warns.append((label("b"), f"grazing geometry (b = {v['b']:g} > 1 - rp_rs); "
-                                      "durations constrain the density poorly"))
+            warn("b", f"grazing geometry (b = {v['b']:g} > 1 - rp_rs); "
+                      "durations constrain the density poorly")
     if "a_rs" in v:
         limit = 1.0 + (k if k is not None else 0.0)
         if v["a_rs"] <= limit:
             what = "1 + rp_rs" if k is not None else "1"
             bad("a_rs", f"a_rs = {v.pop('a_rs'):g} must exceed {what} = {limit:g}: the planet "
                         "would orbit inside the star")
+
+
+def _check_durations(v: dict[str, float], k: float | None, bad) -> None:
+    """The duration route: t23_h < t14_h < the period, and (with ``k``, the radius ratio) the two
+    durations must invert to a real geometry."""
     if "t14_h" in v and "t23_h" in v and v["t23_h"] >= v["t14_h"]:
         bad("t23_h", f"full duration t23_h = {v['t23_h']:g} h must be shorter than total "
                      f"duration t14_h = {v['t14_h']:g} h")
@@ -125,11 +160,15 @@ def _check_row(v: dict[str, float], given: set[str], label, require_coords: bool
             elif ar2 < 1.0:
                 bad("t14_h", f"the durations imply a/R* = {math.sqrt(max(ar2, 0)):.3g} < 1")
 
+
+def _check_orbit(v: dict[str, float], given: set[str],
+                 uncertainties: dict[str, tuple[float, float]] | None, bad, warn) -> None:
+    """A known orbit: omega_deg needs ecc, ecc without omega_deg is a warning, and ecc must pass the
+    assessment's measured-orbit test."""
     if "omega_deg" in given and "ecc" not in given:
         bad("omega_deg", "omega_deg is given without ecc")
     elif "ecc" in v and "omega_deg" not in given and v["ecc"] > 0:
-        warns.append((label("ecc"), "ecc is given without omega_deg; omega is treated as "
-                                    "unknown"))
+        warn("ecc", "ecc is given without omega_deg; omega is treated as unknown")
     if "ecc" in v:
         # the same test (and default error) the assessment applies to a measured orbit
         from rhofollow.physics.priors import MEASURED_ECC_DEFAULT_ERR, measured_ecc_problem
@@ -139,35 +178,35 @@ def _check_row(v: dict[str, float], given: set[str], label, require_coords: bool
         if why:
             bad("ecc", why)
 
-    geo = ("a_rs" in given or "rho_circ_cgs" in given or
-           ("t14_h" in given and ("t23_h" in given or "b" in given)
-            and ("depth_ppm" in given or "rp_rs" in given)))
-    if not geo:
-        errs.append(("a_rs | t14_h | rho_circ_cgs",
-                     "no transit-geometry route: give a_rs; or t14_h with t23_h or b, and "
-                     "depth_ppm or rp_rs; or rho_circ_cgs"))
-    star = ("rho_star_cgs" in given
+
+def _has_geometry_route(given: set[str]) -> bool:
+    """True when the given columns make at least one transit-geometry route."""
+    return ("a_rs" in given or "rho_circ_cgs" in given or
+            ("t14_h" in given and ("t23_h" in given or "b" in given)
+             and ("depth_ppm" in given or "rp_rs" in given)))
+
+
+def _has_star_route(given: set[str]) -> bool:
+    """True when the given columns make at least one independent stellar-density route."""
+    return ("rho_star_cgs" in given
             or ("rstar_rsun" in given and ("mstar_msun" in given or "logg_cgs" in given))
             or {"teff_k", "logg_cgs", "feh_dex"} <= given)
-    if not star:
-        errs.append(("rho_star_cgs | mstar_msun | logg_cgs | teff_k",
-                     "no independent stellar-density route: give rho_star_cgs; or mstar_msun "
-                     "and rstar_rsun; or logg_cgs and rstar_rsun; or teff_k, logg_cgs and "
-                     "feh_dex"))
 
-    # Warnings: the row is kept.
+
+def _warn_extremes(v: dict[str, float], warn) -> None:
+    """Warnings that keep the row: teff_k outside the Torres et al. (2010) range when that route is
+    used, and values outside the usual range of their column."""
     if all(c in v for c in ("teff_k", "logg_cgs", "feh_dex")):
         lo, hi = TORRES_TEFF_RANGE
         if not (lo <= v["teff_k"] <= hi):
-            warns.append((label("teff_k"), f"teff_k = {v['teff_k']:g} K is outside "
-                                           f"{lo:g}-{hi:g} K, where the Torres et al. (2010) "
-                                           "mass-radius relations are reliable"))
+            warn("teff_k", f"teff_k = {v['teff_k']:g} K is outside "
+                           f"{lo:g}-{hi:g} K, where the Torres et al. (2010) "
+                           "mass-radius relations are reliable")
     for canon, (lo, hi) in _EXTREME.items():
         if canon in v and not (lo <= v[canon] <= hi):
             if canon == "rp_rs":
-                warns.append((label(canon), f"rp_rs = {v[canon]:g} > {hi:g}: more like a "
-                                            "stellar eclipse than a planet"))
+                warn(canon, f"rp_rs = {v[canon]:g} > {hi:g}: more like a "
+                            "stellar eclipse than a planet")
             else:
-                warns.append((label(canon), f"extreme value {v[canon]:g} (outside {lo:g} to "
-                                            f"{hi:g}); please check"))
-    return errs, warns
+                warn(canon, f"extreme value {v[canon]:g} (outside {lo:g} to "
+                            f"{hi:g}); please check")
