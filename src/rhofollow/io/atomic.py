@@ -35,31 +35,78 @@ class NoSpaceError(OutputError, OSError):
 
 
 def is_no_space(exc: BaseException) -> bool:
-    """True for an OSError (or SQLite error) that means the disk or quota is full."""
+    """True for an OSError (or SQLite error) that means the disk or quota is full.
+
+    Parameters
+    ----------
+    exc : BaseException
+        The error raised by a write.
+
+    Returns
+    -------
+    bool
+        True when ``exc`` means "no space left" (ENOSPC, EDQUOT or SQLite's "database or disk is full").
+    """
     if isinstance(exc, OSError) and exc.errno in _NO_SPACE:
         return True
     return "database or disk is full" in str(exc)
 
 
 def current_umask() -> int:
-    """The process umask (read by setting and restoring it)."""
+    """The process umask (read by setting and restoring it).
+
+    Returns
+    -------
+    int
+        The umask as permission bits (e.g. ``0o022``).
+    """
     mask = os.umask(0o022)
     os.umask(mask)
     return mask
 
 
 def new_file_mode() -> int:
-    """Permission bits of a new regular file: ``0o666`` less the umask."""
+    """Permission bits of a new regular file: ``0o666`` less the umask.
+
+    Returns
+    -------
+    int
+        Permission bits (e.g. ``0o644``).
+    """
     return 0o666 & ~current_umask()
 
 
 def new_dir_mode() -> int:
-    """Permission bits of a new folder: ``0o777`` less the umask."""
+    """Permission bits of a new folder: ``0o777`` less the umask.
+
+    Returns
+    -------
+    int
+        Permission bits (e.g. ``0o755``).
+    """
     return 0o777 & ~current_umask()
 
 
 def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
-    """Write ``data`` to ``path`` atomically (temporary ``.part`` file in the same folder, then rename)."""
+    """Write ``data`` to ``path`` atomically (temporary ``.part`` file in the same folder, then rename).
+
+    Parameters
+    ----------
+    path : str or path-like
+        The final file; missing parent folders are created.
+    data : bytes
+        The whole content of the file.
+
+    Returns
+    -------
+    pathlib.Path
+        ``path``, written.
+
+    Raises
+    ------
+    NoSpaceError
+        The disk or quota is full; nothing was written under ``path``.
+    """
     path = Path(path)
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
@@ -87,5 +134,18 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
 
 
 def atomic_write_text(path: str | os.PathLike, text: str) -> Path:
-    """Write UTF-8 ``text`` to ``path`` atomically."""
+    """Write UTF-8 ``text`` to ``path`` atomically.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The final file; missing parent folders are created.
+    text : str
+        The whole content, encoded as UTF-8.
+
+    Returns
+    -------
+    pathlib.Path
+        ``path``, written.
+    """
     return atomic_write_bytes(path, text.encode("utf-8"))

@@ -22,6 +22,17 @@ def windows_to_ics(result: dict) -> bytes:
     """iCalendar bytes for the ``result`` of :func:`rhofollow.stages.occultations.predict_occultations`.
 
     Targets without UTC windows (no coordinates) are skipped.
+
+    Parameters
+    ----------
+    result : dict
+        The occultation result: ``start_utc`` (ISO time, UTC), ``caution`` and ``targets``, each with
+        its ``events`` (``window_utc`` pieces as ISO UTC pairs, ``mid_bjd_tdb`` quantiles in BJD_TDB days).
+
+    Returns
+    -------
+    bytes
+        The calendar (RFC 5545), one VEVENT per window piece.
     """
     from icalendar import Calendar, Event
 
@@ -68,7 +79,20 @@ def windows_to_ics(result: dict) -> bytes:
 
 
 def write_ics(path, result: dict):
-    """Write the windows of ``result`` to ``path`` atomically; returns the path."""
+    """Write the windows of ``result`` to ``path`` atomically.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The ``.ics`` file to write.
+    result : dict
+        The occultation result, as for :func:`windows_to_ics`.
+
+    Returns
+    -------
+    pathlib.Path
+        ``path``, written.
+    """
     from rhofollow.io.atomic import atomic_write_text
 
     return atomic_write_text(path, windows_to_ics(result).decode("utf-8"))

@@ -23,8 +23,16 @@ SOURCE_DIRS = ("examples", "site_configs")
 def demo_root() -> Path:
     """Folder of the installed demo data (``.../rhofollow/data/demo``).
 
-    Raises FileNotFoundError when the package data is missing (a broken installation) or the package
-    is imported from a zip archive (no real folder to hand to the site file's relative paths).
+    Returns
+    -------
+    pathlib.Path
+        The folder.
+
+    Raises
+    ------
+    FileNotFoundError
+        The package data is missing (a broken installation) or the package is imported from a zip
+        archive (no real folder to hand to the site file's relative paths).
     """
     root = resources.files("rhofollow") / "data" / "demo"
     path = Path(str(root))
@@ -36,7 +44,23 @@ def demo_root() -> Path:
 
 
 def demo_file(relative: str) -> Path:
-    """One demo file, e.g. ``demo_file("examples/hts_candidates.csv")`` (FileNotFoundError if absent)."""
+    """One demo file, e.g. ``demo_file("examples/hts_candidates.csv")``.
+
+    Parameters
+    ----------
+    relative : str
+        Path of the file inside the demo folder (POSIX separators).
+
+    Returns
+    -------
+    pathlib.Path
+        The installed file.
+
+    Raises
+    ------
+    FileNotFoundError
+        The file is not part of the installation.
+    """
     path = demo_root() / relative
     if not path.is_file():
         raise FileNotFoundError(f"the bundled demo file {path} is missing from the installation")
@@ -44,7 +68,18 @@ def demo_file(relative: str) -> Path:
 
 
 def source_files(repo: Path) -> dict[str, Path]:
-    """relative path -> file of every data file under the checkout's examples/ and site_configs/."""
+    """Every data file under the checkout's examples/ and site_configs/ (scripts left out).
+
+    Parameters
+    ----------
+    repo : pathlib.Path
+        Root of the source checkout.
+
+    Returns
+    -------
+    dict of str to pathlib.Path
+        Relative POSIX path -> file, in sorted order.
+    """
     out = {}
     for d in SOURCE_DIRS:
         for f in sorted((repo / d).rglob("*")):
@@ -54,7 +89,20 @@ def source_files(repo: Path) -> dict[str, Path]:
 
 
 def differences(repo: Path, package_dir: Path) -> list[str]:
-    """Sentences naming each file that differs between the checkout and the package data."""
+    """Sentences naming each file that differs between the checkout and the package data.
+
+    Parameters
+    ----------
+    repo : pathlib.Path
+        Root of the source checkout.
+    package_dir : pathlib.Path
+        The package's demo folder.
+
+    Returns
+    -------
+    list of str
+        One sentence per file only in one place or with different contents (empty: identical).
+    """
     src = source_files(repo)
     pkg = {f.relative_to(package_dir).as_posix(): f for f in package_dir.rglob("*") if f.is_file()
            and "__pycache__" not in f.parts}
@@ -65,7 +113,20 @@ def differences(repo: Path, package_dir: Path) -> list[str]:
 
 
 def sync(repo: Path, package_dir: Path) -> list[str]:
-    """Make the package data an exact copy of the checkout's data files; returns what changed."""
+    """Make the package data an exact copy of the checkout's data files.
+
+    Parameters
+    ----------
+    repo : pathlib.Path
+        Root of the source checkout.
+    package_dir : pathlib.Path
+        The package's demo folder (replaced whole).
+
+    Returns
+    -------
+    list of str
+        What changed, as by :func:`differences` before the copy.
+    """
     changed = differences(repo, package_dir)
     if package_dir.exists():
         shutil.rmtree(package_dir)

@@ -65,6 +65,13 @@ class Spectrograph:
 
     @property
     def overhead_s(self) -> float:
+        """The overhead of one RV visit, in seconds.
+
+        Returns
+        -------
+        float
+            ``overhead_min`` in seconds.
+        """
         return 60.0 * self.overhead_min
 
 
@@ -124,7 +131,21 @@ def _num(data, key, required, lower, src):
 def read_instrument(path) -> Spectrograph | Photometer:
     """Read and validate one instrument TOML file.
 
-    Raises :class:`InstrumentError` with a one-sentence message naming the file and key.
+    Parameters
+    ----------
+    path : str or path-like
+        The instrument file (keys and units in the module docstring).
+
+    Returns
+    -------
+    Spectrograph or Photometer
+        The instrument model (by key ``kind``), with ``source`` the file.
+
+    Raises
+    ------
+    InstrumentError
+        The file is missing or not TOML, or a key is unknown, missing or out of range (a
+        one-sentence message naming the file and key).
     """
     p = Path(path)
     src = str(p)
@@ -174,7 +195,23 @@ def read_instrument(path) -> Spectrograph | Photometer:
 
 
 def read_instruments(paths) -> dict[str, Spectrograph | Photometer]:
-    """Read several instrument files; name -> model. Two files with one name is an error."""
+    """Read several instrument files. Two files with one name is an error.
+
+    Parameters
+    ----------
+    paths : iterable of str or path-like
+        The instrument files, in order.
+
+    Returns
+    -------
+    dict of str to Spectrograph or Photometer
+        Instrument name -> model, in the order of ``paths``.
+
+    Raises
+    ------
+    InstrumentError
+        A file is bad (see :func:`read_instrument`) or repeats another file's instrument name.
+    """
     out: dict[str, Spectrograph | Photometer] = {}
     for p in paths:
         inst = read_instrument(p)

@@ -16,7 +16,23 @@ __all__ = ["write_json", "json_default", "json_text"]
 
 
 def json_default(o):
-    """``json.dumps`` hook: numpy floats, integers, booleans and arrays, and paths, as plain JSON values."""
+    """``json.dumps`` hook: numpy floats, integers, booleans and arrays, and paths, as plain JSON values.
+
+    Parameters
+    ----------
+    o : object
+        A value the standard encoder does not know.
+
+    Returns
+    -------
+    float, int, bool, list or str
+        The plain value (units unchanged).
+
+    Raises
+    ------
+    TypeError
+        ``o`` has no JSON form.
+    """
     import numpy as np
 
     if isinstance(o, (np.floating,)):
@@ -44,10 +60,34 @@ def _clean(o):
 
 
 def json_text(obj) -> str:
-    """``obj`` as indented standard JSON text (NaN -> null), with a final newline."""
+    """``obj`` as indented standard JSON text (NaN -> null), with a final newline.
+
+    Parameters
+    ----------
+    obj : object
+        JSON-ready data (dicts, lists, numbers, text, numpy values, paths).
+
+    Returns
+    -------
+    str
+        The JSON text, indented by 2.
+    """
     return json.dumps(_clean(json.loads(json.dumps(obj, default=json_default))), indent=2) + "\n"
 
 
 def write_json(path, obj) -> Path:
-    """Atomically write ``obj`` as standard JSON (NaN -> null); returns the path written."""
+    """Atomically write ``obj`` as standard JSON (NaN -> null).
+
+    Parameters
+    ----------
+    path : str or path-like
+        The JSON file to write.
+    obj : object
+        JSON-ready data, as for :func:`json_text`.
+
+    Returns
+    -------
+    pathlib.Path
+        ``path``, written.
+    """
     return atomic_write_text(path, json_text(obj))

@@ -81,7 +81,19 @@ class _Issues:
         self.issues: list[RowIssue] = []
 
     def add(self, row: int, column: str, reason: str, name: str = "") -> None:
-        """Record a problem at a 1-based data row (0: the file or its header) and column."""
+        """Record a problem at a 1-based data row (0: the file or its header) and column.
+
+        Parameters
+        ----------
+        row : int
+            Data row, from 1 (0: the file or its header).
+        column : str
+            The column's name ("" for the whole row or file).
+        reason : str
+            What is wrong, one sentence.
+        name : str
+            The target named by the row's ``target`` column ("" when none).
+        """
         self.issues.append(RowIssue(self.source, row, column, reason, name=name))
 
     def raise_if_any(self) -> None:
@@ -111,10 +123,27 @@ def _read_csv(path: Path, errs: _Issues) -> tuple[list[str], list[tuple[int, dic
 
 
 def read_csv_rows(path: Path, errs, *, not_found: str | None = None) -> tuple[list[str], list[tuple[int, dict]]]:
-    """(header, rows) of a CSV file: rows as (1-based data-row number, {column: stripped text}),
-    '#' lines and blank lines skipped, formula-quoted cells unquoted; a row with the wrong number of
-    fields is a problem in ``errs`` (anything with ``add(row, column, reason)`` and
-    ``raise_if_any()``). Shared by the RV reader and the ledger's other file kinds."""
+    """(header, rows) of a CSV file, rows as (1-based data-row number, {column: stripped text}).
+
+    '#' lines and blank lines are skipped, formula-quoted cells unquoted; a row with the wrong number
+    of fields is a problem in ``errs``. Shared by the RV reader and the ledger's other file kinds.
+
+    Parameters
+    ----------
+    path : pathlib.Path
+        The CSV file (UTF-8, a byte-order mark allowed).
+    errs : object
+        Problem collector: anything with ``add(row, column, reason)`` and ``raise_if_any()``.
+    not_found : str or None
+        Reason recorded when the file does not exist (None: a generic "cannot read the file").
+
+    Returns
+    -------
+    header : list of str
+        The column names.
+    rows : list of (int, dict)
+        Data-row number and {column: text} of every row with the right number of fields.
+    """
     try:
         text = path.read_bytes().decode("utf-8-sig")
     except FileNotFoundError as exc:
@@ -154,9 +183,32 @@ def _check_header(cols: list[str], n_rows: int, errs: _Issues) -> None:
 
 def cell_number(errs, i: int, row: dict, col: str, name: str = "", *, required: bool = True,
                 positive: bool = False) -> float | None:
-    """The finite number in ``row[col]`` (``positive``: > 0), or None with the problem added to
-    ``errs`` (anything with ``add(row, column, reason, name)``); an empty cell is a problem only when
-    ``required``. Shared by the RV reader and the ledger's other file kinds (same wording)."""
+    """The finite number in ``row[col]``, or None with the problem added to ``errs``.
+
+    Shared by the RV reader and the ledger's other file kinds (same wording).
+
+    Parameters
+    ----------
+    errs : object
+        Problem collector: anything with ``add(row, column, reason, name)``.
+    i : int
+        Data-row number (from 1), for the problem.
+    row : dict
+        {column: text} of the row.
+    col : str
+        The column to read.
+    name : str
+        Target named in the problem ("" for none).
+    required : bool
+        An empty cell is a problem (else it gives None silently).
+    positive : bool
+        The number must be > 0.
+
+    Returns
+    -------
+    float or None
+        The number, in the column's own unit (None when missing or bad).
+    """
     text = row.get(col, "")
     if text == "":
         if required:

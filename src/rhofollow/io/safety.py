@@ -40,6 +40,16 @@ def csv_cell(value):
     """The value as it goes into a CSV cell: text that a spreadsheet would run is quoted.
 
     None becomes an empty cell, a non-finite float an empty cell, other numbers are unchanged.
+
+    Parameters
+    ----------
+    value : object
+        The cell's value (number, text, None).
+
+    Returns
+    -------
+    str, int, float or bool
+        The value to hand to :mod:`csv` (numbers unchanged, in their own units).
     """
     if value is None:
         return ""
@@ -58,15 +68,38 @@ def csv_cell(value):
 
 
 def csv_unquote(text: str) -> str:
-    """Undo :func:`csv_cell` on a cell read back (one leading quote before a trigger or a quote)."""
+    """Undo :func:`csv_cell` on a cell read back (one leading quote before a trigger or a quote).
+
+    Parameters
+    ----------
+    text : str
+        A cell as read from a CSV file.
+
+    Returns
+    -------
+    str
+        The original text.
+    """
     if len(text) >= 2 and text[0] == _QUOTE and (text[1] in FORMULA_TRIGGERS or text[1] == _QUOTE):
         return text[1:]
     return text
 
 
 def csv_text(header: list[str], rows) -> str:
-    """CSV text (``\\n`` line ends) of ``header`` and ``rows`` (iterables of cells), every cell
-    passed through :func:`csv_cell`."""
+    """CSV text (``\\n`` line ends) of ``header`` and ``rows``, every cell passed through :func:`csv_cell`.
+
+    Parameters
+    ----------
+    header : list of str
+        The column names.
+    rows : iterable of iterable
+        The rows, each an iterable of cells.
+
+    Returns
+    -------
+    str
+        The whole CSV text.
+    """
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     # the csv module leaves a bare CR unquoted with "\n" line ends; such a (hostile) row is
@@ -86,6 +119,16 @@ def file_stem(name: str) -> str:
     leading ``.`` too, so no hidden or ``..`` names) and is cut to fit :data:`MAX_STEM_BYTES`.
     The hash is of the exact UTF-8 name, so different names give different stems (up to a
     2^-32 chance per pair).
+
+    Parameters
+    ----------
+    name : str
+        The target name, exactly as in the catalogue.
+
+    Returns
+    -------
+    str
+        ASCII stem of at most :data:`MAX_STEM_BYTES` bytes.
     """
     digest = hashlib.sha256(name.encode("utf-8", "surrogatepass")).hexdigest()[:8]
     slug = "".join(c if (c.isascii() and c.isalnum()) or c in "-_." else "-" for c in name)
@@ -103,6 +146,16 @@ def md_text(text) -> str:
     HTML is escaped (``<script>`` in a target name shows as text in an HTML-capable viewer),
     Markdown punctuation is backslash-escaped (``|`` no longer splits a table row, ``*``/``_``
     no longer format), and line breaks become spaces.
+
+    Parameters
+    ----------
+    text : object
+        The text (converted with ``str``).
+
+    Returns
+    -------
+    str
+        One line of escaped text.
     """
     import html
 

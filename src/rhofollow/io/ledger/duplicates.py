@@ -89,7 +89,24 @@ def same_measurements(conn: sqlite3.Connection, table: str | None, rows: list[di
 
 
 def duplicate_issues(source: str, table: str, rows: list[dict], same) -> list[RowIssue]:
-    """One issue per new row that repeats stored measurements (row, column, the stored one)."""
+    """One issue per new row that repeats stored measurements (row, column, the stored one).
+
+    Parameters
+    ----------
+    source : str
+        The file (or entry) the rows come from.
+    table : str
+        ``rv_measurements`` or ``occultation_timings``.
+    rows : list of dict
+        The new rows (a :class:`~rhofollow.io.ledger.ingest.Rows` carries their data-row numbers).
+    same : list of (int, list of dict)
+        The repeats found by :func:`same_measurements`.
+
+    Returns
+    -------
+    list of RowIssue
+        One error per repeating row, naming its measurement column and the stored measurement.
+    """
     numbers = getattr(rows, "numbers", None)
     return [RowIssue(source, numbers[n] if numbers else n + 1,
                      "window_start_bjd_tdb" if rows[n].get("kind") == "non_detection"
@@ -100,7 +117,20 @@ def duplicate_issues(source: str, table: str, rows: list[dict], same) -> list[Ro
 
 
 def describe(table: str, o: dict) -> str:
-    """A stored measurement in words (for the duplicate message)."""
+    """A stored measurement in words (for the duplicate message).
+
+    Parameters
+    ----------
+    table : str
+        ``rv_measurements`` or ``occultation_timings``.
+    o : dict
+        The stored row (times BJD_TDB days, RVs m/s, timing errors minutes).
+
+    Returns
+    -------
+    str
+        E.g. ``RV at BJD_TDB 2461030.12345: 12.3 +/- 2.1 m/s (AQ-Vel)``.
+    """
     inst = f" ({o['instrument']})" if o.get("instrument") else ""
     if table == "rv_measurements":
         return f"RV at BJD_TDB {o['bjd_tdb']:.5f}: {o['rv_ms']:g} +/- {o['rv_err_ms']:g} m/s{inst}"
@@ -111,5 +141,18 @@ def describe(table: str, o: dict) -> str:
 
 
 def brief(table: str, row: dict) -> str:
-    """The identifying columns of a row as ``column=value`` text."""
+    """The identifying columns of a row as ``column=value`` text.
+
+    Parameters
+    ----------
+    table : str
+        The ledger table of the row.
+    row : dict
+        The row.
+
+    Returns
+    -------
+    str
+        The row's key columns that are set, comma-separated.
+    """
     return ", ".join(f"{c}={row[c]}" for c in KEYS[table][0] if row.get(c) not in (None, ""))

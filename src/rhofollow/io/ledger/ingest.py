@@ -25,12 +25,29 @@ __all__ = ["RowErrors", "Rows", "sha256", "now_utc", "parse_rv", "parse_occultat
 
 
 def now_utc() -> str:
-    """The current UTC time as ISO text with microseconds and a ``Z``."""
+    """The current UTC time as ISO text with microseconds and a ``Z``.
+
+    Returns
+    -------
+    str
+        E.g. ``2027-01-10T03:04:05.123456Z``.
+    """
     return _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
 
 
 def sha256(data: bytes) -> str:
-    """Hex SHA-256 of ``data`` (the content hash of an ingest)."""
+    """Hex SHA-256 of ``data`` (the content hash of an ingest).
+
+    Parameters
+    ----------
+    data : bytes
+        The ingested content.
+
+    Returns
+    -------
+    str
+        64 hex digits.
+    """
     return hashlib.sha256(data).hexdigest()
 
 
@@ -42,7 +59,19 @@ class RowErrors:
         self.issues: list[RowIssue] = []
 
     def add(self, row: int, column: str, reason: str, name: str = ""):
-        """Record a problem at a 1-based data row (0: the file or its header) and column."""
+        """Record a problem at a 1-based data row (0: the file or its header) and column.
+
+        Parameters
+        ----------
+        row : int
+            Data row, from 1 (0: the file or its header).
+        column : str
+            The column's name ("" for the whole row or file).
+        reason : str
+            What is wrong, one sentence.
+        name : str
+            The target the row names ("" when none).
+        """
         self.issues.append(RowIssue(self.source, row, column, reason, name=name))
 
     def raise_if_any(self):
@@ -205,6 +234,17 @@ def parse_occultations(path: Path) -> Rows:
     minutes; ``non_detection``: ``window_start_bjd_tdb``, ``window_end_bjd_tdb`` BJD_TDB days and
     ``depth_limit_ppm``), optional ``band_um`` (microns, 0.3-30) and ``instrument``.
 
+    Parameters
+    ----------
+    path : pathlib.Path
+        The CSV file.
+
+    Returns
+    -------
+    Rows
+        One ``occultation_timings`` row per data row (units as in the columns), with the data-row
+        numbers.
+
     Raises
     ------
     IngestError
@@ -232,7 +272,26 @@ def _parse_rows(path: Path, required: tuple, make_record, table: str) -> Rows:
 
 
 def occultation_entry(target: str, values: dict) -> dict:
-    """The row of one occultation entry given as keyword values (validated like a CSV row)."""
+    """The row of one occultation entry given as keyword values (validated like a CSV row).
+
+    Parameters
+    ----------
+    target : str
+        The target's name.
+    values : dict
+        Column -> value, the columns of :func:`parse_occultations` (numbers in their units, None for
+        an empty cell).
+
+    Returns
+    -------
+    dict
+        The ``occultation_timings`` row.
+
+    Raises
+    ------
+    IngestError
+        With every problem of the entry (row 1, column, reason).
+    """
     r = {k: ("" if v is None else str(v) if isinstance(v, str) else repr(float(v)))
          for k, v in values.items()}
     errs = RowErrors("occultation entry")
@@ -262,8 +321,20 @@ def _observation_record(errs, i, r, name) -> dict:
 
 
 def parse_done(path: Path) -> Rows:
-    """Rows of a CSV of observations done: ``target``, ``start_utc``, ``kind`` and optional
-    ``end_utc`` (ISO UTC), ``instrument``, ``outcome`` (default ok), ``note``.
+    """Rows of a CSV of observations done.
+
+    Columns ``target``, ``start_utc``, ``kind`` and optional ``end_utc`` (ISO UTC), ``instrument``,
+    ``outcome`` (default ok), ``note``.
+
+    Parameters
+    ----------
+    path : pathlib.Path
+        The CSV file.
+
+    Returns
+    -------
+    Rows
+        One ``observations`` row per data row (times ISO UTC), with the data-row numbers.
 
     Raises
     ------
@@ -274,7 +345,25 @@ def parse_done(path: Path) -> Rows:
 
 
 def done_entry(target: str, values: dict) -> dict:
-    """The row of one observation given as keyword values (validated like a CSV row)."""
+    """The row of one observation given as keyword values (validated like a CSV row).
+
+    Parameters
+    ----------
+    target : str
+        The target's name.
+    values : dict
+        Column -> text, the columns of :func:`parse_done` (times ISO UTC).
+
+    Returns
+    -------
+    dict
+        The ``observations`` row.
+
+    Raises
+    ------
+    IngestError
+        With every problem of the entry (row 1, column, reason).
+    """
     errs = RowErrors("observation entry")
     if not target:
         errs.add(1, "target", "value is missing")
@@ -286,8 +375,19 @@ def done_entry(target: str, values: dict) -> dict:
 # ------------------------------------------------------------------------------- targets, posteriors
 
 def target_json(t) -> str:
-    """Canonical JSON of a catalogue row (a :class:`~rhofollow.core.types.Target`); non-finite
-    numbers become null."""
+    """Canonical JSON of a catalogue row; non-finite numbers become null.
+
+    Parameters
+    ----------
+    t : rhofollow.core.types.Target
+        The validated catalogue row.
+
+    Returns
+    -------
+    str
+        Compact JSON with sorted keys: ``row``, ``source`` and ``values`` (column -> [value, lower
+        error, upper error] in the catalogue's canonical units).
+    """
     def f(x):
         return x if math.isfinite(x) else None
     values = {k: [f(m.value), f(m.err_lo), f(m.err_hi)] for k, m in sorted(t.values.items())}
@@ -296,7 +396,23 @@ def target_json(t) -> str:
 
 
 def parse_targets_jsonl(path: Path) -> list[tuple[str, str | None, str]]:
-    """(name, catalogue JSON or None, source) per line of an exported ``targets.jsonl``."""
+    """(name, catalogue JSON or None, source) per line of an exported ``targets.jsonl``.
+
+    Parameters
+    ----------
+    path : pathlib.Path
+        The exported file.
+
+    Returns
+    -------
+    list of (str, str or None, str)
+        Target name, canonical catalogue JSON (None when the target has no catalogue row), source.
+
+    Raises
+    ------
+    IngestError
+        With every line that is not a target record.
+    """
     errs = RowErrors(str(path))
     trows = []
     for i, line in enumerate(path.read_text(encoding="utf-8").splitlines(), start=1):
@@ -312,7 +428,23 @@ def parse_targets_jsonl(path: Path) -> list[tuple[str, str | None, str]]:
 
 
 def parse_posteriors_jsonl(path: Path) -> list[dict]:
-    """Rows of the ``posterior_versions`` table from an exported ``posteriors.jsonl``."""
+    """Rows of the ``posterior_versions`` table from an exported ``posteriors.jsonl``.
+
+    Parameters
+    ----------
+    path : pathlib.Path
+        The exported file.
+
+    Returns
+    -------
+    list of dict
+        ``posterior_versions`` rows (ESS and sample count as numbers, summary as compact JSON).
+
+    Raises
+    ------
+    IngestError
+        With every line that is not a posterior record.
+    """
     errs = RowErrors(str(path))
     prows = []
     for i, line in enumerate(path.read_text(encoding="utf-8").splitlines(), start=1):

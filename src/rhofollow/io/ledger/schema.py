@@ -89,12 +89,31 @@ ORDER = {
 
 
 def row_key(table: str, row: dict) -> str:
-    """The unique key of a data row: JSON of its identifying columns (see :data:`KEYS`)."""
+    """The unique key of a data row: JSON of its identifying columns (see :data:`KEYS`).
+
+    Parameters
+    ----------
+    table : str
+        The ledger table of the row.
+    row : dict
+        The row (column -> value).
+
+    Returns
+    -------
+    str
+        Compact JSON list of the identifying values.
+    """
     return json.dumps([row[c] for c in KEYS[table][0]], separators=(",", ":"))
 
 
 def create_schema(conn: sqlite3.Connection) -> None:
-    """Create the current layout in an empty database (inside the caller's transaction)."""
+    """Create the current layout in an empty database (inside the caller's transaction).
+
+    Parameters
+    ----------
+    conn : sqlite3.Connection
+        An open connection to an empty database.
+    """
     conn.execute("CREATE TABLE schema_version (version INTEGER NOT NULL)")
     for ddl in _SCHEMA_V2_TABLES.values():
         conn.execute(ddl)
@@ -106,10 +125,16 @@ def create_schema(conn: sqlite3.Connection) -> None:
 def migrate_v1_to_v2(conn: sqlite3.Connection, insert: Callable[[str, dict], str]) -> None:
     """Bring a version-1 ledger to version 2 (inside the caller's transaction).
 
-    Version 1 kept detections only (error in days), no ingest log and no row keys. ``insert``
-    writes one row of a data table (the store's keyed insert). Rows whose target is missing get a
-    stub target; a detection's error is converted from days to minutes; a posterior version gets
-    the source hash ``v1-<id>``.
+    Version 1 kept detections only (error in days), no ingest log and no row keys. Rows whose target
+    is missing get a stub target; a detection's error is converted from days to minutes; a posterior
+    version gets the source hash ``v1-<id>``.
+
+    Parameters
+    ----------
+    conn : sqlite3.Connection
+        An open connection to a version-1 ledger.
+    insert : callable (str, dict) -> str
+        Writes one row of a data table (the store's keyed insert) and returns its key.
     """
     c = conn
     c.execute("PRAGMA defer_foreign_keys = ON")

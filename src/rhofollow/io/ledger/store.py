@@ -272,9 +272,26 @@ class Ledger(LedgerQueries, LedgerTransfer):
         return self._ingest("rv", str(path), h, "rv_measurements", rows, duplicates=duplicates)
 
     def ingest_occultation_file(self, path: str | os.PathLike, *, duplicates: str = "refuse") -> IngestReport:
-        """Take in a CSV of occultation timings and non-detections
-        (:func:`~rhofollow.io.ledger.ingest.parse_occultations`); ``duplicates`` as in
-        :data:`DUPLICATE_POLICIES`."""
+        """Take in a CSV of occultation timings and non-detections.
+
+        Parameters
+        ----------
+        path : str or path-like
+            The CSV, read by :func:`~rhofollow.io.ledger.ingest.parse_occultations` (times BJD_TDB days,
+            mid-time errors minutes, depth limits ppm, bands microns).
+        duplicates : str
+            One of :data:`DUPLICATE_POLICIES`.
+
+        Returns
+        -------
+        IngestReport
+            Exactly the rows added (or that nothing was, for content already ingested).
+
+        Raises
+        ------
+        IngestError
+            With every problem of the input (file, row, column, reason); nothing is written then.
+        """
         path = Path(path)
         rows = _parse.parse_occultations(path)
         h = sha256(b"occultation\0" + path.read_bytes())
@@ -289,9 +306,36 @@ class Ledger(LedgerQueries, LedgerTransfer):
                         instrument: str = "", duplicates: str = "refuse") -> IngestReport:
         """Record one occultation timing or non-detection (validated like a CSV row).
 
-        Times are BJD_TDB (days), ``mid_err_min`` is the 1-sigma error in minutes,
-        ``depth_limit_ppm`` the smallest depth the observation could have seen (ppm) and
-        ``band_um`` the band's central wavelength (microns).
+        Parameters
+        ----------
+        target : str
+            The target's name.
+        kind : str
+            ``detection`` or ``non_detection``.
+        mid_bjd_tdb : float or None
+            Measured mid-occultation time of a detection, BJD_TDB (days).
+        mid_err_min : float or None
+            1-sigma error of ``mid_bjd_tdb``, minutes.
+        window_start_bjd_tdb, window_end_bjd_tdb : float or None
+            Window observed without a detection, BJD_TDB (days).
+        depth_limit_ppm : float or None
+            Smallest depth the non-detection could have seen, ppm.
+        band_um : float or None
+            The band's central wavelength, microns.
+        instrument : str
+            The instrument's name ("" when not given).
+        duplicates : str
+            One of :data:`DUPLICATE_POLICIES`.
+
+        Returns
+        -------
+        IngestReport
+            Exactly the rows added (or that nothing was, for content already ingested).
+
+        Raises
+        ------
+        IngestError
+            With every problem of the input (file, row, column, reason); nothing is written then.
         """
         rec = _parse.occultation_entry(target, dict(
             kind=kind, mid_bjd_tdb=mid_bjd_tdb, mid_err_min=mid_err_min,
@@ -302,8 +346,23 @@ class Ledger(LedgerQueries, LedgerTransfer):
                             "occultation_timings", [rec], duplicates=duplicates)
 
     def ingest_done_file(self, path: str | os.PathLike) -> IngestReport:
-        """Take in a CSV of observations done (target, start_utc, kind[, end_utc, instrument,
-        outcome, note]); times are ISO UTC."""
+        """Take in a CSV of observations done.
+
+        Parameters
+        ----------
+        path : str or path-like
+            Columns target, start_utc, kind[, end_utc, instrument, outcome, note]; times are ISO UTC.
+
+        Returns
+        -------
+        IngestReport
+            Exactly the rows added (or that nothing was, for content already ingested).
+
+        Raises
+        ------
+        IngestError
+            With every problem of the input (file, row, column, reason); nothing is written then.
+        """
         path = Path(path)
         rows = _parse.parse_done(path)
         h = sha256(b"done\0" + path.read_bytes())
@@ -311,7 +370,35 @@ class Ledger(LedgerQueries, LedgerTransfer):
 
     def add_done(self, target: str, start_utc: str, kind: str, *, end_utc: str | None = None,
                  instrument: str = "", outcome: str = "ok", note: str = "") -> IngestReport:
-        """Record one observation done (``start_utc`` / ``end_utc`` ISO UTC)."""
+        """Record one observation done.
+
+        Parameters
+        ----------
+        target : str
+            The target's name.
+        start_utc : str
+            ISO start time (UTC unless an offset is given).
+        kind : str
+            One of :data:`OBSERVATION_KINDS`.
+        end_utc : str or None
+            ISO end time.
+        instrument : str
+            The instrument's name.
+        outcome : str
+            One of :data:`OBSERVATION_OUTCOMES` (only 'ok' counts as done).
+        note : str
+            Free text.
+
+        Returns
+        -------
+        IngestReport
+            Exactly the rows added (or that nothing was, for content already ingested).
+
+        Raises
+        ------
+        IngestError
+            With every problem of the input (file, row, column, reason); nothing is written then.
+        """
         rec = _parse.done_entry(target, dict(
             start_utc=start_utc or "", end_utc=end_utc or "", instrument=instrument or "",
             kind=kind or "", outcome=outcome or "", note=note or ""))
@@ -319,15 +406,48 @@ class Ledger(LedgerQueries, LedgerTransfer):
         return self._ingest("done", f"observation entry for {target}", h, "observations", [rec])
 
     def add_targets(self, targets, source: str) -> IngestReport:
-        """Record catalogue rows (:class:`~rhofollow.core.types.Target`); a changed row replaces
-        the old one."""
+        """Record catalogue rows; a changed row replaces the old one.
+
+        Parameters
+        ----------
+        targets : iterable of rhofollow.core.types.Target
+            Validated catalogue rows (values in the catalogue's canonical units).
+        source : str
+            The catalogue they come from.
+
+        Returns
+        -------
+        IngestReport
+            The target rows added and updated.
+        """
         trows = [(t.name, _parse.target_json(t), source) for t in targets]
         h = sha256(b"targets\0" + json.dumps(trows, sort_keys=True).encode())
         return self._ingest("targets", source, h, None, [], trows)
 
     def add_posterior_version(self, target: str, *, source_hash: str, n_samples: int, ess: float,
                               summary: dict, created_utc: str | None = None) -> IngestReport:
-        """Store a posterior summary; the same (target, source_hash) twice adds nothing."""
+        """Store a posterior summary; the same (target, source_hash) twice adds nothing.
+
+        Parameters
+        ----------
+        target : str
+            The target's name.
+        source_hash : str
+            Hash of the inputs the posterior was computed from.
+        n_samples : int
+            Number of posterior samples.
+        ess : float
+            Their effective sample size.
+        summary : dict
+            JSON-ready summary (quantiles in the units of each quantity).
+        created_utc : str or None
+            ISO UTC creation time (None: now).
+
+        Returns
+        -------
+        IngestReport
+            The version added (or that it was already stored).
+        """
         rec = dict(target=target, created_utc=created_utc or _parse.now_utc(),
                    source_hash=source_hash, n_samples=int(n_samples), ess=float(ess),
                    summary_json=json.dumps(summary, sort_keys=True, separators=(",", ":")))
