@@ -37,8 +37,6 @@ def _add_duplicate_options(s) -> None:
 
 
 def register(subparsers) -> None:
-    from rhofollow.io.ledger import OBSERVATION_KINDS, OBSERVATION_OUTCOMES
-
     p = subparsers.add_parser(
         "log", help="the campaign ledger: record RVs, occultation timings and observations done",
         description="Keep the campaign's memory in one SQLite file: targets with their catalogue "
@@ -46,13 +44,27 @@ def register(subparsers) -> None:
         "versions computed from them. Ingesting the same file twice adds nothing.")
     sub = p.add_subparsers(dest="log_command", metavar="ACTION")
     parent = _ledger_parent()
+    _register_targets(sub, parent)
+    _register_rv(sub, parent)
+    _register_occultation(sub, parent)
+    _register_done(sub, parent)
+    _register_show(sub, parent)
+    _register_transfer(sub, parent)
+    _register_update(sub, parent)
+    p.set_defaults(func=lambda args: (p.print_help(), 2)[1])
 
+
+def _register_targets(sub, parent) -> None:
+    """``log targets``: store the valid catalogue rows."""
     s = sub.add_parser("targets", parents=[parent], help="record catalogue rows of targets",
                        description="Read a catalogue and store each valid row in the ledger "
                        "(needed by 'log update'). A changed row replaces the stored one.")
     s.add_argument("catalog", metavar="CATALOG")
     s.set_defaults(func=_run_targets)
 
+
+def _register_rv(sub, parent) -> None:
+    """``log rv``: ingest an RV file."""
     s = sub.add_parser("rv", parents=[parent], help="ingest an RV file (CSV)",
                        description="Columns bjd_tdb, rv_ms, rv_err_ms, instrument, and target when "
                        "the file holds several targets (else give --target).")
@@ -61,6 +73,9 @@ def register(subparsers) -> None:
     _add_duplicate_options(s)
     s.set_defaults(func=_run_rv)
 
+
+def _register_occultation(sub, parent) -> None:
+    """``log occultation``: ingest occultation timings, or record one detection or non-detection."""
     s = sub.add_parser("occultation", parents=[parent],
                        help="ingest occultation timings (CSV) or record one",
                        description="Either a CSV (columns target, kind = detection | "
@@ -81,6 +96,11 @@ def register(subparsers) -> None:
     _add_duplicate_options(s)
     s.set_defaults(func=_run_occultation)
 
+
+def _register_done(sub, parent) -> None:
+    """``log done``: record observations done."""
+    from rhofollow.io.ledger import OBSERVATION_KINDS, OBSERVATION_OUTCOMES
+
     s = sub.add_parser("done", parents=[parent], help="record observations done (CSV or one)",
                        description="Either a CSV (columns target, start_utc, kind, and optional "
                        "end_utc, instrument, outcome, note) or one entry with --target, --start "
@@ -95,10 +115,16 @@ def register(subparsers) -> None:
     s.add_argument("--note", default="")
     s.set_defaults(func=_run_done)
 
+
+def _register_show(sub, parent) -> None:
+    """``log show``: the ledger summary or one target's records."""
     s = sub.add_parser("show", parents=[parent], help="summarise the ledger or one target")
     s.add_argument("target", metavar="TARGET", nargs="?")
     s.set_defaults(func=_run_show)
 
+
+def _register_transfer(sub, parent) -> None:
+    """``log export`` and ``log import``: the ledger as ingestable files and back."""
     s = sub.add_parser("export", parents=[parent], help="write the ledger as ingestable files",
                        description="Write targets.jsonl, rv.csv, occultations.csv, done.csv and "
                        "posteriors.jsonl into DIR; 'log import DIR' into a fresh ledger gives the "
@@ -110,6 +136,9 @@ def register(subparsers) -> None:
     s.add_argument("folder", metavar="DIR")
     s.set_defaults(func=_run_import)
 
+
+def _register_update(sub, parent) -> None:
+    """``log update``: re-weight the posteriors with the ledger's measurements."""
     s = sub.add_parser("update", parents=[parent],
                        help="re-weight posteriors with the ledger's RVs and occultation data",
                        description="Assess each target from its stored catalogue row, re-weight "
@@ -122,8 +151,6 @@ def register(subparsers) -> None:
     s.add_argument("--no-store", action="store_true", help="do not store the posterior version")
     add_seed_option(s)
     s.set_defaults(func=_run_update)
-
-    p.set_defaults(func=lambda args: (p.print_help(), 2)[1])
 
 
 def run(args) -> int:  # pragma: no cover - dispatch happens through the sub-commands

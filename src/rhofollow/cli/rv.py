@@ -130,11 +130,52 @@ def _reachable(args, assessments, records, inst) -> str:
 
 
 def run(args) -> int:
-    from rhofollow.io.catalogue import read_catalogue
-    from rhofollow.io.instruments import InstrumentError, Spectrograph, read_instruments
-    from rhofollow.io.rvdata import RVDataError, read_rv_data
-    from rhofollow.stages.rv import CAUTION, plan_rv
+    """Run ``rhofollow rv``: plan RV follow-up for every catalogue target and print it.
 
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed options of the ``rv`` command (see :func:`register`).
+
+    Returns
+    -------
+    int
+        The exit status of the run (0 when every target was planned).
+    """
+    from rhofollow.stages.rv import CAUTION, plan_rv
+    from rhofollow.cli.common import count_progress
+
+    _check_numbers(args)
+    insts, plan_inst = _read_spectrographs(args)
+    rv_data = _read_rvs(args, insts)
+    cat = _read_targets(args, rv_data)
+    assessments = run_assessment(cat.targets, args)
+    with count_progress(len(assessments), "RV planning") as prog:
+        task2 = prog.add_task("RV planning", total=len(assessments))
+        records = plan_rv(assessments, plan_inst, rv_data, fap=args.fap, power=args.power, seed=args.seed,
+                          relation=args.relation, k_mode=args.k_mode, n_null=args.sims,
+                          n_alt=min(400, args.sims), progress=lambda: prog.advance(task2))
+
+    where = None
+    if args.site:
+        where = _reachable(args, assessments, records, plan_inst)
+    _print_results(args, records, plan_inst.name, where, CAUTION)
+    from rhofollow.stages.records import envelope
+
+    doc = envelope("rv", catalogue=cat, seed=args.seed, targets=records, caution=CAUTION,
+                   payload={"instrument": plan_inst.name, "instrument_file": plan_inst.source,
+                            "fap": args.fap, "power": args.power, "samples": args.samples,
+                            "phase_model": "reachable" if where else "uniform",
+                            "site": args.site, "start": args.start if where else None,
+                            "end": args.end if where else None,
+                            "rv_data": str(args.rv_data) if args.rv_data else None})
+    if args.json:
+        write_json(args.json, doc)
+    return doc["exit_status"]
+
+
+def _check_numbers(args) -> None:
+    """Refuse a --fap or --power outside (0, 1) and too few --sims or --samples."""
     if not 0 < args.fap < 1:
         raise UserError(f"--fap must lie between 0 and 1, got {args.fap}")
     if not 0 < args.power < 1:
@@ -143,6 +184,12 @@ def run(args) -> int:
         raise UserError(f"--sims must be at least {MIN_SIMS}, got {args.sims}")
     if args.samples < MIN_PLANNING_SAMPLES:
         raise UserError(f"--samples must be at least {MIN_PLANNING_SAMPLES}, got {args.samples}")
+
+
+def _read_spectrographs(args):
+    """The --instrument files by name, and the first one (a spectrograph, planned with)."""
+    from rhofollow.io.instruments import InstrumentError, Spectrograph, read_instruments
+
     try:
         insts = read_instruments(args.instrument)
     except InstrumentError as exc:
@@ -151,12 +198,25 @@ def run(args) -> int:
     if not isinstance(plan_inst, Spectrograph):
         raise UserError(f"{args.instrument[0]}: key 'kind' is \"{plan_inst.kind}\"; the rv command needs a "
                         "spectrograph")
-    rv_data = None
-    if args.rv_data:
-        try:
-            rv_data = read_rv_data(args.rv_data, known_instruments=insts.keys())
-        except RVDataError as exc:
-            raise UserError(str(exc)) from None
+    return insts, plan_inst
+
+
+def _read_rvs(args, insts):
+    """The measured RVs of --rv-data by target name (None without the option)."""
+    from rhofollow.io.rvdata import RVDataError, read_rv_data
+
+    if not args.rv_data:
+        return None
+    try:
+        return read_rv_data(args.rv_data, known_instruments=insts.keys())
+    except RVDataError as exc:
+        raise UserError(str(exc)) from None
+
+
+def _read_targets(args, rv_data):
+    """The catalogue, with its row problems and the RVs that match no target printed."""
+    from rhofollow.io.catalogue import read_catalogue
+
     if not Path(args.catalog).exists():
         raise UserError(f"{args.catalog}: catalogue file not found")
     try:
@@ -171,21 +231,13 @@ def run(args) -> int:
         unknown = sorted(set(rv_data) - {t.name for t in cat.targets})
         for name in unknown:
             message(f"RVs of {name} ({rv_data[name].source}) match no catalogue target", "warning")
-    from rhofollow.cli.common import count_progress
+    return cat
 
-    assessments = run_assessment(cat.targets, args)
-    with count_progress(len(assessments), "RV planning") as prog:
-        task2 = prog.add_task("RV planning", total=len(assessments))
-        records = plan_rv(assessments, plan_inst, rv_data, fap=args.fap, power=args.power, seed=args.seed,
-                          relation=args.relation, k_mode=args.k_mode, n_null=args.sims,
-                          n_alt=min(400, args.sims), progress=lambda: prog.advance(task2))
 
-    where = None
-    if args.site:
-        where = _reachable(args, assessments, records, plan_inst)
-
+def _print_results(args, records, instrument: str, where: str | None, caution: str) -> None:
+    """Print the RV and update tables, their notes, the caution and every target's problems."""
     con = console()
-    fitted = rv_table(records, plan_inst.name, args.fap, args.power, con.width)
+    fitted = rv_table(records, instrument, args.fap, args.power, con.width)
 
     con.print(fitted.table)
     table_note(fitted)
@@ -203,21 +255,9 @@ def run(args) -> int:
     say("K, Mp: median (68 % interval). Phases: orbital phases from mid-transit (0..1) where eccentric and "
         "circular orbits differ most. ?: unreliable quantiles (effective sample size below the floor).",
         style="dim")
-    message(CAUTION, "caution", to_stdout=True)
+    message(caution, "caution", to_stdout=True)
     for r in records:
         for e in r.get("errors", []):
             message(f"{r['name']}: {e}", "error")
         for w in r.get("warnings", []):
             message(f"{r['name']}: {w}", "warning")
-    from rhofollow.stages.records import envelope
-
-    doc = envelope("rv", catalogue=cat, seed=args.seed, targets=records, caution=CAUTION,
-                   payload={"instrument": plan_inst.name, "instrument_file": plan_inst.source,
-                            "fap": args.fap, "power": args.power, "samples": args.samples,
-                            "phase_model": "reachable" if where else "uniform",
-                            "site": args.site, "start": args.start if where else None,
-                            "end": args.end if where else None,
-                            "rv_data": str(args.rv_data) if args.rv_data else None})
-    if args.json:
-        write_json(args.json, doc)
-    return doc["exit_status"]
