@@ -16,6 +16,13 @@ COMMANDS = ["demo", "check", "assess", "eclipses", "rv", "night", "campaign", "p
 
 
 def build_parser() -> argparse.ArgumentParser:
+    """The ``rhofollow`` parser with every command of :data:`COMMANDS` registered.
+
+    Returns
+    -------
+    argparse.ArgumentParser
+        The parser.
+    """
     p = argparse.ArgumentParser(
         prog="rhofollow",
         description="Eccentricity constraints from the stellar-density mismatch of transiting "
@@ -36,7 +43,19 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: list[str] | None = None) -> int:
-    """Run one command; offline-table notices print as one ``notice:`` line (no source line)."""
+    """Run one command; offline-table notices print as one ``notice:`` line (no source line).
+
+    Parameters
+    ----------
+    argv : list of str or None
+        The arguments (None: ``sys.argv[1:]``).
+
+    Returns
+    -------
+    int
+        The exit status: 0 success, 1 some targets failed, 2 a problem the user can fix, 3 an internal
+        error, 130 interrupted.
+    """
     import warnings
 
     from rhofollow.core.timescales import OfflineTablesWarning

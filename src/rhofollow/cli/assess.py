@@ -16,6 +16,13 @@ CAUTION = ("Advisory only: the eccentricity posterior assumes the transit parame
 
 
 def register(subparsers) -> None:
+    """Add the ``assess`` command (the eccentricity posterior of each candidate) to the command-line parser.
+
+    Parameters
+    ----------
+    subparsers : argparse._SubParsersAction
+        The sub-command registry of the ``rhofollow`` parser.
+    """
     p = subparsers.add_parser(
         "assess", help="eccentricity posterior from the stellar-density mismatch of each candidate",
         description="Compare the circular-orbit density implied by each transit with the star's "
@@ -94,7 +101,20 @@ def _favoured_cell(r: dict):
 
 
 def summary_table(records: list[dict], width: int = 80) -> FittedTable:
-    """The terminal table, one row per target, with the columns that fit ``width`` (densities g/cm³)."""
+    """The terminal table, one row per target, with the columns that fit ``width``.
+
+    Parameters
+    ----------
+    records : list of dict
+        The assessment records.
+    width : int
+        Terminal width, in character cells.
+
+    Returns
+    -------
+    FittedTable
+        The table (densities in g/cm³, mismatch in sigma).
+    """
     cols = [Col("target", justify="left"), Col("ρ_circ", drop=3, what="ρ_circ"),
             Col("ρ★", drop=3, what="ρ★"), Col("ratio", drop=2), Col("mismatch"), Col("e_min", drop=4),
             Col("e [95%]", compact_header="e", what="e interval"),
@@ -116,7 +136,19 @@ def summary_table(records: list[dict], width: int = 80) -> FittedTable:
 
 
 def assessment_table(records: list[dict]):
-    """Astropy table of the per-target summary (for ECSV/CSV export)."""
+    """Astropy table of the per-target summary (for ECSV/CSV export).
+
+    Parameters
+    ----------
+    records : list of dict
+        The assessment records (failed targets are left out).
+
+    Returns
+    -------
+    astropy.table.Table
+        One row per assessed target: density quantiles (g/cm³), e and omega (deg) quantiles, mismatch
+        (sigma), P(e > 0.1), ESS, log evidences and the favoured explanation.
+    """
     from astropy.table import Table as ATable
     import astropy.units as u
 
@@ -140,7 +172,20 @@ def assessment_table(records: list[dict]):
 
 
 def write_samples(assessments, directory) -> int:
-    """Write each target's samples to DIR/<name>.ecsv atomically; returns how many were written."""
+    """Write each target's samples to DIR/<stem>.ecsv atomically.
+
+    Parameters
+    ----------
+    assessments : iterable
+        Assessments (those without samples are skipped).
+    directory : str or path-like
+        The folder (created when missing).
+
+    Returns
+    -------
+    int
+        Number of files written.
+    """
     d = Path(directory)
     d.mkdir(parents=True, exist_ok=True)
     n = 0
@@ -176,6 +221,18 @@ def _stream(targets, args):
 
 
 def run(args) -> int:
+    """Run ``rhofollow assess``: assess every valid catalogue row, print the table, write the requested files.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed options of the command (see :func:`register`).
+
+    Returns
+    -------
+    int
+        The exit status (0: success; see :func:`rhofollow.stages.records.envelope` for the others).
+    """
     result = load_catalogue(args.catalog)
     report_row_issues(result, quiet=True)
     assessments = _stream(result.targets, args)

@@ -16,6 +16,13 @@ __all__ = ["register", "run", "report_dict"]
 
 
 def register(subparsers) -> None:
+    """Add the ``check`` command (validate a catalogue and/or a site file) to the command-line parser.
+
+    Parameters
+    ----------
+    subparsers : argparse._SubParsersAction
+        The sub-command registry of the ``rhofollow`` parser.
+    """
     p = subparsers.add_parser(
         "check",
         help="validate a catalogue and/or a site file and list every problem",
@@ -32,7 +39,19 @@ def register(subparsers) -> None:
 
 
 def report_dict(result) -> dict:
-    """The machine-readable validation report of a :class:`CatalogueResult`."""
+    """The machine-readable validation report of a :class:`CatalogueResult`.
+
+    Parameters
+    ----------
+    result : rhofollow.core.types.CatalogueResult
+        What the catalogue reader returned.
+
+    Returns
+    -------
+    dict
+        ``ok``, ``n_warnings``, ``issues`` (row, name, column, reason, severity) and ``targets`` (the
+        errors and warnings of each row).
+    """
     by_row: dict[int, dict] = {}
     issues = []
     for i in result.issues:
@@ -62,7 +81,20 @@ def report_dict(result) -> dict:
 
 
 def problems_table(result, width: int = 80) -> FittedTable:
-    """The catalogue's problems, one row each; only the reason column folds."""
+    """The catalogue's problems, one row each; only the reason column folds.
+
+    Parameters
+    ----------
+    result : rhofollow.core.types.CatalogueResult
+        What the catalogue reader returned.
+    width : int
+        Terminal width, in character cells.
+
+    Returns
+    -------
+    FittedTable
+        The table.
+    """
     cols = [Col("row"), Col("name", justify="left"), Col("column", justify="left", wrap=True, max_width=20),
             Col("kind", justify="left"), Col("reason", justify="left", wrap=True)]
     rows = []
@@ -130,6 +162,18 @@ def _never_rising(site_path, result) -> dict[str, str]:
 
 
 def run(args) -> int:
+    """Run ``rhofollow check``: list every problem of the catalogue and/or the site file, compute nothing.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed options of the command (see :func:`register`).
+
+    Returns
+    -------
+    int
+        0: all rows valid; 1: some rows failed; 2: a file could not be used.
+    """
     from rhofollow.io.catalogue import CatalogueError, read_catalogue
     from rhofollow.stages.records import envelope
 

@@ -21,6 +21,13 @@ _ERR = None
 
 
 def console() -> Console:
+    """The shared stdout console (created on first use, so it sees the terminal width of the run).
+
+    Returns
+    -------
+    rich.console.Console
+        The console for results.
+    """
     global _CONSOLE
     if _CONSOLE is None:
         _CONSOLE = Console()
@@ -28,6 +35,13 @@ def console() -> Console:
 
 
 def err_console() -> Console:
+    """The shared stderr console (created on first use), for messages and progress bars.
+
+    Returns
+    -------
+    rich.console.Console
+        The console for messages.
+    """
     global _ERR
     if _ERR is None:
         _ERR = Console(stderr=True)
@@ -35,10 +49,26 @@ def err_console() -> Console:
 
 
 def add_json_option(p):
+    """Add ``--json PATH``: write the machine-readable result as JSON.
+
+    Parameters
+    ----------
+    p : argparse.ArgumentParser
+        The command's parser.
+    """
     p.add_argument("--json", metavar="PATH", help="write the machine-readable result as JSON")
 
 
 def add_seed_option(p, default: int = DEFAULT_SEED):
+    """Add ``--seed N``: the random seed of the run.
+
+    Parameters
+    ----------
+    p : argparse.ArgumentParser
+        The command's parser.
+    default : int
+        The default seed.
+    """
     p.add_argument("--seed", type=int, default=default,
                    help=f"random seed; the same inputs and seed give the same outputs (default {default})")
 
@@ -47,7 +77,13 @@ def add_seed_option(p, default: int = DEFAULT_SEED):
 # catalogue + assessment shared by every command that needs posterior samples
 
 def add_assess_options(p) -> None:
-    """Options of the assessment stage (shared by assess, eclipses, rv, night, campaign, plan)."""
+    """Options of the assessment stage (shared by assess, eclipses, rv, night, campaign, plan).
+
+    Parameters
+    ----------
+    p : argparse.ArgumentParser
+        The command's parser.
+    """
     from rhofollow.physics.priors import DEFAULT_PRIOR, PRIOR_NAMES
 
     p.add_argument("--samples", type=int, default=DEFAULT_SAMPLES, metavar="N",
@@ -63,7 +99,13 @@ def add_assess_options(p) -> None:
 
 
 def add_plan_options(p) -> None:
-    """Options shared by the planning commands (night, campaign): assessment options plus the ledger."""
+    """Options shared by the planning commands (night, campaign): assessment options plus the ledger.
+
+    Parameters
+    ----------
+    p : argparse.ArgumentParser
+        The command's parser.
+    """
     add_assess_options(p)
     p.add_argument("--ledger", metavar="PATH",
                    help="campaign ledger (SQLite, see 'rhofollow log'): its RVs and occultation timings "
@@ -82,7 +124,18 @@ def _progress_columns(time_column):
 
 
 def stage_progress(transient: bool = True):
-    """Context manager: a rich Progress on stderr and a StageProgress callback drawing on it."""
+    """Context manager: a rich Progress on stderr and a StageProgress callback drawing on it.
+
+    Parameters
+    ----------
+    transient : bool
+        Remove the bars when the context ends.
+
+    Returns
+    -------
+    contextlib.AbstractContextManager
+        Yields ``stage(label, total)``, which adds a bar and returns its ``advance(k=1)`` callback.
+    """
     from contextlib import contextmanager
 
     from rich.progress import Progress, TimeElapsedColumn
@@ -101,7 +154,15 @@ def stage_progress(transient: bool = True):
 
 
 def report_row_issues(result, quiet: bool = False) -> None:
-    """Print the catalogue's row problems to stderr (one line each, never wrapped) and a summary line."""
+    """Print the catalogue's row problems to stderr (one line each, never wrapped) and a summary line.
+
+    Parameters
+    ----------
+    result : rhofollow.core.types.CatalogueResult
+        What the catalogue reader returned.
+    quiet : bool
+        Print errors only (no warnings).
+    """
     from rhofollow.cli.render import message
 
     for issue in result.issues:
@@ -113,7 +174,20 @@ def report_row_issues(result, quiet: bool = False) -> None:
 
 
 def load_catalogue(path, require_coords: bool = False):
-    """Read and validate a catalogue; file-level problems become a :class:`UserError`."""
+    """Read and validate a catalogue; file-level problems become a :class:`UserError`.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The catalogue file.
+    require_coords : bool
+        Also require ``ra_deg`` and ``dec_deg``.
+
+    Returns
+    -------
+    rhofollow.core.types.CatalogueResult
+        Valid targets and every row problem.
+    """
     from rhofollow.io.catalogue import CatalogueError, read_catalogue
 
     try:
@@ -125,7 +199,23 @@ def load_catalogue(path, require_coords: bool = False):
 
 
 def checked_prior(args):
-    """The eccentricity prior and sample count of the assessment options, checked (UserError if bad)."""
+    """The eccentricity prior of the assessment options, with the sample count checked.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        Parsed options with ``ecc_prior`` and ``samples``.
+
+    Returns
+    -------
+    object
+        The prior, as :func:`rhofollow.physics.priors.parse_prior` returns it.
+
+    Raises
+    ------
+    UserError
+        A bad ``--ecc-prior`` or too few ``--samples``.
+    """
     from rhofollow.physics.priors import parse_prior
 
     try:
@@ -138,7 +228,20 @@ def checked_prior(args):
 
 
 def count_progress(total: int, label: str = "assessing"):
-    """A transient rich progress bar on stderr (hidden for fewer than 5 items)."""
+    """A transient rich progress bar on stderr (hidden for fewer than 5 items).
+
+    Parameters
+    ----------
+    total : int
+        Number of items.
+    label : str
+        Unused here; the caller labels its task.
+
+    Returns
+    -------
+    rich.progress.Progress
+        The progress display (a context manager).
+    """
     from rich.progress import Progress, TimeRemainingColumn
 
     prog = Progress(*_progress_columns(TimeRemainingColumn), console=err_console(), transient=True,
@@ -147,7 +250,22 @@ def count_progress(total: int, label: str = "assessing"):
 
 
 def run_assessment(targets, args, label: str = "assessing"):
-    """Run the assessment with a progress bar on stderr; returns the list of Assessments."""
+    """Run the assessment with a progress bar on stderr.
+
+    Parameters
+    ----------
+    targets : list of rhofollow.core.types.Target
+        Validated catalogue rows.
+    args : argparse.Namespace
+        The assessment options (see :func:`add_assess_options`).
+    label : str
+        The progress bar's label.
+
+    Returns
+    -------
+    list
+        One Assessment per target, in input order.
+    """
     from rhofollow.stages.assess_many import assess_parallel
 
     prior = checked_prior(args)

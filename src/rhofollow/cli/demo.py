@@ -15,6 +15,13 @@ __all__ = ["register", "run"]
 
 
 def register(subparsers):
+    """Add the ``demo`` command (the whole chain on the bundled demo scenario) to the command-line parser.
+
+    Parameters
+    ----------
+    subparsers : argparse._SubParsersAction
+        The sub-command registry of the ``rhofollow`` parser.
+    """
     from rhofollow.cli.options import add_report_options
 
     p = subparsers.add_parser(
@@ -27,6 +34,18 @@ def register(subparsers):
 
 
 def run(args) -> int:
+    """Run ``rhofollow demo``: plan the bundled demo scenario from tonight into the report folder.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed options of the command (see :func:`register`).
+
+    Returns
+    -------
+    int
+        The exit status (0: success; see :func:`rhofollow.stages.records.envelope` for the others).
+    """
     from rhofollow.cli import options
     from rhofollow.cli.render import message
     from rhofollow.cli.runs import plan_to_folder

@@ -13,6 +13,13 @@ __all__ = ["register", "run", "parse_band", "read_filter_curve", "events_table"]
 
 
 def register(subparsers) -> None:
+    """Add the ``eclipses`` command (occultation timing, depth and windows) to the command-line parser.
+
+    Parameters
+    ----------
+    subparsers : argparse._SubParsersAction
+        The sub-command registry of the ``rhofollow`` parser.
+    """
     p = subparsers.add_parser(
         "eclipses", help="occultation (secondary-eclipse) timing, depth and observing windows",
         description="Predict each candidate's occultation from its eccentricity posterior: phase, "
@@ -41,7 +48,23 @@ def register(subparsers) -> None:
 
 
 def parse_band(text: str) -> tuple[float, float]:
-    """'4.5:1.0' -> (4.5, 1.0); a UserError names the option on bad input."""
+    """'4.5:1.0' -> (4.5, 1.0).
+
+    Parameters
+    ----------
+    text : str
+        The ``--band`` value, CENTRE:WIDTH in microns.
+
+    Returns
+    -------
+    (float, float)
+        Band centre and width, microns.
+
+    Raises
+    ------
+    UserError
+        Not two numbers (names the option).
+    """
     try:
         c, w = (float(v) for v in text.split(":"))
     except ValueError:
@@ -52,7 +75,20 @@ def parse_band(text: str) -> tuple[float, float]:
 def read_filter_curve(path: str):
     """Two-column filter file (wavelength in microns, response); '#' starts a comment.
 
-    Errors name the file and line.
+    Parameters
+    ----------
+    path : str
+        The filter file.
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        Wavelengths (microns) and responses (unitless), at least two rows.
+
+    Raises
+    ------
+    UserError
+        The file is unreadable, or a line is not two numbers (names the file and line).
     """
     lam, resp = [], []
     try:
@@ -103,7 +139,18 @@ def _q(d, nd=2, scale=1.0):
 
 
 def band_label(band: dict | None) -> str:
-    """'2.15 µm' for a top-hat band, 'filter 1.9–2.4 µm' for a filter curve."""
+    """'2.15 µm' for a top-hat band, 'filter 1.9–2.4 µm' for a filter curve.
+
+    Parameters
+    ----------
+    band : dict or None
+        The result's band (``center_um``, or ``filter`` with ``min_um`` / ``max_um``, microns).
+
+    Returns
+    -------
+    str
+        The label ('band ?' when unknown).
+    """
     band = band or {}
     if band.get("filter"):
         return f"filter {band['min_um']:g}–{band['max_um']:g} µm"
@@ -113,7 +160,20 @@ def band_label(band: dict | None) -> str:
 
 
 def events_table(result: dict, width: int = 80) -> FittedTable:
-    """Terminal table: one row per target with its first window; columns chosen for ``width``."""
+    """Terminal table: one row per target with its first window; columns chosen for ``width``.
+
+    Parameters
+    ----------
+    result : dict
+        The occultation result of :func:`rhofollow.stages.occultations.predict_occultations`.
+    width : int
+        Terminal width, in character cells.
+
+    Returns
+    -------
+    FittedTable
+        The table (times UTC, durations h, depths ppm).
+    """
     band = band_label(result.get("band"))
     cols = [Col("target", justify="left"), Col("phase [68%]", compact_header="phase", what="phase interval"),
             Col("P(occ)"), Col("duration h\n[68%]", compact_header="duration\nh", what="duration interval", drop=2),
@@ -148,6 +208,18 @@ def _q2(d, nd):
 
 
 def run(args) -> int:
+    """Run ``rhofollow eclipses``: predict every occultation between --start and --end, print them.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed options of the command (see :func:`register`).
+
+    Returns
+    -------
+    int
+        The exit status (0: success; see :func:`rhofollow.stages.records.envelope` for the others).
+    """
     from rhofollow.stages.occultations import EclipseInputError, EclipseOptions, predict_occultations
 
     opts = EclipseOptions(coverage=args.coverage, baseline_h=args.baseline,

@@ -37,6 +37,13 @@ def _add_duplicate_options(s) -> None:
 
 
 def register(subparsers) -> None:
+    """Add the ``log`` command (the campaign ledger and its actions) to the command-line parser.
+
+    Parameters
+    ----------
+    subparsers : argparse._SubParsersAction
+        The sub-command registry of the ``rhofollow`` parser.
+    """
     p = subparsers.add_parser(
         "log", help="the campaign ledger: record RVs, occultation timings and observations done",
         description="Keep the campaign's memory in one SQLite file: targets with their catalogue "
@@ -154,6 +161,18 @@ def _register_update(sub, parent) -> None:
 
 
 def run(args) -> int:  # pragma: no cover - dispatch happens through the sub-commands
+    """Run ``rhofollow log``: dispatch to the chosen action.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The parsed options of the command (see :func:`register`).
+
+    Returns
+    -------
+    int
+        The action's exit status.
+    """
     return args.func(args)
 
 
@@ -319,7 +338,20 @@ def _run_show(args) -> int:
 
 
 def ledger_table(result: dict, width: int = 80) -> FittedTable:
-    """The ledger summary, one row per target, with the columns that fit ``width``."""
+    """The ledger summary, one row per target, with the columns that fit ``width``.
+
+    Parameters
+    ----------
+    result : dict
+        The ``log show`` result: ``ledger`` and ``targets`` (the ledger's summary).
+    width : int
+        Terminal width, in character cells.
+
+    Returns
+    -------
+    FittedTable
+        The table (counts; latest posterior time UTC).
+    """
     cols = [Col("target", justify="left"), Col("catalogue\nrow", drop=2, what="catalogue row"),
             Col("RVs"), Col("occ.\ntimings"), Col("non-\ndetections"), Col("done"),
             Col("posterior\nversions", drop=1, what="posterior versions"),

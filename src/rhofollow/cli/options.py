@@ -26,7 +26,15 @@ DEMO_DAYS = 60
 
 
 def add_report_options(p, demo: bool = False) -> None:
-    """Options shared by ``plan`` and ``demo`` (``demo``: no catalogue, site or dates; shorter defaults)."""
+    """Options shared by ``plan`` and ``demo``.
+
+    Parameters
+    ----------
+    p : argparse.ArgumentParser
+        The command's parser.
+    demo : bool
+        The ``demo`` form: no catalogue, site or dates; shorter defaults.
+    """
     from rhofollow.physics.priors import DEFAULT_PRIOR
 
     if not demo:
@@ -61,7 +69,23 @@ def add_report_options(p, demo: bool = False) -> None:
 
 
 def load_site_arg(path):
-    """The site file named by ``--site`` (a :class:`UserError` naming file and key if invalid)."""
+    """The site file named by ``--site``.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The site file (TOML).
+
+    Returns
+    -------
+    rhofollow.planning.site.Site
+        The validated site.
+
+    Raises
+    ------
+    UserError
+        The file is missing or invalid (the message names file and key).
+    """
     from rhofollow.planning.site import ConfigError, load_site
 
     try:
@@ -83,8 +107,21 @@ def demo_paths() -> tuple[Path, Path]:
 
 
 def site_evening_date(site_path) -> dt.date:
-    """The local date of the evening in progress or coming at the site (before local noon: the
-    evening that began yesterday), from the site file's IANA time zone; today's UTC date if unreadable."""
+    """The local date of the evening in progress or coming at the site.
+
+    Before local noon it is the evening that began yesterday; the time zone is the site file's IANA
+    zone, and today's UTC date is used when the file is unreadable.
+
+    Parameters
+    ----------
+    site_path : str or path-like
+        The site file (TOML).
+
+    Returns
+    -------
+    datetime.date
+        The local date of the evening.
+    """
     from rhofollow.planning.site import ConfigError, load_site
 
     try:
@@ -96,7 +133,13 @@ def site_evening_date(site_path) -> dt.date:
 
 
 def add_hours_option(p) -> None:
-    """``--hours INSTRUMENT=H`` (repeatable): RV budgets per spectrograph."""
+    """Add ``--hours INSTRUMENT=H`` (repeatable): RV budgets per spectrograph.
+
+    Parameters
+    ----------
+    p : argparse.ArgumentParser
+        The command's parser.
+    """
     from rhofollow.planning.budget import MIN_GAIN_PER_HOUR
 
     p.add_argument("--hours", metavar="INSTRUMENT=H", action="append",
@@ -107,7 +150,25 @@ def add_hours_option(p) -> None:
 
 
 def parse_hours(values, spectrographs) -> dict | None:
-    """``["AQ-VEL=40", ...]`` -> ``{"AQ-VEL": 40.0}``; a :class:`UserError` naming the bad value."""
+    """``["AQ-VEL=40", ...]`` -> ``{"AQ-VEL": 40.0}``.
+
+    Parameters
+    ----------
+    values : list of str or None
+        The ``--hours`` values.
+    spectrographs : iterable of str
+        Names of the site's spectrographs.
+
+    Returns
+    -------
+    dict of str to float, or None
+        Hours per spectrograph (None without ``--hours``).
+
+    Raises
+    ------
+    UserError
+        A value that is malformed, not positive, names an unknown spectrograph or repeats one.
+    """
     import math
 
     if not values:
@@ -135,8 +196,23 @@ def parse_hours(values, spectrographs) -> dict | None:
 
 
 def night_range(start_text: str, end_text: str) -> tuple[dt.date, dt.date]:
-    """``--start`` and ``--end`` as dates (YYYY-MM-DD), in order, spanning at most :data:`MAX_NIGHTS`
-    evenings; a :class:`UserError` naming the option otherwise."""
+    """``--start`` and ``--end`` as dates, in order, spanning at most :data:`MAX_NIGHTS` evenings.
+
+    Parameters
+    ----------
+    start_text, end_text : str
+        Local dates of the first and last evening, YYYY-MM-DD.
+
+    Returns
+    -------
+    (datetime.date, datetime.date)
+        The first and last evening.
+
+    Raises
+    ------
+    UserError
+        A malformed date, ``--end`` before ``--start``, or too many nights (names the option).
+    """
     dates = []
     for text, opt in ((start_text, "--start"), (end_text, "--end")):
         try:

@@ -37,6 +37,17 @@ def message(text, kind: str | None = None, *, to_stdout: bool = False, style: st
 
     Errors, warnings, notices and progress go to stderr; ``to_stdout`` is for lines that belong to the
     result (cautions, table notes, report locations).
+
+    Parameters
+    ----------
+    text : object
+        The message (converted with ``str``; line breaks become spaces).
+    kind : str or None
+        The word before the colon ("error", "warning", "notice", ...; None: no prefix).
+    to_stdout : bool
+        Print on stdout instead of stderr.
+    style : str
+        rich style of the text.
     """
     from rhofollow.cli.common import console, err_console
 
@@ -49,7 +60,15 @@ def message(text, kind: str | None = None, *, to_stdout: bool = False, style: st
 
 
 def say(text, style: str = "") -> None:
-    """One line of result text on stdout (never wrapped)."""
+    """One line of result text on stdout (never wrapped).
+
+    Parameters
+    ----------
+    text : object
+        The line (converted with ``str``).
+    style : str
+        rich style of the text.
+    """
     message(text, to_stdout=True, style=style)
 
 
@@ -73,6 +92,13 @@ class Col:
     max_width: int | None = None  # only for ``wrap`` columns: fold beyond this width
 
     def label(self) -> str:
+        """How the left-out note names the column.
+
+        Returns
+        -------
+        str
+            ``what``, or the header on one line.
+        """
         return self.what or " ".join(self.header.split())
 
 
@@ -86,7 +112,18 @@ class FittedTable:
     width: int = 0
 
     def note(self, how: str = "a wider terminal or --json") -> str | None:
-        """One line saying what was left out and how to get it (None if nothing was)."""
+        """One line saying what was left out and how to get it.
+
+        Parameters
+        ----------
+        how : str
+            Where the left-out columns can be seen.
+
+        Returns
+        -------
+        str or None
+            The note (None if nothing was left out or shortened).
+        """
         parts = []
         if self.left_out:
             parts.append("left out " + ", ".join(self.left_out))
@@ -149,9 +186,29 @@ def fit_table(title: str | None, cols: list[Col], rows: list[list], width: int, 
               row_styles: list | None = None, caption: str | None = None) -> FittedTable:
     """Choose the columns of a table for ``width`` terminal columns (see the module docstring).
 
-    ``rows`` hold one cell per column: a str, a rich Text, or a tuple (full, compact) for a column
-    with a compact form. Columns with ``drop == 0`` are always kept; if even they do not fit, every
-    column may fold (nothing is cut, a long name breaks across lines).
+    Columns with ``drop == 0`` are always kept; if even they do not fit, every column may fold
+    (nothing is cut, a long name breaks across lines).
+
+    Parameters
+    ----------
+    title : str or None
+        The table's title.
+    cols : list of Col
+        The columns, in display order.
+    rows : list of list
+        One cell per column: a str, a rich Text, or a tuple (full, compact) for a column with a
+        compact form.
+    width : int
+        Terminal width, in character cells.
+    row_styles : list or None
+        rich style per row.
+    caption : str or None
+        Text under the table.
+
+    Returns
+    -------
+    FittedTable
+        The table and the columns left out or shortened.
     """
     row_styles = list(row_styles) if row_styles is not None else [None] * len(rows)
     keep = list(range(len(cols)))
@@ -191,6 +248,15 @@ def fit_table(title: str | None, cols: list[Col], rows: list[list], width: int, 
 
 
 def table_note(fitted: FittedTable, how: str = "a wider terminal or --json") -> None:
+    """Print the one-line note of what a fitted table left out (nothing when it left nothing out).
+
+    Parameters
+    ----------
+    fitted : FittedTable
+        The fitted table.
+    how : str
+        Where the left-out columns can be seen.
+    """
     note = fitted.note(how)
     if note:
         say(note, style="dim")
@@ -198,7 +264,22 @@ def table_note(fitted: FittedTable, how: str = "a wider terminal or --json") -> 
 
 def print_table(con: Console, title, cols, rows, *, row_styles=None, caption=None,
                 how: str = "a wider terminal or --json") -> FittedTable:
-    """Fit a table to ``con``'s width, print it and the one-line note of what was left out."""
+    """Fit a table to ``con``'s width, print it and the one-line note of what was left out.
+
+    Parameters
+    ----------
+    con : rich.console.Console
+        Where to print.
+    title, cols, rows, row_styles, caption
+        As for :func:`fit_table`.
+    how : str
+        Where the left-out columns can be seen.
+
+    Returns
+    -------
+    FittedTable
+        The printed table.
+    """
     fitted = fit_table(title, cols, rows, con.width, row_styles=row_styles, caption=caption)
     con.print(fitted.table)
     table_note(fitted, how)

@@ -34,8 +34,26 @@ class Prepared:
 
 
 def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
-    """Read the catalogue, run assess -> eclipses -> rv for [start_iso, end_iso] (UTC) at ``site``
-    (through :func:`rhofollow.pipeline.run_stages`, with the ledger when ``--ledger`` is given)."""
+    """Read the catalogue, run assess -> eclipses -> rv for [start_iso, end_iso] (UTC) at ``site``.
+
+    The stages run through :func:`rhofollow.pipeline.run_stages`, with the ledger when ``--ledger`` is
+    given.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        The options of ``night`` or ``campaign`` (see :func:`rhofollow.cli.common.add_plan_options`).
+    site : rhofollow.planning.site.Site
+        The observing site.
+    start_iso, end_iso : str
+        The planned interval, ISO times (UTC).
+
+    Returns
+    -------
+    Prepared
+        Site, visibility engine, science records, skipped targets, overheads (hours) and the rest the
+        planners need (empty when no catalogue row is valid).
+    """
     from rhofollow.pipeline import PipelineError, PipelineOptions, run_stages
     from rhofollow.planning.visibility import VisibilityEngine
 
@@ -58,7 +76,24 @@ def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
 
 
 def nothing_to_plan(command: str, args, prep: Prepared, payload: dict) -> int:
-    """Every catalogue row failed validation: say so, write the envelope (row errors only), exit 1."""
+    """Every catalogue row failed validation: say so, write the envelope (row errors only).
+
+    Parameters
+    ----------
+    command : str
+        The command's name, for the envelope.
+    args : argparse.Namespace
+        The command's options (``catalog``, ``seed``, ``samples``, ``json``).
+    prep : Prepared
+        What :func:`prepare` returned.
+    payload : dict
+        The command's own envelope fields.
+
+    Returns
+    -------
+    int
+        The envelope's exit status (1).
+    """
     from rhofollow.stages.records import envelope
 
     message(f"{args.catalog}: no valid target rows to plan", "error")
@@ -70,10 +105,32 @@ def nothing_to_plan(command: str, args, prep: Prepared, payload: dict) -> int:
 
 
 def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, command: str = "plan") -> dict:
-    """Run the pipeline and write the report folder; returns ``write_report``'s dict plus the result.
+    """Run the pipeline and write the report folder.
 
-    A catalogue without a valid row writes no folder: the dict then has ``doc`` (the envelope with the
-    row errors) and no ``files``."""
+    A catalogue without a valid row writes no folder: the dict then has ``doc`` (the envelope with
+    the row errors) and an empty ``files``.
+
+    Parameters
+    ----------
+    catalog : str or path-like
+        The catalogue file.
+    site_path : str or path-like
+        The site file (TOML).
+    start, end : datetime.date
+        Local dates of the first and last evening.
+    out : str or path-like
+        The report folder (created, or an earlier report folder replaced).
+    args : argparse.Namespace
+        The options of :func:`rhofollow.cli.options.add_report_options`.
+    command : str
+        The command's name, for the envelope.
+
+    Returns
+    -------
+    dict
+        ``write_report``'s dict (``doc``, ``files``, ...) plus ``result`` (the pipeline result) and
+        ``n_row_errors``.
+    """
     from rhofollow.io.rvdata import RVDataError, read_rv_data
     from rhofollow.pipeline import PipelineError, PipelineOptions, run_pipeline
     from rhofollow.io.atomic import NoSpaceError

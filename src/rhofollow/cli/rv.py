@@ -15,6 +15,13 @@ __all__ = ["register", "run"]
 
 
 def register(subparsers):
+    """Add the ``rv`` command (RV amplitude, epochs and hours to confirm e > 0) to the parser.
+
+    Parameters
+    ----------
+    subparsers : argparse._SubParsersAction
+        The sub-command registry of the ``rhofollow`` parser.
+    """
     p = subparsers.add_parser(
         "rv", help="RV semi-amplitude, epochs and hours to confirm e > 0, update from measured RVs",
         description="For every catalogue target: the RV semi-amplitude K and planet mass, the per-epoch "
@@ -64,7 +71,26 @@ def _fmt(q, digits=3):
 
 
 def rv_table(records: list[dict], instrument: str, fap: float, power: float, width: int = 80) -> FittedTable:
-    """The RV follow-up table with the columns that fit ``width``."""
+    """The RV follow-up table with the columns that fit ``width``.
+
+    Parameters
+    ----------
+    records : list of dict
+        The RV records of :func:`rhofollow.stages.rv.plan_rv`.
+    instrument : str
+        The spectrograph planned with.
+    fap : float
+        False-alarm probability of the eccentricity test.
+    power : float
+        Required probability of confirming e > 0.
+    width : int
+        Terminal width, in character cells.
+
+    Returns
+    -------
+    FittedTable
+        The table (K and sigma in m/s, Mp in Earth masses, exposures s, hours h).
+    """
     from rhofollow.physics.rvconfirm import N_LADDER
 
     cols = [Col("target", justify="left"), Col("K m/s (68%)", compact_header="K m/s", what="K interval"),
@@ -89,7 +115,22 @@ def rv_table(records: list[dict], instrument: str, fap: float, power: float, wid
 
 
 def update_table(records: list[dict], fap: float, width: int = 80) -> FittedTable | None:
-    """The table of eccentricities updated from measured RVs (None when no target has RVs)."""
+    """The table of eccentricities updated from measured RVs.
+
+    Parameters
+    ----------
+    records : list of dict
+        The RV records of :func:`rhofollow.stages.rv.plan_rv`.
+    fap : float
+        False-alarm probability of the eccentricity test.
+    width : int
+        Terminal width, in character cells.
+
+    Returns
+    -------
+    FittedTable or None
+        The table (omega deg, K m/s), or None when no target has RVs.
+    """
     if not any("ecc_confirmed" in r for r in records):
         return None
     cols = [Col("target", justify="left"), Col("RVs"), Col("e (68%)"), Col("ω deg", drop=2),

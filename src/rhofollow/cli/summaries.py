@@ -17,8 +17,17 @@ __all__ = ["print_planner_messages", "summary_table", "print_plan_summary", "rv_
 
 
 def print_planner_messages(notices, doc: dict, unreachable: dict) -> None:
-    """One line each on stderr: the stages' ``notices``, the targets ``doc`` skipped, each target's
-    errors, and the targets no instrument of the site can reach (``unreachable``: name -> reason)."""
+    """One line each on stderr: notices, skipped targets, target errors and unreachable targets.
+
+    Parameters
+    ----------
+    notices : iterable of str
+        The stages' notices.
+    doc : dict
+        The run's envelope (``skipped`` and ``targets`` with their ``errors``).
+    unreachable : dict of str to str
+        Targets no instrument of the site can reach: name -> reason.
+    """
     for n in notices:
         message(n, "notice")
     for s in doc["skipped"]:
@@ -45,6 +54,20 @@ def summary_table(doc: dict, width: int = 80, top: int | None = 8) -> FittedTabl
 
     The rank follows the priority; equal priorities are ordered by the density mismatch, shown in
     the column named as the tie-breaker.
+
+    Parameters
+    ----------
+    doc : dict
+        The plan's envelope.
+    width : int
+        Terminal width, in character cells.
+    top : int or None
+        Show only the first ``top`` targets (None: all).
+
+    Returns
+    -------
+    FittedTable
+        The table (mismatch in sigma, hours in h).
     """
     from rhofollow.report.summary import ranked_table
 
@@ -75,7 +98,17 @@ def summary_table(doc: dict, width: int = 80, top: int | None = 8) -> FittedTabl
 
 
 def print_plan_summary(written: dict, out: Path, top: int = 8) -> None:
-    """The end of a ``plan`` or ``demo`` run: ranked targets, hours, the caution, where the report is."""
+    """The end of a ``plan`` or ``demo`` run: ranked targets, hours, the caution, where the report is.
+
+    Parameters
+    ----------
+    written : dict
+        What :func:`rhofollow.cli.runs.plan_to_folder` returned.
+    out : pathlib.Path
+        The report folder.
+    top : int
+        Targets shown in the table.
+    """
     from rhofollow.report.summary import CAUTIONS
 
     doc = written["doc"]
@@ -104,7 +137,18 @@ def print_plan_summary(written: dict, out: Path, top: int = 8) -> None:
 
 
 def rv_request_lines(req: dict | None) -> list[str]:
-    """Plain sentences on the RV request (budget or threshold) for the terminal."""
+    """Plain sentences on the RV request (budget or threshold) for the terminal.
+
+    Parameters
+    ----------
+    req : dict or None
+        The plan's RV request (hours per spectrograph in h).
+
+    Returns
+    -------
+    list of str
+        The lines (empty without a request).
+    """
     if not req:
         return []
     hrs = ", ".join(f"{k} {v:.1f} h" for k, v in req["hours_requested"].items()) or "none"
