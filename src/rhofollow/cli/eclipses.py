@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 from rich.text import Text
 
-from rhofollow.cli.common import (UserError, add_assess_options, add_json_option, console, err_console,
+from rhofollow.cli.common import (UserError, add_assess_options, add_json_option, console,
                      load_catalogue, report_row_issues, run_assessment, write_json)
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 

@@ -389,7 +389,6 @@ def _run_update(args) -> int:
         names = args.targets or None
         records = update_targets(lg, names, n_samples=args.samples, seed=args.seed,
                                  jitter_ms=args.jitter, store=not args.no_store)
-    out = console()
     for r in records:
         if not r["ok"]:
             message(f"{r['name']}: {'; '.join(r['errors'])}", "error")

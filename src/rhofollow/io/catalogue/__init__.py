@@ -8,7 +8,7 @@ Modules: ``columns`` (the column table, units, accepted ranges), ``tables`` (the
 VOTable readers), ``binding`` (file columns to canonical columns, unit conversion, cell parsing),
 ``checks`` (one row's checks), ``reader`` (:func:`read_catalogue`).
 """
-from rhofollow.io.catalogue.columns import COLUMNS, COORDS, CatalogueError, ColumnSpec, PHYSICAL_RANGES, PPM, REQUIRED, SUPPORTED_EXTENSIONS, TORRES_TEFF_RANGE
+from rhofollow.io.catalogue.columns import COLUMNS, CatalogueError, ColumnSpec, PHYSICAL_RANGES, SUPPORTED_EXTENSIONS
 from rhofollow.io.catalogue.reader import read_catalogue
 
 __all__ = ["CatalogueError", "ColumnSpec", "COLUMNS", "read_catalogue", "SUPPORTED_EXTENSIONS",
