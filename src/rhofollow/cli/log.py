@@ -66,7 +66,7 @@ def _register_targets(sub, parent) -> None:
     s = sub.add_parser("targets", parents=[parent], help="record catalogue rows of targets",
                        description="Read a catalogue and store each valid row in the ledger "
                        "(needed by 'log update'). A changed row replaces the stored one.")
-    s.add_argument("catalog", metavar="CATALOG")
+    s.add_argument("catalog", metavar="CATALOG", help="target catalogue (CSV, ECSV or VOTable)")
     s.set_defaults(func=_run_targets)
 
 
@@ -75,7 +75,7 @@ def _register_rv(sub, parent) -> None:
     s = sub.add_parser("rv", parents=[parent], help="ingest an RV file (CSV)",
                        description="Columns bjd_tdb, rv_ms, rv_err_ms, instrument, and target when "
                        "the file holds several targets (else give --target).")
-    s.add_argument("file", metavar="FILE")
+    s.add_argument("file", metavar="FILE", help="RV file (CSV) with the columns above")
     s.add_argument("--target", metavar="NAME", help="target of a single-target file")
     _add_duplicate_options(s)
     s.set_defaults(func=_run_rv)
@@ -90,8 +90,9 @@ def _register_occultation(sub, parent) -> None:
                        "window_end_bjd_tdb, depth_limit_ppm, band_um, instrument) or one entry: "
                        "--target with --mid and --err-min (a measured mid-time), or --window "
                        "START END with --depth-limit (nothing seen down to that depth).")
-    s.add_argument("file", metavar="FILE", nargs="?")
-    s.add_argument("--target", metavar="NAME")
+    s.add_argument("file", metavar="FILE", nargs="?",
+                   help="CSV of occultation timings and non-detections (columns above)")
+    s.add_argument("--target", metavar="NAME", help="target of the one entry (instead of FILE)")
     s.add_argument("--mid", type=float, metavar="BJD_TDB", help="measured mid-occultation time")
     s.add_argument("--err-min", type=float, metavar="MIN", help="1-sigma error of --mid, minutes")
     s.add_argument("--window", type=float, nargs=2, metavar=("START", "END"),
@@ -99,7 +100,7 @@ def _register_occultation(sub, parent) -> None:
     s.add_argument("--depth-limit", type=float, metavar="PPM",
                    help="smallest occultation depth the observation would have detected")
     s.add_argument("--band", type=float, metavar="MICRON", help="central wavelength of the band")
-    s.add_argument("--instrument", default="", metavar="NAME")
+    s.add_argument("--instrument", default="", metavar="NAME", help="instrument of the entry")
     _add_duplicate_options(s)
     s.set_defaults(func=_run_occultation)
 
@@ -112,21 +113,24 @@ def _register_done(sub, parent) -> None:
                        description="Either a CSV (columns target, start_utc, kind, and optional "
                        "end_utc, instrument, outcome, note) or one entry with --target, --start "
                        "and --kind. Only outcome 'ok' counts as done for the planners.")
-    s.add_argument("file", metavar="FILE", nargs="?")
-    s.add_argument("--target", metavar="NAME")
+    s.add_argument("file", metavar="FILE", nargs="?", help="CSV of observations done (columns above)")
+    s.add_argument("--target", metavar="NAME", help="target of the one entry (instead of FILE)")
     s.add_argument("--start", metavar="UTC", help="ISO start time (UTC unless an offset is given)")
-    s.add_argument("--end", metavar="UTC")
-    s.add_argument("--kind", choices=OBSERVATION_KINDS)
-    s.add_argument("--instrument", default="", metavar="NAME")
-    s.add_argument("--outcome", choices=OBSERVATION_OUTCOMES, default="ok")
-    s.add_argument("--note", default="")
+    s.add_argument("--end", metavar="UTC", help="ISO end time (UTC unless an offset is given)")
+    s.add_argument("--kind", choices=OBSERVATION_KINDS, metavar="KIND",
+                   help=f"what was observed: {', '.join(OBSERVATION_KINDS)}")
+    s.add_argument("--instrument", default="", metavar="NAME", help="instrument used")
+    s.add_argument("--outcome", choices=OBSERVATION_OUTCOMES, default="ok",
+                   help="how it went (default ok); only ok counts as done for the planners")
+    s.add_argument("--note", default="", metavar="TEXT", help="free text stored with the observation")
     s.set_defaults(func=_run_done)
 
 
 def _register_show(sub, parent) -> None:
     """``log show``: the ledger summary or one target's records."""
     s = sub.add_parser("show", parents=[parent], help="summarise the ledger or one target")
-    s.add_argument("target", metavar="TARGET", nargs="?")
+    s.add_argument("target", metavar="TARGET", nargs="?",
+                   help="show this target's records (default: a summary of every target)")
     s.set_defaults(func=_run_show)
 
 
@@ -136,11 +140,11 @@ def _register_transfer(sub, parent) -> None:
                        description="Write targets.jsonl, rv.csv, occultations.csv, done.csv and "
                        "posteriors.jsonl into DIR; 'log import DIR' into a fresh ledger gives the "
                        "same content.")
-    s.add_argument("folder", metavar="DIR")
+    s.add_argument("folder", metavar="DIR", help="folder to write (created when missing)")
     s.set_defaults(func=_run_export)
 
     s = sub.add_parser("import", parents=[parent], help="ingest a folder written by 'log export'")
-    s.add_argument("folder", metavar="DIR")
+    s.add_argument("folder", metavar="DIR", help="folder written by 'log export'")
     s.set_defaults(func=_run_import)
 
 
@@ -151,8 +155,10 @@ def _register_update(sub, parent) -> None:
                        description="Assess each target from its stored catalogue row, re-weight "
                        "the samples with its RVs, occultation timings and non-detections, and "
                        "store the new posterior version.")
-    s.add_argument("targets", metavar="TARGET", nargs="*")
-    s.add_argument("--samples", type=int, default=DEFAULT_SAMPLES, metavar="N")
+    s.add_argument("targets", metavar="TARGET", nargs="*",
+                   help="targets to update (default: every target in the ledger)")
+    s.add_argument("--samples", type=int, default=DEFAULT_SAMPLES, metavar="N",
+                   help=f"posterior samples per target (default {DEFAULT_SAMPLES}; at least 100)")
     s.add_argument("--jitter", type=float, default=0.0, metavar="M_S",
                    help="stellar jitter added to the RV errors in quadrature (m/s)")
     s.add_argument("--no-store", action="store_true", help="do not store the posterior version")

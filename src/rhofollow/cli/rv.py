@@ -39,9 +39,10 @@ def register(subparsers):
                    help="false-alarm probability of the eccentricity test (default 0.01)")
     p.add_argument("--power", type=float, default=0.8,
                    help="required probability of confirming e > 0 (default 0.8)")
-    p.add_argument("--relation", default="auto",
+    p.add_argument("--relation", default="auto", metavar="NAME",
                    choices=["auto", "wrf16", "otegi20-rocky", "otegi20-volatile", "giant"],
-                   help="planet mass-radius relation when no mass is known (default auto)")
+                   help="planet mass-radius relation when no mass is known: auto, wrf16, otegi20-rocky, "
+                   "otegi20-volatile or giant (default auto)")
     p.add_argument("--k-mode", default="marginal", choices=["marginal", "mass"],
                    help="RV update: marginalise K analytically, or take K from the mass draws")
     p.add_argument("--sims", type=int, default=DEFAULT_SIMS,
