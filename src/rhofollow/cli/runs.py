@@ -131,7 +131,6 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
         ``write_report``'s dict (``doc``, ``files``, ...) plus ``result`` (the pipeline result) and
         ``n_row_errors``.
     """
-    from rhofollow.io.rvdata import RVDataError, read_rv_data
     from rhofollow.pipeline import PipelineError, PipelineOptions, run_pipeline
     from rhofollow.io.atomic import NoSpaceError
     from rhofollow.report.folder import ReportFolderError, check_report_folder, write_report
@@ -141,31 +140,9 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
     except ReportFolderError as exc:
         raise UserError(str(exc)) from None
 
-    if args.samples < MIN_SAMPLES:
-        raise UserError(f"--samples must be at least {MIN_SAMPLES}, got {args.samples}")
-    if args.sims < MIN_SIMS:
-        raise UserError(f"--sims must be at least {MIN_SIMS}, got {args.sims}")
-    if args.workers < 1:
-        raise UserError(f"--workers must be at least 1, got {args.workers}")
-    if end < start:
-        raise UserError(f"--end {end} is before --start {start}")
+    _check_report_options(args, start, end)
     site = load_site_arg(site_path)
-    rv_data = None
-    if args.rv_data:
-        try:
-            rv_data = read_rv_data(args.rv_data)
-        except RVDataError as exc:
-            raise UserError(str(exc)) from None
-    hours = None
-    if getattr(args, "hours", None):
-        from rhofollow.cli.options import parse_hours
-        from rhofollow.pipeline import _instruments
-
-        try:
-            spec, _phot = _instruments(site)
-        except PipelineError as exc:
-            raise UserError(str(exc)) from None
-        hours = parse_hours(args.hours, [spec.name] if spec is not None else [])
+    rv_data, hours = _rv_inputs(args, site)
     cat = load_catalogue(catalog, require_coords=True)
     report_row_issues(cat)
     if not cat.targets:
@@ -190,3 +167,39 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
     written["result"] = result
     written["n_row_errors"] = cat.n_failed
     return written
+
+
+def _check_report_options(args, start: dt.date, end: dt.date) -> None:
+    """Refuse too few --samples or --sims, fewer than one worker, and --end before --start."""
+    if args.samples < MIN_SAMPLES:
+        raise UserError(f"--samples must be at least {MIN_SAMPLES}, got {args.samples}")
+    if args.sims < MIN_SIMS:
+        raise UserError(f"--sims must be at least {MIN_SIMS}, got {args.sims}")
+    if args.workers < 1:
+        raise UserError(f"--workers must be at least 1, got {args.workers}")
+    if end < start:
+        raise UserError(f"--end {end} is before --start {start}")
+
+
+def _rv_inputs(args, site):
+    """(measured RVs of --rv-data or None, RV hours per spectrograph of --hours or None)."""
+    from rhofollow.io.rvdata import RVDataError, read_rv_data
+    from rhofollow.pipeline import PipelineError
+
+    rv_data = None
+    if args.rv_data:
+        try:
+            rv_data = read_rv_data(args.rv_data)
+        except RVDataError as exc:
+            raise UserError(str(exc)) from None
+    hours = None
+    if getattr(args, "hours", None):
+        from rhofollow.cli.options import parse_hours
+        from rhofollow.pipeline import _instruments
+
+        try:
+            spec, _phot = _instruments(site)
+        except PipelineError as exc:
+            raise UserError(str(exc)) from None
+        hours = parse_hours(args.hours, [spec.name] if spec is not None else [])
+    return rv_data, hours

@@ -285,12 +285,8 @@ def occultation_entry(target: str, values: dict) -> dict:
     Returns
     -------
     dict
-        The ``occultation_timings`` row.
-
-    Raises
-    ------
-    IngestError
-        With every problem of the entry (row 1, column, reason).
+        The ``occultation_timings`` row; a bad entry raises :class:`IngestError` (row 1, column,
+        reason).
     """
     r = {k: ("" if v is None else str(v) if isinstance(v, str) else repr(float(v)))
          for k, v in values.items()}
@@ -357,12 +353,7 @@ def done_entry(target: str, values: dict) -> dict:
     Returns
     -------
     dict
-        The ``observations`` row.
-
-    Raises
-    ------
-    IngestError
-        With every problem of the entry (row 1, column, reason).
+        The ``observations`` row; a bad entry raises :class:`IngestError` (row 1, column, reason).
     """
     errs = RowErrors("observation entry")
     if not target:
@@ -406,12 +397,8 @@ def parse_targets_jsonl(path: Path) -> list[tuple[str, str | None, str]]:
     Returns
     -------
     list of (str, str or None, str)
-        Target name, canonical catalogue JSON (None when the target has no catalogue row), source.
-
-    Raises
-    ------
-    IngestError
-        With every line that is not a target record.
+        Target name, canonical catalogue JSON (None when the target has no catalogue row), source;
+        a line that is not a target record raises :class:`IngestError`.
     """
     errs = RowErrors(str(path))
     trows = []
@@ -438,12 +425,8 @@ def parse_posteriors_jsonl(path: Path) -> list[dict]:
     Returns
     -------
     list of dict
-        ``posterior_versions`` rows (ESS and sample count as numbers, summary as compact JSON).
-
-    Raises
-    ------
-    IngestError
-        With every line that is not a posterior record.
+        ``posterior_versions`` rows (ESS and sample count as numbers, summary as compact JSON); a
+        line that is not a posterior record raises :class:`IngestError`.
     """
     errs = RowErrors(str(path))
     prows = []

@@ -285,12 +285,7 @@ class Ledger(LedgerQueries, LedgerTransfer):
         Returns
         -------
         IngestReport
-            Exactly the rows added (or that nothing was, for content already ingested).
-
-        Raises
-        ------
-        IngestError
-            With every problem of the input (file, row, column, reason); nothing is written then.
+            The rows added; an input with any problem raises :class:`IngestError` and writes nothing.
         """
         path = Path(path)
         rows = _parse.parse_occultations(path)
@@ -330,12 +325,7 @@ class Ledger(LedgerQueries, LedgerTransfer):
         Returns
         -------
         IngestReport
-            Exactly the rows added (or that nothing was, for content already ingested).
-
-        Raises
-        ------
-        IngestError
-            With every problem of the input (file, row, column, reason); nothing is written then.
+            The rows added; an input with any problem raises :class:`IngestError` and writes nothing.
         """
         rec = _parse.occultation_entry(target, dict(
             kind=kind, mid_bjd_tdb=mid_bjd_tdb, mid_err_min=mid_err_min,
@@ -356,12 +346,7 @@ class Ledger(LedgerQueries, LedgerTransfer):
         Returns
         -------
         IngestReport
-            Exactly the rows added (or that nothing was, for content already ingested).
-
-        Raises
-        ------
-        IngestError
-            With every problem of the input (file, row, column, reason); nothing is written then.
+            The rows added; an input with any problem raises :class:`IngestError` and writes nothing.
         """
         path = Path(path)
         rows = _parse.parse_done(path)
@@ -392,12 +377,7 @@ class Ledger(LedgerQueries, LedgerTransfer):
         Returns
         -------
         IngestReport
-            Exactly the rows added (or that nothing was, for content already ingested).
-
-        Raises
-        ------
-        IngestError
-            With every problem of the input (file, row, column, reason); nothing is written then.
+            The rows added; an input with any problem raises :class:`IngestError` and writes nothing.
         """
         rec = _parse.done_entry(target, dict(
             start_utc=start_utc or "", end_utc=end_utc or "", instrument=instrument or "",
