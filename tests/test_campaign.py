@@ -173,3 +173,32 @@ def test_campaign_retimes_visits_that_want_the_same_time():
                                  (iso_to_jd(b["start_utc"]), iso_to_jd(b["end_utc"]))])
     assert s1 >= e0 + 0.1 / 24 - 2e-5
     assert "_target" not in a and "_target" not in b
+
+
+def test_campaign_reports_the_solver_limits_and_the_gap_reached():
+    from rhofollow.planning.campaign import MIP_REL_GAP, TIME_LIMIT_S
+
+    # one night, two RV visits that compete for it: a MILP, proven optimal (gap 0)
+    rv = {"n_epochs_confirm_ecc": 1, "hours_confirm_ecc": 0.5, "best_phases": [0.2]}
+    sci = [science_entry(n, evidence=0.8, rv=rv, t0_bjd=JD0 - 1.0, period_d=2.5) for n in NAMES]
+    d = plan_campaign(sci, _nights(1), site="x", overhead_h=0.1).to_dict()
+    assert d["scheduler"] == {"time_limit_s": TIME_LIMIT_S, "mip_rel_gap": MIP_REL_GAP, "nights_scheduled": 1,
+                              "max_gap": 0.0, "nights_not_optimal": []}
+    assert (TIME_LIMIT_S, MIP_REL_GAP) == (60.0, 0.0)  # the documented defaults
+    # the contract test's six nights of windows and visits: every night with two items is optimal
+    d = plan_campaign(_science(), _nights(), site="x").to_dict()
+    assert d["scheduler"]["max_gap"] == 0.0 and d["scheduler"]["nights_not_optimal"] == []
+
+
+def test_scheduler_summary_names_a_night_stopped_by_the_time_limit():
+    from rhofollow.planning.campaign import scheduler_summary
+    from rhofollow.planning.scheduler import Schedule
+
+    solved = {"2026-12-02": Schedule([], 1.0, "milp", 0.0, "optimal", gap=0.0),
+              "2026-12-03": Schedule([], 2.0, "milp", 0.0, "time limit", gap=0.125)}
+    s = scheduler_summary(solved)
+    assert s["nights_scheduled"] == 2 and s["max_gap"] == 0.125
+    assert s["nights_not_optimal"] == [{"night": "2026-12-03", "status": "time limit", "gap": 0.125}]
+    solved["2026-12-04"] = Schedule([], 2.0, "milp", 0.0, "time limit", gap=float("nan"))
+    assert scheduler_summary(solved)["max_gap"] is None  # a gap the solver did not give
+    assert scheduler_summary({})["max_gap"] == 0.0 and scheduler_summary({})["nights_scheduled"] == 0

@@ -81,36 +81,12 @@ def test_night_respects_unobservable_time():
 # ---------------------------------------------------------------- real site, independent astropy check
 
 SITE = "site_configs/alto_quemado.toml"
-DATE = "2026-06-20"  # southern winter: a long night at the demo site
 
 
-@pytest.fixture(scope="module")
-def real_plan():
-    from rhofollow.planning.night import night_visibility
-    from rhofollow.planning.site import load_site
-    from rhofollow.planning.visibility import VisibilityEngine
-
-    site = load_site(SITE)
-    eng = VisibilityEngine(site)
-    night = eng.night(DATE)
-    s, e = night.start_jd, night.end_jd
-    # invented targets spread in RA; occultation windows placed inside the night by hand
-    targets = [("HTS-301", 200.0, -35.0), ("HTS-302", 250.0, -50.0), ("HTS-303", 280.0, -20.0),
-               ("HTS-304", 160.0, -60.0), ("HTS-305", 310.0, -5.0), ("HTS-306", 20.0, -30.0)]
-    sci = []
-    for k, (name, ra, dec) in enumerate(targets):
-        w0 = s + (0.5 + 1.3 * k) / 24
-        occ = {"p_occultation": 0.95, "occ_duration_h": 1.6,
-               "events": [{"epoch": 40 + k, "window_utc": [[jd_to_iso(w0), jd_to_iso(w0 + 2.5 / 24)]]}]}
-        rv = {"n_epochs_confirm_ecc": 5 + k, "hours_confirm_ecc": 0.4 * (5 + k), "best_phases": [0.3, 0.7]}
-        entry = science_entry(name, evidence=0.5 + 0.08 * k, occultation=occ, rv=rv,
-                              t0_bjd=s - 0.37 * k, period_d=1.5 + 0.9 * k)
-        entry["ra_deg"], entry["dec_deg"] = ra, dec
-        sci.append(entry)
-    vis = night_visibility(eng, night, sci)
-    plan = plan_night(sci, vis, site=site.name, night_start_jd=s, night_end_jd=e,
-                      overhead_h=(site.slew_minutes + site.setup_minutes) / 60)
-    return site, night, sci, plan.to_dict()
+@pytest.fixture()
+def real_plan(demo_night):
+    """The shared demo night (tests/conftest.py): site, night grid, science dicts, the plan's JSON."""
+    return demo_night.site, demo_night.night, demo_night.science, demo_night.plan.to_dict()
 
 
 def test_real_night_has_both_kinds(real_plan):

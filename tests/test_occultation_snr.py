@@ -8,7 +8,8 @@ from hypothesis import strategies as st
 
 from rhofollow.io.instruments import InstrumentError, read_instrument
 from rhofollow.physics.occultation_snr import event_snr, information_minutes, scatter_per_minute_ppm
-from rhofollow.planning.tasks import ValueModel, _undetectable, occultation_tasks
+from rhofollow.planning.funding import funding_refusal
+from rhofollow.planning.tasks import ValueModel, occultation_tasks
 
 
 def _trapezoid(t_min, t14_min, t23_min):
@@ -87,13 +88,13 @@ def test_information_time_limits():
 
 def test_funding_rule_names_the_numbers():
     model = ValueModel(min_occ_snr=3.0)
-    assert _undetectable({"occ_snr": 10.0}, 0.5, model) == ""
-    why = _undetectable({"occ_snr": 4.0}, 0.5, model)
+    assert funding_refusal({"occ_snr": 10.0}, 0.5, model) == ""
+    why = funding_refusal({"occ_snr": 4.0}, 0.5, model)
     assert why.startswith("not funded") and "4.0" in why and "0.50" in why and "2.0" in why
-    why = _undetectable({"occ_snr": None, "occ_snr_note": "occultation depth not computed: S/N not computed"},
+    why = funding_refusal({"occ_snr": None, "occ_snr_note": "occultation depth not computed: S/N not computed"},
                         0.9, model)
     assert "depth not computed" in why
-    assert _undetectable({}, 0.01, model) == ""  # hand-built record: not checked
+    assert funding_refusal({}, 0.01, model) == ""  # hand-built record: not checked
 
 
 class _Vis:

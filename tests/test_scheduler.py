@@ -177,3 +177,19 @@ def test_milp_fractional_lp_goes_to_branch_and_cut():
     assert mi.value == pytest.approx(solve_brute_force(tasks, 0.0).value) == pytest.approx(6.0)
     easy = solve_milp([FixedTask("a", 0, 1, 1.0), FlexibleTask("r", 1.0, ((0.0, 3.0),), 1.0)], 0.0)
     assert easy.note == "LP relaxation integral" and easy.value == pytest.approx(2.0)
+    # the gap reached (relative distance between HiGHS's bound and the value) is reported: 0 for a
+    # proven optimum, both after branch and cut and for an integral LP relaxation
+    assert mi.gap == 0.0 and easy.gap == 0.0
+    assert solve_fixed([FixedTask("a", 0, 1, 1.0)]).gap == 0.0  # the DP is exact
+
+
+def test_milp_gap_reached_stays_within_the_gap_accepted():
+    # same fractional instance: with a relative gap of 0.5 accepted, HiGHS may stop early, but the
+    # gap it reports is at most 0.5 and the value at least (1 - 0.5) times the optimum
+    tasks = [FlexibleTask("t0", 1.0, ((3.0, 5.0),), 2.0, step=1.0),
+             FlexibleTask("t1", 2.0, ((2.0, 4.0),), 1.0, step=1.0),
+             FlexibleTask("t2", 1.0, ((2.0, 3.0),), 3.0, step=1.0)]
+    mi = solve_milp(tasks, 0.0, mip_rel_gap=0.5)
+    assert mi.note == "branch and cut" and mi.status == "optimal"
+    assert 0.0 <= mi.gap <= 0.5
+    assert mi.value >= 0.5 * 6.0 - 1e-9

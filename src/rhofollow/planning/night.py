@@ -34,7 +34,30 @@ from rhofollow.stages.records import CAUTION  # noqa: E402  (one caution text fo
 def science_entry(name: str, *, evidence: float, occultation: dict | None = None, rv: dict | None = None,
                   t0_bjd: float = np.nan, period_d: float = np.nan, bjd_minus_jd: float = 0.0,
                   n_done: int = 0) -> dict:
-    """A per-target science dict for :func:`plan_night` (see the module docstring; units there)."""
+    """A per-target science dict for :func:`plan_night` and :func:`~.campaign.plan_campaign`.
+
+    Parameters
+    ----------
+    name : str
+        Target name.
+    evidence : float
+        Evidence ``E`` for an eccentric orbit (0..1; :mod:`.values`).
+    occultation, rv : dict or None
+        The target's occultation and RV records.
+    t0_bjd : float
+        Transit epoch (BJD_TDB, days).
+    period_d : float
+        Orbital period (days).
+    bjd_minus_jd : float
+        BJD_TDB - JD_UTC during the night (days).
+    n_done : int
+        RV visits already obtained.
+
+    Returns
+    -------
+    dict
+        The science dict (module docstring), numbers as plain floats in the units above.
+    """
     return {"name": name, "evidence": float(evidence), "occultation": occultation, "rv": rv,
             "t0_bjd": float(t0_bjd), "period_d": float(period_d), "bjd_minus_jd": float(bjd_minus_jd),
             "n_done": int(n_done)}
@@ -57,7 +80,13 @@ class NightPlan:
     cautions: list = field(default_factory=lambda: [CAUTION])
 
     def to_dict(self) -> dict:
-        """The ``night`` JSON contract."""
+        """The ``night`` JSON contract (module docstring).
+
+        Returns
+        -------
+        dict
+            JSON-ready plan: times in UTC, values dimensionless, the overhead in hours.
+        """
         return {"site": self.site,
                 "night_start_utc": jd_to_iso(self.night_start_jd),
                 "night_end_utc": jd_to_iso(self.night_end_jd),
@@ -98,6 +127,13 @@ def plan_night(science: list[dict], vis: VisGrid, *, site: str, night_start_jd: 
         Value constants.
     method : str
         Scheduler method ("auto", "dp", "milp", "greedy"); "greedy" only for comparisons.
+    time_limit : float or None
+        MILP time limit (seconds), used when RV visits compete.
+
+    Returns
+    -------
+    NightPlan
+        The chosen blocks (UTC, values dimensionless) and the tasks left out with the reason.
     """
     tasks, skipped = [], []
     for s in science:
@@ -257,9 +293,18 @@ def night_visibility(engine, night, entries: list[dict], location=None) -> VisGr
     Parameters
     ----------
     engine : rhofollow.planning.visibility.VisibilityEngine
-    night : NightGrid of that engine (``times_jd`` from dusk to dawn, JD UTC)
-    entries : science dicts with ``ra_deg``, ``dec_deg``
-    location : astropy EarthLocation for the barycentric correction (default: the engine's site)
+        The site's visibility engine.
+    night : NightGrid
+        A night of that engine (``times_jd`` from dusk to dawn, JD UTC).
+    entries : list of dict
+        Science dicts with ``ra_deg``, ``dec_deg`` (ICRS, degrees).
+    location : astropy.coordinates.EarthLocation or None
+        Site for the barycentric correction (default: the engine's site).
+
+    Returns
+    -------
+    VisGrid
+        Observability and airmass of the entries on the night's grid (JD, UTC).
     """
     t = night.times_jd
     names = [e["name"] for e in entries]

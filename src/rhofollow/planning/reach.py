@@ -32,7 +32,21 @@ def _circle(dec_deg, lat_deg):
 
 
 def highest_altitude_deg(dec_deg, lat_deg: float) -> np.ndarray:
-    """Upper-culmination altitude (deg) of declinations ``dec_deg`` at latitude ``lat_deg``: 90 - |phi - delta|."""
+    """Upper-culmination altitude of declinations at a latitude: 90 - |phi - delta|.
+
+    Parameters
+    ----------
+    dec_deg : float or array
+        Declinations (degrees).
+    lat_deg : float
+        Geodetic latitude of the site (degrees).
+
+    Returns
+    -------
+    ndarray
+        Highest geometric altitude (degrees), shaped like ``dec_deg``; negative for a star that
+        never rises.
+    """
     return 90.0 - np.abs(float(lat_deg) - np.asarray(dec_deg, dtype=float))
 
 
@@ -41,9 +55,17 @@ def unreachable_targets(site, targets, tolerance_deg: float = 0.2) -> dict[str, 
 
     Parameters
     ----------
-    site : :class:`rhofollow.planning.site.Site` (latitude and constraints)
-    targets : iterable of (name, dec_deg) pairs (degrees; a non-finite dec is ignored)
-    tolerance_deg : a target this close below the limit counts as reachable (deg)
+    site : :class:`rhofollow.planning.site.Site`
+        The site (latitude and constraints).
+    targets : iterable of (name, dec_deg) pairs
+        Target names and declinations (degrees; a non-finite dec is ignored).
+    tolerance_deg : float
+        A target this close below the limit counts as reachable (degrees).
+
+    Returns
+    -------
+    dict
+        Name -> one-sentence warning, for the unreachable targets only.
     """
     items = [(str(n), float(d)) for n, d in targets if d is not None and np.isfinite(float(d))]
     if not items:

@@ -27,9 +27,9 @@ import numpy as np
 from rhofollow.core.timescales import configure_offline
 from rhofollow.planning.site import Site
 from rhofollow.planning.visibility.ephemeris import (SUNSET_ALTITUDE_DEG, NightEphemeris, NightGrid,
-                                                     SiteFrame, compute_nights, datetime_to_jd,
-                                                     interp_rows, jd_to_datetime_utc, radec_to_unit,
-                                                     unit_vectors)
+                                                     datetime_to_jd, interp_rows, jd_to_datetime_utc)
+from rhofollow.planning.visibility.frame import SiteFrame
+from rhofollow.planning.visibility.geometry import NightGeometry
 
 __all__ = ["VisibilityEngine", "WindowObservability"]
 
@@ -58,7 +58,7 @@ class WindowObservability:
         return self.in_one_night & (self.fraction >= 1.0)
 
 
-class VisibilityEngine:
+class VisibilityEngine(NightGeometry):
     """Sun, Moon and target geometry and the site's constraints, vectorised over targets x times.
 
     Parameters
@@ -104,12 +104,34 @@ class VisibilityEngine:
 
     # ------------------------------------------------------------------ nights
     def night(self, date) -> NightGrid:
-        """The night starting on the evening of local ``date`` (a date or 'YYYY-MM-DD')."""
+        """The night starting on the evening of a local date.
+
+        Parameters
+        ----------
+        date : datetime.date or str
+            Local date of the evening ('YYYY-MM-DD').
+
+        Returns
+        -------
+        NightGrid
+            The night's limits and grid (JD, UTC).
+        """
         d = _as_date(date)
         return self._ephems([d])[0].grid
 
     def nights(self, start_date, end_date) -> list[NightGrid]:
-        """Nights whose evenings fall on local dates ``start_date`` .. ``end_date`` (inclusive)."""
+        """Nights whose evenings fall on local dates ``start_date`` .. ``end_date`` (inclusive).
+
+        Parameters
+        ----------
+        start_date, end_date : datetime.date or str
+            First and last local evening dates ('YYYY-MM-DD').
+
+        Returns
+        -------
+        list of NightGrid
+            One per date, in date order (JD, UTC).
+        """
         a, b = _as_date(start_date), _as_date(end_date)
         if b < a:
             raise ValueError(f"end date {b} is before start date {a}")
@@ -120,7 +142,18 @@ class VisibilityEngine:
         return out
 
     def coming_night_date(self, now_jd: float | None = None) -> _dt.date:
-        """Local date of the night in progress, or of the next one if the current one has ended."""
+        """Local date of the night in progress, or of the next one if the current one has ended.
+
+        Parameters
+        ----------
+        now_jd : float or None
+            The time (JD, UTC); None for the computer's clock.
+
+        Returns
+        -------
+        datetime.date
+            Local date of that night's evening.
+        """
         if now_jd is None:
             now_jd = datetime_to_jd(_dt.datetime.now(_dt.timezone.utc))
         d = self._night_date_of(now_jd)
@@ -130,12 +163,34 @@ class VisibilityEngine:
         return d
 
     def local_time(self, jd: float) -> _dt.datetime:
-        """Aware local datetime at the site of a JD (UTC)."""
+        """Local time at the site.
+
+        Parameters
+        ----------
+        jd : float
+            Time (JD, UTC).
+
+        Returns
+        -------
+        datetime.datetime
+            Aware datetime in the site's time zone.
+        """
         return jd_to_datetime_utc(jd).astimezone(self._tz)
 
     # ------------------------------------------------------------------ geometry
     def sun_altitude(self, times_jd) -> np.ndarray:
-        """Geometric altitude (deg) of the Sun's centre at each time (shape of ``times_jd``)."""
+        """Geometric altitude of the Sun's centre at each time.
+
+        Parameters
+        ----------
+        times_jd : float or array
+            Times (JD, UTC).
+
+        Returns
+        -------
+        ndarray
+            Altitude (degrees), shaped like ``times_jd``.
+        """
         t = np.asarray(times_jd, dtype=float)
         out = np.empty(t.shape)
         for e, idx in self._groups(t.ravel()):
@@ -146,7 +201,19 @@ class VisibilityEngine:
         return out
 
     def moon(self, times_jd) -> dict:
-        """Moon at each time: ``alt_deg``, ``az_deg`` (geometric, topocentric), ``illumination`` (0-1)."""
+        """The Moon at each time, topocentric and geometric.
+
+        Parameters
+        ----------
+        times_jd : float or array
+            Times (JD, UTC).
+
+        Returns
+        -------
+        dict
+            ``alt_deg``, ``az_deg`` (degrees, azimuth N = 0, E = 90) and ``illumination``
+            (illuminated fraction, 0-1), each shaped like ``times_jd``.
+        """
         t = np.asarray(times_jd, dtype=float).ravel()
         alt, az, ill = np.empty(t.shape), np.empty(t.shape), np.empty(t.shape)
         for e, idx in self._groups(t):
@@ -161,22 +228,74 @@ class VisibilityEngine:
                 "illumination": ill.reshape(shape)}
 
     def altaz(self, ra_deg, dec_deg, times_jd) -> tuple[np.ndarray, np.ndarray]:
-        """Geometric altitude and azimuth (deg, azimuth N=0 E=90) of N targets at T times: (N, T)."""
+        """Geometric altitude and azimuth of N targets at T times.
+
+        Parameters
+        ----------
+        ra_deg, dec_deg : float or array (N,)
+            Target coordinates (ICRS, degrees).
+        times_jd : float or array (T,)
+            Times (JD, UTC).
+
+        Returns
+        -------
+        alt, az : ndarray (N, T)
+            Altitude and azimuth (degrees, azimuth N = 0, E = 90).
+        """
         st = self._state(ra_deg, dec_deg, times_jd, want_az=True, want_moon=False)
         return st["alt"], st["az"]
 
     def altitude(self, ra_deg, dec_deg, times_jd) -> np.ndarray:
-        """Geometric altitude (deg) of N targets at T times, shape (N, T)."""
+        """Geometric altitude of N targets at T times.
+
+        Parameters
+        ----------
+        ra_deg, dec_deg : float or array (N,)
+            Target coordinates (ICRS, degrees).
+        times_jd : float or array (T,)
+            Times (JD, UTC).
+
+        Returns
+        -------
+        ndarray (N, T)
+            Altitude (degrees).
+        """
         return self._state(ra_deg, dec_deg, times_jd, want_az=False, want_moon=False)["alt"]
 
     def airmass(self, ra_deg, dec_deg, times_jd) -> np.ndarray:
-        """Plane-parallel airmass sec z, shape (N, T); +inf at or below the horizon."""
+        """Plane-parallel airmass sec z of N targets at T times.
+
+        Parameters
+        ----------
+        ra_deg, dec_deg : float or array (N,)
+            Target coordinates (ICRS, degrees).
+        times_jd : float or array (T,)
+            Times (JD, UTC).
+
+        Returns
+        -------
+        ndarray (N, T)
+            Airmass (dimensionless); +inf at or below the horizon.
+        """
         s = np.sin(np.radians(self.altitude(ra_deg, dec_deg, times_jd)))
         with np.errstate(divide="ignore"):
             return np.where(s > 0, 1.0 / np.where(s > 0, s, 1.0), np.inf)
 
     def moon_separation(self, ra_deg, dec_deg, times_jd) -> np.ndarray:
-        """Topocentric angular distance (deg) from the Moon's centre, shape (N, T)."""
+        """Topocentric angular distance of N targets from the Moon's centre at T times.
+
+        Parameters
+        ----------
+        ra_deg, dec_deg : float or array (N,)
+            Target coordinates (ICRS, degrees).
+        times_jd : float or array (T,)
+            Times (JD, UTC).
+
+        Returns
+        -------
+        ndarray (N, T)
+            Separation (degrees).
+        """
         st = self._state(ra_deg, dec_deg, times_jd, want_az=False, want_moon=True)
         return np.degrees(np.arccos(np.clip(st["cos_moon_sep"], -1.0, 1.0)))
 
@@ -187,6 +306,18 @@ class VisibilityEngine:
         Constraints: Sun below the twilight limit (strictly), target altitude >= the limit (and
         the horizon mask at its azimuth), Moon separation >= the limit at the Moon's illumination
         (skipped while the Moon is below the horizon if ``moon_ignore_below_horizon``).
+
+        Parameters
+        ----------
+        ra_deg, dec_deg : float or array (N,)
+            Target coordinates (ICRS, degrees).
+        times_jd : float or array (T,)
+            Times (JD, UTC).
+
+        Returns
+        -------
+        ndarray of bool (N, T)
+            Observable or not.
         """
         c = self.site.constraints
         st = self._state(ra_deg, dec_deg, times_jd, want_az=bool(c.horizon_mask),
@@ -216,12 +347,19 @@ class VisibilityEngine:
         Parameters
         ----------
         ra_deg, dec_deg : array (W,)
+            Target of each window (ICRS, degrees).
         windows_jd : array (W, 2)
             [start, end] JD (UTC) of each window (e.g. an occultation from first to last contact).
         baseline_minutes : float
             Out-of-event baseline added before and after each window.
         step_minutes : float, optional
             Sampling step (default: the engine's ``step_minutes``); the window ends are always sampled.
+
+        Returns
+        -------
+        WindowObservability
+            Observable fraction (0-1), whether each padded window lies in one night, that night's
+            date and the lowest altitude (degrees).
         """
         w = np.atleast_2d(np.asarray(windows_jd, dtype=float))
         ra = np.broadcast_to(np.asarray(ra_deg, dtype=float), (w.shape[0],))
@@ -254,9 +392,21 @@ class VisibilityEngine:
                       ) -> list[list[tuple[float, float]]]:
         """Intervals of one night during which each target is observable.
 
-        Returns, per target, a list of (start_jd, end_jd) (UTC): the first and last grid times of
-        each run of observable grid samples (``step_minutes`` resolution), keeping runs at least
-        ``min_duration_minutes`` long. Every grid sample inside a slot is observable.
+        Parameters
+        ----------
+        ra_deg, dec_deg : float or array (N,)
+            Target coordinates (ICRS, degrees).
+        night : NightGrid, datetime.date or str
+            The night, or the local date of its evening.
+        min_duration_minutes : float
+            Shortest slot kept (minutes).
+
+        Returns
+        -------
+        list of list of (start_jd, end_jd)
+            Per target, the first and last grid times (JD, UTC) of each run of observable grid
+            samples (``step_minutes`` resolution) at least ``min_duration_minutes`` long. Every
+            grid sample inside a slot is observable.
         """
         g = night if isinstance(night, NightGrid) else self.night(night)
         t = g.times_jd
@@ -273,150 +423,6 @@ class VisibilityEngine:
             ends = np.flatnonzero(d[i] == -1) - 1
             out.append([(float(t[a]), float(t[b])) for a, b in zip(starts, ends)
                         if t[b] - t[a] >= need])
-        return out
-
-    # ------------------------------------------------------------------ internals
-    def _night_date_of(self, jd: float) -> _dt.date:
-        """Local date D such that local noon of D <= jd < local noon of D+1."""
-        d = self.local_time(jd).date()
-        if jd < self._noon_jd(d):     # compare JDs, not rounded clock readings
-            d -= _dt.timedelta(days=1)
-        return d
-
-    def _noon_jd(self, d: _dt.date) -> float:
-        return datetime_to_jd(_dt.datetime(d.year, d.month, d.day, 12, tzinfo=self._tz))
-
-    def _frame(self, t, e: NightEphemeris):
-        """Zenith, east, north unit vectors and the site's geocentric position (au) in CIRS at
-        times t (JD UTC, 1-D): four (T, 3) arrays. Polar motion is neglected (< 0.5 arcsec)."""
-        return self._site_frame.frame(t, e.dut1)
-
-    def _body(self, e: NightEphemeris, which: str, t, obs):
-        """Topocentric CIRS unit vector of the Sun or Moon at times t (interpolated geocentric
-        position minus the site's position)."""
-        table = e.sun if which == "sun" else e.moon
-        return unit_vectors(interp_rows(e.t0, e.step, table, t) - obs)
-
-    def _groups(self, t):
-        """Yield (night ephemeris, indices into t) covering every time in ``t`` (1-D)."""
-        t = np.asarray(t, dtype=float)
-        if t.size == 0:
-            return
-        if not np.all(np.isfinite(t)):
-            raise ValueError("times must be finite JD values")
-        d0 = self._night_date_of(float(t.min()))
-        d1 = self._night_date_of(float(t.max()))
-        dates = [d0 + _dt.timedelta(days=i) for i in range((d1 - d0).days + 1)]
-        done = 0
-        for i in range(0, len(dates), self.cache_nights):
-            chunk = dates[i:i + self.cache_nights]
-            ephs = self._ephems(chunk)
-            noons = np.array([e.grid.noon_jd for e in ephs] + [ephs[-1].grid.next_noon_jd])
-            k = np.searchsorted(noons, t, side="right") - 1
-            for j, e in enumerate(ephs):
-                idx = np.flatnonzero(k == j)
-                if idx.size:
-                    done += idx.size
-                    yield e, idx
-        if done != t.size:   # every time must belong to exactly one night
-            raise RuntimeError(f"internal error: {t.size - done} times not assigned to a night")
-
-    def _targets_cirs(self, ra_deg, dec_deg, e: NightEphemeris):
-        import erfa
-
-        ri, di = erfa.atciq(np.radians(ra_deg), np.radians(dec_deg), 0.0, 0.0, 0.0, 0.0, e.astrom)
-        return radec_to_unit(ri, di)
-
-    def _state(self, ra_deg, dec_deg, times_jd, *, want_az, want_moon, want_sun=False, want_alt=True):
-        """Quantities on the (N targets x T times) outer grid."""
-        ra = np.atleast_1d(np.asarray(ra_deg, dtype=float)).ravel()
-        dec = np.atleast_1d(np.asarray(dec_deg, dtype=float)).ravel()
-        if ra.shape != dec.shape:
-            raise ValueError(f"ra_deg and dec_deg differ in length: {ra.size} vs {dec.size}")
-        if np.any(np.abs(dec) > 90) or not np.all(np.isfinite(ra)) or not np.all(np.isfinite(dec)):
-            raise ValueError("target coordinates must be finite with |dec| <= 90 deg")
-        t = np.atleast_1d(np.asarray(times_jd, dtype=float)).ravel()
-        n, m = ra.size, t.size
-        out = {"sin_alt": np.empty((n, m))}
-        if want_az:
-            out["az"] = np.empty((n, m))
-        if want_moon:
-            out["cos_moon_sep"] = np.empty((n, m))
-            out["moon_alt"] = np.empty(m)
-            out["moon_illum"] = np.empty(m)
-        if want_sun:
-            out["sun_alt"] = np.empty(m)
-        for e, idx in self._groups(t):
-            tt = t[idx]
-            u = self._targets_cirs(ra, dec, e)                    # (N, 3)
-            z, east, north, obs = self._frame(tt, e)             # (Tg, 3)
-            out["sin_alt"][:, idx] = u @ z.T
-            if want_az:
-                out["az"][:, idx] = np.degrees(np.arctan2(u @ east.T, u @ north.T)) % 360.0
-            if want_sun:
-                su = self._body(e, "sun", tt, obs)
-                out["sun_alt"][idx] = np.degrees(np.arcsin(np.clip(np.sum(su * z, -1), -1, 1)))
-            if want_moon:
-                mu = self._body(e, "moon", tt, obs)
-                out["cos_moon_sep"][:, idx] = u @ mu.T
-                out["moon_alt"][idx] = np.degrees(np.arcsin(np.clip(np.sum(mu * z, -1), -1, 1)))
-                out["moon_illum"][idx] = interp_rows(e.t0, e.step, e.illum, tt)
-        if want_alt:
-            out["alt"] = np.degrees(np.arcsin(np.clip(out["sin_alt"], -1.0, 1.0)))
-        return out
-
-    def _pairs(self, ra, dec, times):
-        """Quantities for target i at its own times ``times[i, :]`` (W, m); includes the mask 'ok'."""
-        c = self.site.constraints
-        w, m = times.shape
-        flat_t = times.ravel()
-        tid = np.repeat(np.arange(w), m)
-        sin_alt = np.empty(flat_t.size)
-        az = np.empty(flat_t.size)
-        sun_alt = np.empty(flat_t.size)
-        cms = np.empty(flat_t.size)
-        malt = np.empty(flat_t.size)
-        mill = np.empty(flat_t.size)
-        for e, idx in self._groups(flat_t):
-            tt = flat_t[idx]
-            u = self._targets_cirs(ra[tid[idx]], dec[tid[idx]], e)   # (k, 3)
-            z, east, north, obs = self._frame(tt, e)
-            sin_alt[idx] = np.sum(u * z, -1)
-            az[idx] = np.degrees(np.arctan2(np.sum(u * east, -1), np.sum(u * north, -1))) % 360.0
-            su = self._body(e, "sun", tt, obs)
-            sun_alt[idx] = np.degrees(np.arcsin(np.clip(np.sum(su * z, -1), -1, 1)))
-            mu = self._body(e, "moon", tt, obs)
-            cms[idx] = np.sum(u * mu, -1)
-            malt[idx] = np.degrees(np.arcsin(np.clip(np.sum(mu * z, -1), -1, 1)))
-            mill[idx] = interp_rows(e.t0, e.step, e.illum, tt)
-        alt = np.degrees(np.arcsin(np.clip(sin_alt, -1, 1)))
-        ok = (sun_alt < c.sun_altitude_limit_deg) & (alt >= c.required_altitude_deg(az))
-        if c.min_moon_separation_deg > 0:
-            moon_ok = cms <= np.cos(np.radians(c.required_moon_separation_deg(mill)))
-            if c.moon_ignore_below_horizon:
-                moon_ok |= malt < 0.0
-            ok &= moon_ok
-        return {"alt": alt.reshape(w, m), "ok": ok.reshape(w, m)}
-
-    def _ephems(self, dates: list[_dt.date]) -> list[NightEphemeris]:
-        missing = [d for d in dict.fromkeys(dates) if d not in self._cache]
-        if missing:
-            noons = np.array([self._noon_jd(d) for d in missing])
-            next_noons = np.array([self._noon_jd(d + _dt.timedelta(days=1)) for d in missing])
-            c = self.site.constraints
-            computed = compute_nights(
-                self._site_frame, missing, noons, next_noons, n_coarse=self._n_coarse,
-                ephemeris_step_minutes=self.ephemeris_step_minutes, step_minutes=self.step_minutes,
-                sunset_altitude_deg=self.sunset_altitude_deg,
-                twilight_altitude_deg=c.sun_altitude_limit_deg, twilight=c.twilight)
-            for d, e in zip(missing, computed):
-                self._cache[d] = e
-        out = []
-        for d in dates:
-            self._cache.move_to_end(d)
-            out.append(self._cache[d])
-        while len(self._cache) > self.cache_nights:
-            self._cache.popitem(last=False)
         return out
 
 

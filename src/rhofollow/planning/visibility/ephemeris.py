@@ -28,6 +28,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from rhofollow.core.timescales import astropy_quietly, notice_if_beyond_tables
+from rhofollow.planning.visibility.frame import SiteFrame, radec_to_unit, unit_vectors  # noqa: F401 (re-exported)
 
 __all__ = ["NightGrid", "NightEphemeris", "SiteFrame", "SUNSET_ALTITUDE_DEG", "datetime_to_jd",
            "jd_to_datetime_utc", "interp_rows", "unit_vectors", "radec_to_unit", "compute_nights",
@@ -176,66 +177,6 @@ def interp_rows(t0, step, table, t):
     if table.ndim == 2:
         f = f[..., None]
     return table[k] * (1.0 - f) + table[k + 1] * f
-
-
-def unit_vectors(v):
-    """``v`` normalised along its last axis."""
-    return v / np.linalg.norm(v, axis=-1, keepdims=True)
-
-
-def radec_to_unit(ra_rad, dec_rad):
-    """Unit vectors (..., 3) of right ascensions and declinations given in radians."""
-    c = np.cos(dec_rad)
-    return np.stack([c * np.cos(ra_rad), c * np.sin(ra_rad), np.sin(dec_rad)], axis=-1)
-
-
-@dataclass(frozen=True)
-class SiteFrame:
-    """The site on the rotating Earth: latitude and longitude (radians) and its geocentric
-    position (au): distance from the rotation axis ``rho_xy`` and height above the equator ``geo_z``."""
-
-    lat: float
-    lon: float
-    rho_xy: float
-    geo_z: float
-
-    def frame(self, t, dut1: float):
-        """Zenith, east, north unit vectors and the site's geocentric position (au) in CIRS.
-
-        Parameters
-        ----------
-        t : ndarray (T,)
-            Times, JD UTC (days).
-        dut1 : float
-            UT1 - UTC of the night, days.
-
-        Returns
-        -------
-        tuple of four ndarray (T, 3)
-            Polar motion is neglected (< 0.5 arcsec).
-        """
-        import erfa
-
-        L = erfa.era00(t + dut1, 0.0) + self.lon
-        cl, sl = np.cos(L), np.sin(L)
-        cp, sp = math.cos(self.lat), math.sin(self.lat)
-        zero = np.zeros_like(L)
-        z = np.stack([cp * cl, cp * sl, np.full_like(L, sp)], axis=-1)
-        east = np.stack([-sl, cl, zero], axis=-1)
-        north = np.stack([-sp * cl, -sp * sl, np.full_like(L, cp)], axis=-1)
-        obs = np.stack([self.rho_xy * cl, self.rho_xy * sl, np.full_like(L, self.geo_z)], axis=-1)
-        return z, east, north, obs
-
-    def zenith(self, t_ut1):
-        """Zenith unit vector and geocentric position (au) in CIRS at UT1 JD times (any shape)."""
-        import erfa
-
-        L = erfa.era00(t_ut1, 0.0) + self.lon
-        cp, sp = math.cos(self.lat), math.sin(self.lat)
-        cl, sl = np.cos(L), np.sin(L)
-        z = np.stack([cp * cl, cp * sl, np.full(np.shape(L), sp)], axis=-1)
-        obs = np.stack([self.rho_xy * cl, self.rho_xy * sl, np.full(np.shape(L), self.geo_z)], -1)
-        return z, obs
 
 
 def _sun_moon_cirs(grid, mids, k, ephemeris_step_minutes):
