@@ -3,8 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from rhofollow.report.plots.common import COLOURS, _fmt_q, _plt, _q
-from rhofollow.report.plots.posterior import _title_lines
+from rhofollow.report.plots.common import COLOURS, _fmt_q, _plt, _q, _title_lines
 
 
 # ---------------------------------------------------------------------------------------------

@@ -4,8 +4,7 @@ from __future__ import annotations
 import datetime as _dt
 import numpy as np
 
-from rhofollow.report.plots.common import COLOURS, _fmt_q, _plt
-from rhofollow.report.plots.posterior import _title_lines
+from rhofollow.report.plots.common import COLOURS, _fmt_q, _plt, _title_lines
 
 
 # ---------------------------------------------------------------------------------------------

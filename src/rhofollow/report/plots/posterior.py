@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from rhofollow.report.plots.common import COLOURS, _plt, ecc_cmap
+from rhofollow.report.plots.common import COLOURS, _plt, _title_lines, ecc_cmap
 
 
 # ---------------------------------------------------------------------------------------------
@@ -195,41 +195,3 @@ def _prior_delta() -> float:
     from rhofollow.stages.assess import PRIOR_DRIVEN_DELTA
 
     return PRIOR_DRIVEN_DELTA
-
-
-def _text_width_pt(text: str, fontsize: float) -> float:
-    """Rendered width of ``text`` in points at ``fontsize`` (matplotlib's own text metrics)."""
-    from matplotlib.font_manager import FontProperties
-    from matplotlib.textpath import TextToPath
-
-    w, _, _ = TextToPath().get_text_width_height_descent(text, FontProperties(size=fontsize), ismath=False)
-    return float(w)
-
-
-def _title_lines(text: str, fig, fontsize: float = 9.5, share: float = 0.94, max_lines: int = 5) -> str:
-    """``text`` folded into lines no wider than ``share`` of the figure, measured with matplotlib's
-    text metrics: words move to the next line, and a word (a long target name) wider than a line
-    breaks inside, so a title never runs off the figure whatever the name. Beyond ``max_lines``
-    lines the title ends in an ellipsis, so the axes keep their room (tight_layout stays
-    applicable)."""
-    limit = fig.get_figwidth() * 72 * share
-    lines, cur = [], ""
-    for word in text.split(" "):
-        trial = word if not cur else cur + " " + word
-        if _text_width_pt(trial, fontsize) <= limit:
-            cur = trial
-            continue
-        if cur:
-            lines.append(cur)
-        cur = ""
-        for ch in word:  # the word alone is too wide: break it where it must
-            if cur and _text_width_pt(cur + ch, fontsize) > limit:
-                lines.append(cur)
-                cur = ""
-            cur += ch
-    if cur:
-        lines.append(cur)
-    if len(lines) > max_lines:  # an absurdly long name: keep the layout, end the title visibly cut
-        lines = lines[:max_lines]
-        lines[-1] = lines[-1][:-1] + "…"
-    return "\n".join(lines)

@@ -5,8 +5,7 @@ import numpy as np
 
 from rhofollow.core.defaults import DEFAULT_SEED
 from rhofollow.core.seeds import target_rng
-from rhofollow.report.plots.common import COLOURS, _plt
-from rhofollow.report.plots.posterior import _title_lines
+from rhofollow.report.plots.common import COLOURS, _plt, _title_lines
 
 
 # ---------------------------------------------------------------------------------------------
@@ -97,10 +96,13 @@ def _k_for_figure(samples, rec, k, w, seed):
 
 def _draw_curves(ax, samples, rec, ph, ecc, k, w, seed) -> None:
     """The eccentric draws, the circular curve with the record's K and the most informative phases."""
+    from matplotlib.collections import LineCollection
+
     from rhofollow.physics.rv import circular_shape
 
-    for row in ecc:
-        ax.plot(ph, row, color=COLOURS["ecc"], lw=0.8, alpha=0.2)
+    # the draws as one collection: one artist to build and draw instead of one line per draw
+    ax.add_collection(LineCollection(np.stack([np.broadcast_to(ph, ecc.shape), ecc], axis=-1), colors=COLOURS["ecc"],
+                                     linewidths=0.8, alpha=0.2, gid="rv-draws"))
     kmed, kq, which = _k_for_figure(samples, rec, k, w, seed)
     rng68 = f"; 68 %: {kq['q16']:.0f}-{kq['q84']:.0f} m/s" if kq else ""
     ax.plot(ph, kmed * circular_shape(ph), color=COLOURS["circ"], lw=2.2, ls="--", gid="circular-k",
