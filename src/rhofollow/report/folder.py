@@ -36,7 +36,18 @@ class ReportFolderError(OutputError):
 
 
 def slug(name: str) -> str:
-    """File-name stem of a target name (unique and bounded, see :func:`rhofollow.io.safety.file_stem`)."""
+    """File-name stem of a target name (unique and bounded, see :func:`rhofollow.io.safety.file_stem`).
+
+    Parameters
+    ----------
+    name : str
+        The target name.
+
+    Returns
+    -------
+    str
+        The stem of its per-target files.
+    """
     return file_stem(name)
 
 
@@ -45,6 +56,16 @@ def check_report_folder(out_dir) -> Path:
 
     A folder holding anything else is refused rather than replaced, so pointing ``--out`` at a
     folder of one's own never deletes its files.
+
+    Parameters
+    ----------
+    out_dir : str or os.PathLike
+        The report folder.
+
+    Returns
+    -------
+    pathlib.Path
+        ``out_dir``; :class:`ReportFolderError` when it cannot take a report.
     """
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
@@ -68,9 +89,22 @@ def write_report(result, out_dir, **kw) -> dict:
     """Write every report file of ``result`` (:class:`rhofollow.pipeline.PipelineResult`) into ``out_dir``.
 
     The report is built in a temporary folder beside ``out_dir`` and swapped in at the end (see
-    the module notes); keyword arguments as :func:`write_report_files`. The returned ``files``
-    are the final paths inside ``out_dir``. A full disk raises
-    :class:`rhofollow.io.atomic.NoSpaceError` with ``out_dir`` unchanged.
+    the module notes). A full disk raises :class:`rhofollow.io.atomic.NoSpaceError` with
+    ``out_dir`` unchanged.
+
+    Parameters
+    ----------
+    result : rhofollow.pipeline.PipelineResult
+        The finished run.
+    out_dir : str or os.PathLike
+        The report folder (see :func:`check_report_folder`).
+    **kw
+        ``plot_targets``, ``rv_data``, ``progress`` as :func:`write_report_files`.
+
+    Returns
+    -------
+    dict
+        As :func:`write_report_files`; ``files`` are the final paths inside ``out_dir``.
     """
     out = check_report_folder(out_dir).absolute()
     parent = out.parent
@@ -113,6 +147,19 @@ class _Figures:
         self.html: dict[str, list[tuple[str, bytes]]] = {}
 
     def add(self, section: str, name: str, fig, caption: str) -> None:
+        """Write ``fig`` to ``plots/name`` (closing it) and list it under ``section``.
+
+        Parameters
+        ----------
+        section : str
+            Summary section title.
+        name : str
+            PNG file name inside ``plots/``.
+        fig : matplotlib.figure.Figure
+            The figure.
+        caption : str
+            Its caption in the HTML summary.
+        """
         png = save_figure(fig, self.out / "plots" / name)
         self.files.append(self.out / "plots" / name)
         self.md.setdefault(section, []).append(f"plots/{name}")

@@ -18,13 +18,37 @@ def highest_altitude_deg(dec_deg, latitude_deg):
     """Geometric altitude (deg) of a target at upper culmination: 90 - |latitude - declination|.
 
     Common practice, no source (spherical astronomy of the meridian transit). NaN in, NaN out.
+
+    Parameters
+    ----------
+    dec_deg : float or array
+        Declination (deg).
+    latitude_deg : float or array
+        Site latitude (deg).
+
+    Returns
+    -------
+    numpy.ndarray
+        Altitude at upper culmination (deg).
     """
     return 90.0 - np.abs(np.asarray(latitude_deg, float) - np.asarray(dec_deg, float))
 
 
 def rises_at_site(dec_deg, site) -> bool:
     """False when the target never climbs above the site's altitude limit (per-target plots skip it);
-    True when it does or when its declination is unknown."""
+    True when it does or when its declination is unknown.
+
+    Parameters
+    ----------
+    dec_deg : float or None
+        Declination (deg); None or NaN when unknown.
+    site : rhofollow.planning.site.Site
+        The site (latitude and altitude limit in deg).
+
+    Returns
+    -------
+    bool
+    """
     if dec_deg is None:
         return True
     h = float(highest_altitude_deg(dec_deg, site.latitude_deg))

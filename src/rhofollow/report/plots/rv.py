@@ -15,10 +15,30 @@ def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = D
                    weights=None):
     """Posterior draws of the RV curve against phase from transit.
 
-    Returns ``(phase, eccentric (D, n_phase), circular (D, n_phase), k (D,))`` in m/s. K per sample
-    is ``k`` when given, else the K the RV record of this target uses: drawn from the planet mass
-    and the sample's e, i, M* and P (:func:`rhofollow.stages.rv.planet_mass_and_k`) with the record's
-    generator for (seed, target); ``weights`` replace the samples' weights.
+    K per sample is ``k`` when given, else the K the RV record of this target uses: drawn from the
+    planet mass and the sample's e, i, M* and P (:func:`rhofollow.stages.rv.planet_mass_and_k`) with
+    the record's generator for (seed, target).
+
+    Parameters
+    ----------
+    samples : rhofollow.core.samples.SampleSet
+        The target's weighted posterior samples.
+    n_draws : int
+        Number of curves D (systematic resampling by weight).
+    n_phase : int
+        Phase grid points over one orbit.
+    seed : int
+        Run seed.
+    k : array, optional
+        K per sample (m/s).
+    weights : array, optional
+        Replace the samples' weights.
+
+    Returns
+    -------
+    tuple
+        ``(phase (n_phase,) in orbital periods from mid-transit, eccentric curves (D, n_phase) in
+        m/s, circular curves (D, n_phase) in m/s, K (D,) in m/s)``.
     """
     from rhofollow.physics.rv import circular_shape, rv_shape
 
@@ -37,7 +57,22 @@ def rv_model_draws(samples, n_draws: int = 60, n_phase: int = 241, seed: int = D
 
 
 def record_k_draws(samples, seed: int = DEFAULT_SEED, relation: str = "auto"):
-    """(K per sample in m/s, weights): the very draws behind the RV record's ``k_ms`` for this seed."""
+    """The very K draws behind the RV record's ``k_ms`` for this seed.
+
+    Parameters
+    ----------
+    samples : rhofollow.core.samples.SampleSet
+        The target's weighted posterior samples.
+    seed : int
+        Run seed.
+    relation : str
+        Mass-radius relation (as :func:`rhofollow.stages.rv.planet_mass_and_k`).
+
+    Returns
+    -------
+    tuple
+        ``(K per sample in m/s, weights)``.
+    """
     from rhofollow.stages.rv import planet_mass_and_k
 
     _, k, _ = planet_mass_and_k(samples, target_rng(seed, samples.name, "mass"), relation)
@@ -66,6 +101,21 @@ def k_summary(rv_record: dict | None, k=None, weights=None) -> tuple[float, dict
     K is the posterior-weighted median of K over the samples as the RV record reports it:
     ``k_updated_ms["q50"]`` after measured RVs, else ``k_ms["q50"]``. Only without a record is it
     computed, the same way, from the draws ``k`` with ``weights``.
+
+    Parameters
+    ----------
+    rv_record : dict or None
+        The target's RV record.
+    k : array, optional
+        K draws (m/s), used without a record.
+    weights : array, optional
+        Their weights.
+
+    Returns
+    -------
+    tuple
+        ``(K median in m/s, quantile dict in m/s or None, which)``; ``which`` says whether it is
+        before or after the measured RVs.
     """
     from rhofollow.core.samples import quantile_dict
 
