@@ -36,7 +36,18 @@ class ReportFolderError(OutputError):
 
 
 def slug(name: str) -> str:
-    """File-name stem of a target name (unique and bounded, see :func:`rhofollow.io.safety.file_stem`)."""
+    """File-name stem of a target name (unique and bounded, see :func:`rhofollow.io.safety.file_stem`).
+
+    Parameters
+    ----------
+    name : str
+        The target name.
+
+    Returns
+    -------
+    str
+        The stem of its per-target files.
+    """
     return file_stem(name)
 
 
@@ -45,6 +56,16 @@ def check_report_folder(out_dir) -> Path:
 
     A folder holding anything else is refused rather than replaced, so pointing ``--out`` at a
     folder of one's own never deletes its files.
+
+    Parameters
+    ----------
+    out_dir : str or os.PathLike
+        The report folder.
+
+    Returns
+    -------
+    pathlib.Path
+        ``out_dir``; :class:`ReportFolderError` when it cannot take a report.
     """
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
@@ -68,9 +89,22 @@ def write_report(result, out_dir, **kw) -> dict:
     """Write every report file of ``result`` (:class:`rhofollow.pipeline.PipelineResult`) into ``out_dir``.
 
     The report is built in a temporary folder beside ``out_dir`` and swapped in at the end (see
-    the module notes); keyword arguments as :func:`write_report_files`. The returned ``files``
-    are the final paths inside ``out_dir``. A full disk raises
-    :class:`rhofollow.io.atomic.NoSpaceError` with ``out_dir`` unchanged.
+    the module notes). A full disk raises :class:`rhofollow.io.atomic.NoSpaceError` with
+    ``out_dir`` unchanged.
+
+    Parameters
+    ----------
+    result : rhofollow.pipeline.PipelineResult
+        The finished run.
+    out_dir : str or os.PathLike
+        The report folder (see :func:`check_report_folder`).
+    **kw
+        ``plot_targets``, ``rv_data``, ``progress`` as :func:`write_report_files`.
+
+    Returns
+    -------
+    dict
+        As :func:`write_report_files`; ``files`` are the final paths inside ``out_dir``.
     """
     out = check_report_folder(out_dir).absolute()
     parent = out.parent
@@ -104,33 +138,43 @@ def write_report(result, out_dir, **kw) -> dict:
     return written
 
 
-def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict | None = None,
-                       progress=None) -> dict:
-    """Write every report file of ``result`` (:class:`rhofollow.pipeline.PipelineResult`) into the
-    folder ``out_dir`` as it is (no swap; :func:`write_report` calls this on a temporary folder).
+class _Figures:
+    """Writes the report's figures into ``plots/`` and collects them per summary section."""
 
-    Parameters
-    ----------
-    plot_targets : per-target figures for this many top-ranked targets (0: all assessed targets)
-    rv_data : target name -> measured RVs, drawn on the RV figures
-    progress : optional ``progress(label, total)`` returning ``advance(k=1)``
+    def __init__(self, out: Path, files: list, adv):
+        self.out, self.files, self.adv = out, files, adv
+        self.md: dict[str, list[str]] = {}
+        self.html: dict[str, list[tuple[str, bytes]]] = {}
 
-    Returns
-    -------
-    dict with ``doc`` (the results.json document), ``files`` (paths written) and ``ranking``.
-    """
+    def add(self, section: str, name: str, fig, caption: str) -> None:
+        """Write ``fig`` to ``plots/name`` (closing it) and list it under ``section``.
+
+        Parameters
+        ----------
+        section : str
+            Summary section title.
+        name : str
+            PNG file name inside ``plots/``.
+        fig : matplotlib.figure.Figure
+            The figure.
+        caption : str
+            Its caption in the HTML summary.
+        """
+        png = save_figure(fig, self.out / "plots" / name)
+        self.files.append(self.out / "plots" / name)
+        self.md.setdefault(section, []).append(f"plots/{name}")
+        self.html.setdefault(section, []).append((caption, png))
+        self.adv(1)
+
+
+def _write_tables(result, out: Path, files: list):
+    """results.json / .ecsv / .csv, night.json, campaign.json and windows.ics; returns
+    ``(doc, ranking, periods)`` (periods: target name -> posterior-mean period in days)."""
     from rhofollow.io.jsonout import write_json
-    from rhofollow.report.schedule_chart import night_figure
     from rhofollow.planning.campaign import to_ical
-    from rhofollow.report import plots
-    from rhofollow.report.summary import CAUTIONS, assumptions, html_summary, markdown_summary
+    from rhofollow.report.summary import CAUTIONS, assumptions
     from rhofollow.report.tables import flat_rows, rank_targets, results_document, rows_to_csv, rows_to_ecsv
 
-    progress = progress or (lambda label, total: (lambda k=1: None))
-    out = Path(out_dir)
-    (out / "plots").mkdir(parents=True, exist_ok=True)
-    (out / "samples").mkdir(parents=True, exist_ok=True)
-    files = []
     ranking = rank_targets(result)
     doc = results_document(result, ranking, [], list(CAUTIONS))
     doc["assumptions"] = assumptions(doc)
@@ -146,42 +190,47 @@ def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict
         files.append(write_json(out / "night.json", result.night))
     files.append(write_json(out / "campaign.json", result.campaign))
     files.append(atomic_write_bytes(out / "windows.ics", to_ical(result.campaign_plan)))
+    return doc, ranking, periods
 
-    ok = [a for a in result.assessments if a.ok and a.samples is not None]
-    adv = progress("writing samples", len(ok))
-    for a in ok:
-        files.append(_text(out / "samples" / f"{slug(a.name)}.ecsv", a.samples.to_ecsv_text()))
-        adv(1)
 
-    # figures: run-level first, then per target in rank order
+def _figure_targets(result, ok, ranking, plot_targets: int):
+    """``(ranked, chosen)``: the assessed targets in rank order, and those that get per-target figures.
+
+    No per-target figures for a target that never climbs above the site's altitude limit (its
+    warning says why): the planners' list, and the geometric check for results built without it.
+    """
+    from rhofollow.report.plots import rises_at_site
+
     ranked = sorted((a for a in ok if ranking.get(a.name, {}).get("rank")), key=lambda a: ranking[a.name]["rank"])
-    # no per-target figures for a target that never climbs above the site's altitude limit (its
-    # warning says why): the planners' list, and the geometric check for results built without it
     never = getattr(result, "unreachable", {}) or {}
     site = getattr(result.engine, "site", None)
     plottable = [a for a in ranked if a.name not in never
-                 and (site is None or plots.rises_at_site(a.samples.meta.get("dec_deg"), site))]
-    chosen = plottable if plot_targets <= 0 else plottable[:plot_targets]
-    adv = progress("plotting", 3 + 4 * len(chosen))
-    figs_md: dict[str, list[str]] = {}
-    figs_html: dict[str, list[tuple[str, bytes]]] = {}
+                 and (site is None or rises_at_site(a.samples.meta.get("dec_deg"), site))]
+    return ranked, (plottable if plot_targets <= 0 else plottable[:plot_targets])
 
-    def add(section, name, fig, caption):
-        png = save_figure(fig, out / "plots" / name)
-        files.append(out / "plots" / name)
-        figs_md.setdefault(section, []).append(f"plots/{name}")
-        figs_html.setdefault(section, []).append((caption, png))
-        adv(1)
 
-    add("Catalogue overview", "overview.png", plots.overview_figure([a.record for a in result.assessments], periods),
-        "Density ratio against period, coloured by P(e > 0.1)")
+def _run_figures(figs: _Figures, result, ranked, periods) -> None:
+    """The figures of the whole run: catalogue overview, first night, campaign calendar."""
+    from rhofollow.report import plots
+    from rhofollow.report.schedule_chart import night_figure
+
+    figs.add("Catalogue overview", "overview.png",
+             plots.overview_figure([a.record for a in result.assessments], periods),
+             "Density ratio against period, coloured by P(e > 0.1)")
     if result.night is not None:
-        add("First night", "night_altitude.png",
-            night_figure(result.engine, result.night_grid, result.stages.science, result.night),
-            f"Schedule of the night of {result.night.get('date')}: the chosen blocks per target over each target's airmass")
-    add("Campaign", "campaign_calendar.png",
-        plots.campaign_figure(result.campaign, result.nights, [a.name for a in ranked]),
-        "Occultation windows and RV visits per night, targets in rank order")
+        figs.add("First night", "night_altitude.png",
+                 night_figure(result.engine, result.night_grid, result.stages.science, result.night),
+                 f"Schedule of the night of {result.night.get('date')}: the chosen blocks per target over each "
+                 "target's airmass")
+    figs.add("Campaign", "campaign_calendar.png",
+             plots.campaign_figure(result.campaign, result.nights, [a.name for a in ranked]),
+             "Occultation windows and RV visits per night, targets in rank order")
+
+
+def _target_figures(figs: _Figures, result, chosen, ranking, rv_data) -> None:
+    """Density, (e, omega), occultation and RV figures of each chosen target, in rank order."""
+    from rhofollow.report import plots
+
     occ = {r["name"]: r for r in result.occultations["targets"]}
     rv = {r["name"]: r for r in result.rv}
     camp = {t["name"]: t for t in result.campaign["targets"]}
@@ -192,17 +241,62 @@ def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict
     for a in chosen:
         s, n = a.samples, slug(a.name)
         sec = f"{a.name} (rank {ranking[a.name]['rank']})"
-        add(sec, f"{n}_density.png", plots.density_figure(a.record), "Circular-orbit vs independent density")
-        add(sec, f"{n}_ecc_omega.png", plots.ecc_omega_figure(s, a.record), "Eccentricity posterior")
-        add(sec, f"{n}_occultation.png",
-            plots.occultation_figure(s, occ.get(a.name, {}), camp.get(a.name, {}).get("occultation_windows"),
-                                     coverage=result.options.coverage),
-            "Occultation phase and the timing of the next events")
-        add(sec, f"{n}_rv.png",
-            plots.rv_figure(s, rv.get(a.name), camp.get(a.name, {}).get("rv_visits"), night_phases.get(a.name),
-                            (rv_data or {}).get(a.name), seed=result.options.seed),
-            "Predicted RV curves, informative phases and planned visits")
+        figs.add(sec, f"{n}_density.png", plots.density_figure(a.record), "Circular-orbit vs independent density")
+        figs.add(sec, f"{n}_ecc_omega.png", plots.ecc_omega_figure(s, a.record), "Eccentricity posterior")
+        figs.add(sec, f"{n}_occultation.png",
+                 plots.occultation_figure(s, occ.get(a.name, {}), camp.get(a.name, {}).get("occultation_windows"),
+                                          coverage=result.options.coverage),
+                 "Occultation phase and the timing of the next events")
+        figs.add(sec, f"{n}_rv.png",
+                 plots.rv_figure(s, rv.get(a.name), camp.get(a.name, {}).get("rv_visits"), night_phases.get(a.name),
+                                 (rv_data or {}).get(a.name), seed=result.options.seed),
+                 "Predicted RV curves, informative phases and planned visits")
 
-    files.append(_text(out / "summary.md", markdown_summary(doc, figs_md, result.night)))
-    files.append(_text(out / "summary.html", html_summary(doc, figs_html, result.night)))
+
+def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict | None = None,
+                       progress=None) -> dict:
+    """Write every report file of ``result`` into the folder ``out_dir`` as it is (no swap;
+    :func:`write_report` calls this on a temporary folder).
+
+    Parameters
+    ----------
+    result : rhofollow.pipeline.PipelineResult
+        The finished ``plan`` run.
+    out_dir : str or os.PathLike
+        The folder to write into (created when missing).
+    plot_targets : int
+        Per-target figures for this many top-ranked targets (0: all assessed targets).
+    rv_data : dict, optional
+        Target name -> measured RVs (BJD_TDB days, m/s), drawn on the RV figures.
+    progress : callable, optional
+        ``progress(label, total)`` returning ``advance(k=1)``.
+
+    Returns
+    -------
+    dict
+        ``doc`` (the results.json document), ``files`` (paths written) and ``ranking``.
+    """
+    from rhofollow.report.summary import html_summary, markdown_summary
+
+    progress = progress or (lambda label, total: (lambda k=1: None))
+    out = Path(out_dir)
+    (out / "plots").mkdir(parents=True, exist_ok=True)
+    (out / "samples").mkdir(parents=True, exist_ok=True)
+    files = []
+    doc, ranking, periods = _write_tables(result, out, files)
+
+    ok = [a for a in result.assessments if a.ok and a.samples is not None]
+    adv = progress("writing samples", len(ok))
+    for a in ok:
+        files.append(_text(out / "samples" / f"{slug(a.name)}.ecsv", a.samples.to_ecsv_text()))
+        adv(1)
+
+    # figures: run-level first, then per target in rank order
+    ranked, chosen = _figure_targets(result, ok, ranking, plot_targets)
+    figs = _Figures(out, files, progress("plotting", 3 + 4 * len(chosen)))
+    _run_figures(figs, result, ranked, periods)
+    _target_figures(figs, result, chosen, ranking, rv_data)
+
+    files.append(_text(out / "summary.md", markdown_summary(doc, figs.md, result.night)))
+    files.append(_text(out / "summary.html", html_summary(doc, figs.html, result.night)))
     return {"doc": doc, "files": [Path(f) for f in files], "ranking": ranking}

@@ -25,7 +25,19 @@ CAUTIONS = [
 
 
 def assumptions(doc: dict) -> list[str]:
-    """The stated assumptions of the run (conventions, prior, mass-radius relation, ranking)."""
+    """The stated assumptions of the run (conventions, prior, mass-radius relation, ranking).
+
+    Parameters
+    ----------
+    doc : dict
+        The results document (``prior``, ``transit_weight``, ``coverage``, ``fap``, ``power``,
+        ``priority_rule``, ``seed``, ``samples``).
+
+    Returns
+    -------
+    list of str
+        One sentence (or a few) per assumption.
+    """
     tw = ("weighted by the transit probability (1 + e sin ω)/(1 − e²)" if doc.get("transit_weight", True)
           else "not weighted by the transit probability")
     return [
@@ -63,7 +75,18 @@ def _qtxt(q, nd=2):
 
 
 def prior_post_text(t: dict) -> str:
-    """P(e > 0.1) under the prior alone → after the data (the posterior alone when no prior value)."""
+    """P(e > 0.1) under the prior alone → after the data (the posterior alone when no prior value).
+
+    Parameters
+    ----------
+    t : dict
+        A target record (``p_ecc_gt_0p1``, ``p_ecc_gt_0p1_prior``: probabilities, 0-1).
+
+    Returns
+    -------
+    str
+        ``"0.70→0.98"``, ``"0.98"``, or ``"–"`` when unknown.
+    """
     post, prior = t.get("p_ecc_gt_0p1"), t.get("p_ecc_gt_0p1_prior")
     if post is None:
         return "–"
@@ -71,7 +94,20 @@ def prior_post_text(t: dict) -> str:
 
 
 def ranked_table(doc: dict, top: int | None = None) -> tuple[list[str], list[list[str]]]:
-    """(header, rows) of the ranked target table (assessed targets only, rank order)."""
+    """(header, rows) of the ranked target table (assessed targets only, rank order).
+
+    Parameters
+    ----------
+    doc : dict
+        The results document.
+    top : int, optional
+        Keep the first ``top`` rows only.
+
+    Returns
+    -------
+    tuple of (list of str, list of list of str)
+        Column headers (units in them: m/s, hours per instrument) and the formatted rows.
+    """
     insts = list(doc.get("hours_total", {}))
     head = ["rank", "target", "priority", "P(e>0.1) prior→data", "e [68%]", "ρ_circ/ρ* [68%]", "favoured",
             "P(occ)", "K m/s [68%]", "RV visits to confirm", "occ windows / RV visits at site"] + \
@@ -102,8 +138,18 @@ def proposal_entries(doc: dict) -> list[dict]:
     Every number comes from the target's records in ``doc`` (``results.json``): the request
     (``rv.request``: visits, hours, power), the visit cost (``rv.exposure_s``, ``rv.overheads``), the
     placed visits (``campaign.rv_visits``: phases and nights), the assessment (``density_ratio``,
-    ``density_ratio_sigma``, ``p_ecc_gt_0p1``). Returns dicts ``{"name", "numbers", "text"}`` in rank
-    order; ``numbers`` holds the values as stated (before formatting).
+    ``density_ratio_sigma``, ``p_ecc_gt_0p1``).
+
+    Parameters
+    ----------
+    doc : dict
+        The results document.
+
+    Returns
+    -------
+    list of dict
+        ``{"name", "numbers", "text"}`` in rank order; ``numbers`` holds the values as stated
+        (before formatting; hours in h, exposures in s).
     """
     out = []
     fap = doc.get("fap", 0.01)
@@ -180,7 +226,19 @@ def _local_hm(iso_utc: str, tz) -> tuple[str, str]:
 
 def first_night_table(night: dict) -> tuple[list[str], list[list[str]]]:
     """(header, rows) of the first night's blocks: local time at the site (its IANA ``timezone``), UTC,
-    target, kind, value, max airmass. Without a usable time zone the local column is left out."""
+    target, kind, value, max airmass. Without a usable time zone the local column is left out.
+
+    Parameters
+    ----------
+    night : dict
+        The night JSON (``blocks`` with ``start_utc`` / ``end_utc`` ISO times, ``value``,
+        ``airmass_max``; ``timezone``).
+
+    Returns
+    -------
+    tuple of (list of str, list of list of str)
+        Column headers and rows (times HH:MM, airmass sec z).
+    """
     from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
     try:
@@ -216,7 +274,22 @@ def _failed(doc):
 
 
 def markdown_summary(doc: dict, figures: dict[str, list[str]], night: dict | None) -> str:
-    """Markdown text of the summary; ``figures`` maps a section title to relative PNG paths."""
+    """Markdown text of the summary.
+
+    Parameters
+    ----------
+    doc : dict
+        The results document.
+    figures : dict
+        Section title -> relative PNG paths.
+    night : dict or None
+        The night JSON, or None without a first night.
+
+    Returns
+    -------
+    str
+        The Markdown text.
+    """
     e = md_text
     lines = [f"# rhofollow plan: {e(doc['site'])}, {e(doc['start'])} to {e(doc['end'])}", "",
              f"> {CAUTIONS[0]}", ""]
@@ -268,7 +341,22 @@ def _html_table(head, rows) -> str:
 
 
 def html_summary(doc: dict, figures: dict[str, list[tuple[str, bytes]]], night: dict | None) -> str:
-    """A self-contained HTML page; ``figures`` maps a section title to (caption, PNG bytes) pairs."""
+    """A self-contained HTML page of the summary (figures embedded).
+
+    Parameters
+    ----------
+    doc : dict
+        The results document.
+    figures : dict
+        Section title -> list of (caption, PNG bytes).
+    night : dict or None
+        The night JSON, or None without a first night.
+
+    Returns
+    -------
+    str
+        The HTML text.
+    """
     e = html.escape
     parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'><title>rhofollow plan: "
              f"{e(doc['site'])}</title><style>{_CSS}</style></head><body>",

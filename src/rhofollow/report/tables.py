@@ -43,7 +43,20 @@ def _num(x, default=0.0) -> float:
 
 
 def rank_targets(result) -> dict:
-    """name -> {"rank", "priority", "testability", "p_ecc_gt_0p1"} for every target (failed: rank None)."""
+    """Rank every target by the priority rule (:data:`PRIORITY_RULE`).
+
+    Parameters
+    ----------
+    result : rhofollow.pipeline.PipelineResult
+        The finished run (assessments, occultations, RV records, campaign).
+
+    Returns
+    -------
+    dict
+        Target name -> ``{"rank", "priority", "testability", "p_eccentric_explanation",
+        "p_ecc_gt_0p1", "ecc_data_weight", "fits", "reliable"}`` (priority, testability and the
+        probabilities dimensionless, 0-1); a failed target has rank None.
+    """
     occ = {r["name"]: r for r in result.occultations["targets"]}
     rv = {r["name"]: r for r in result.rv}
     camp = {t["name"]: t for t in result.campaign["targets"]}
@@ -94,6 +107,24 @@ def results_document(result, ranking: dict, assumptions: list[str], cautions: li
     Each target has ``name, ok, errors, warnings, rank, priority, testability``, the assessment keys
     (quantile objects ``q025 q16 q50 q84 q975``), ``occultation`` (timing, depth, events), ``rv``
     (K, mass, epochs and hours) and ``campaign`` (windows, visits, hours at the site).
+
+    Parameters
+    ----------
+    result : rhofollow.pipeline.PipelineResult
+        The finished run.
+    ranking : dict
+        :func:`rank_targets` of ``result``.
+    assumptions : list of str
+        The stated assumptions (sentences).
+    cautions : list of str
+        The cautions (sentences).
+
+    Returns
+    -------
+    dict
+        The output envelope (:func:`rhofollow.stages.records.envelope`) with ``targets`` in rank
+        order; units as in each record's key names (``_cgs`` g/cm3, ``_h`` hours, ``_ms`` m/s,
+        ``_bjd_tdb`` days).
     """
     occ = {r["name"]: r for r in result.occultations["targets"]}
     rv = {r["name"]: r for r in result.rv}
@@ -148,7 +179,20 @@ def _q(rec: dict, key: str, prefix: str, row: dict, levels=("q16", "q50", "q84")
 
 
 def flat_rows(doc: dict, periods: dict | None = None) -> list[dict]:
-    """One flat row per target of ``results_document`` (fixed columns, NaN / empty when unknown)."""
+    """One flat row per target of ``results_document`` (fixed columns, NaN / empty when unknown).
+
+    Parameters
+    ----------
+    doc : dict
+        :func:`results_document`.
+    periods : dict, optional
+        Target name -> posterior-mean orbital period (days).
+
+    Returns
+    -------
+    list of dict
+        Column name -> value; units in :data:`COLUMN_UNITS` and the column names' suffixes.
+    """
     rows = []
     for t in doc["targets"]:
         row = {"name": t["name"], "ok": bool(t.get("ok")), "rank": t.get("rank") or 0,
@@ -191,7 +235,18 @@ def flat_rows(doc: dict, periods: dict | None = None) -> list[dict]:
 
 def rows_to_csv(rows: list[dict]) -> str:
     """CSV text (header from the first row; NaN written as an empty cell; text cells that a
-    spreadsheet would run as a formula are quoted, see :mod:`rhofollow.io.safety`)."""
+    spreadsheet would run as a formula are quoted, see :mod:`rhofollow.io.safety`).
+
+    Parameters
+    ----------
+    rows : list of dict
+        :func:`flat_rows` (units in the column names).
+
+    Returns
+    -------
+    str
+        The CSV text (empty without rows).
+    """
     from rhofollow.io.safety import csv_text
 
     if not rows:
@@ -208,7 +263,20 @@ def _unit_of(col: str) -> str:
 
 
 def rows_to_ecsv(rows: list[dict], meta: dict | None = None) -> str:
-    """ECSV text with units on the physical columns and the run metadata in the header."""
+    """ECSV text with units on the physical columns and the run metadata in the header.
+
+    Parameters
+    ----------
+    rows : list of dict
+        :func:`flat_rows`.
+    meta : dict, optional
+        Run metadata (site, dates, seed, samples, prior, priority rule) for the header.
+
+    Returns
+    -------
+    str
+        The ECSV text; units from :data:`COLUMN_UNITS`.
+    """
     import astropy.units as u
     from astropy.table import Table
 

@@ -3,8 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from rhofollow.report.plots.common import COLOURS, _fmt_q, _plt, _q
-from rhofollow.report.plots.posterior import _title_lines
+from rhofollow.report.plots.common import COLOURS, _fmt_q, _plt, _q, _title_lines
 
 
 # ---------------------------------------------------------------------------------------------
@@ -34,6 +33,16 @@ def density_figure(record: dict):
     ``record`` is the assessment record (``rho_circ_cgs``, ``rho_star_cgs``, ``density_ratio``,
     ``ecc_min``...). Each distribution is drawn as a split normal in ln(rho) through the 16/50/84 %
     quantiles of its draws; the dots and bars below give the 95 % and 68 % intervals.
+
+    Parameters
+    ----------
+    record : dict
+        The assessment record (densities in g/cm3, quantile objects).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        One axes: density (g/cm3, log scale) against probability density per ln rho.
     """
     plt = _plt()
     rc, rs = record["rho_circ_cgs"], record["rho_star_cgs"]

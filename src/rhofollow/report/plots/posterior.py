@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from rhofollow.report.plots.common import COLOURS, _plt, ecc_cmap
+from rhofollow.report.plots.common import COLOURS, _plt, _title_lines, ecc_cmap
 
 
 # ---------------------------------------------------------------------------------------------
@@ -23,28 +23,19 @@ def _uniform_marginal(samples, record):
     return reweight_to_prior(samples.e, samples.weights, prior, parse_prior("uniform"))
 
 
-def ecc_omega_figure(samples, record: dict | None = None):
-    """2-D weighted histogram of (omega, e) with both marginals.
-
-    The e marginal (right) also shows the e marginal re-weighted to a uniform e prior (outline) and
-    the 95 % intervals under the run's prior and under the uniform one (bars at the right edge); a
-    bound the prior sets (``record['ecc_bounds']``) carries a dagger, as in the terminal table.
-    ``ecc_min`` (the smallest e giving the median density ratio) is a dashed line named in the key
-    below the axes, so no label covers the posterior.
-    """
-    plt = _plt()
-    from matplotlib.gridspec import GridSpec
-    from matplotlib.lines import Line2D
-
-    rec = record or {}
-    om = np.degrees(np.mod(samples.omega, 2 * np.pi))
-    e, w = samples.e, samples.weights
-    wu = _uniform_marginal(samples, rec)
+def _ecc_top(e, uq) -> float:
+    """Upper end of the e axis: above 99.9 % of the samples and the uniform-prior interval, in [0.2, 1]."""
     top_e = float(np.quantile(e, 0.999))
-    uq = rec.get("ecc_uniform_prior") or {}
     if uq.get("q975") is not None:
         top_e = max(top_e, float(uq["q975"]))
-    emax = min(1.0, max(0.2, top_e * 1.15))
+    return min(1.0, max(0.2, top_e * 1.15))
+
+
+def _ecc_axes(plt):
+    """The figure and its four axes: the (omega, e) map, the omega marginal above it, the e marginal
+    to its right and the colour bar."""
+    from matplotlib.gridspec import GridSpec
+
     fig = plt.figure(figsize=(7.6, 7.0))
     gs = GridSpec(2, 3, width_ratios=[4, 1.5, 0.18], height_ratios=[1.1, 4], hspace=0.05, wspace=0.05,
                   figure=fig)
@@ -52,6 +43,15 @@ def ecc_omega_figure(samples, record: dict | None = None):
     axt = fig.add_subplot(gs[0, 0], sharex=ax)
     axr = fig.add_subplot(gs[1, 1], sharey=ax)
     cax = fig.add_subplot(gs[1, 2])
+    return fig, ax, axt, axr, cax
+
+
+def _draw_posterior(fig, axes, om, e, w, wu, emax, ess_u, handles) -> float:
+    """The weighted 2-D histogram with its colour bar and both marginals (the e marginal also
+    re-weighted to the uniform prior when ``wu`` is given). Returns the e marginal's peak density."""
+    from matplotlib.lines import Line2D
+
+    ax, axt, axr, cax = axes
     h, xe, ye = np.histogram2d(om, e, bins=[72, 50], range=[[0, 360], [0, emax]], weights=w)
     h = h / (h.sum() * np.diff(xe)[0] * np.diff(ye)[0])
     mesh = ax.pcolormesh(xe, ye, h.T, cmap=ecc_cmap(), shading="flat", rasterized=True)
@@ -62,19 +62,22 @@ def ecc_omega_figure(samples, record: dict | None = None):
     dens, _, _ = axr.hist(e, bins=50, range=(0, emax), weights=w, density=True, orientation="horizontal",
                           color=COLOURS["ecc"], alpha=0.75, histtype="stepfilled")
     peak = float(np.max(dens)) if dens.size else 1.0
-    handles = []
     if wu is not None:
         du, _, _ = axr.hist(e, bins=50, range=(0, emax), weights=wu, density=True, orientation="horizontal",
                             histtype="step", color="0.2", lw=1.1, ls="-")
         peak = max(peak, float(np.max(du)))
-        ess_u = rec.get("ess_uniform_prior")
         handles.append(Line2D([], [], color="0.2", lw=1.1, label="e marginal re-weighted to a uniform e prior"
                               + (f" (ESS {ess_u:.0f})" if ess_u is not None else "")))
-    # interval bars at the right edge of the e marginal, clear of the histograms
+    return peak
+
+
+def _draw_interval_bars(axr, rec, eq, uq, prior_name, peak, handles) -> None:
+    """The 95 % intervals of e (run's prior, uniform prior) as bars at the right edge of the e
+    marginal, clear of the histograms; a bound the prior sets carries a dagger."""
+    from matplotlib.lines import Line2D
+
     axr.set_xlim(0, peak * 1.55)
     bounds = rec.get("ecc_bounds") or {}
-    eq = samples.quantiles("e")
-    prior_name = rec.get("prior") or samples.meta.get("prior") or "run's prior"
     first = ("95 % interval of e (the measured orbit)" if rec.get("orbit_measured")
              else f"95 % interval of e, {prior_name} prior (the run's)")
     bars = [(eq, COLOURS["ecc"], 1.22, first, True)]
@@ -95,7 +98,13 @@ def ecc_omega_figure(samples, record: dict | None = None):
         handles.append(Line2D([], [], ls="", marker="$†$", color="#b00020", ms=8,
                               label=f"{' and '.join(driven)} bound set by the prior (moves > "
                                     f"{_prior_delta():g} in e under a uniform prior)"))
-    emin = rec.get("ecc_min")
+
+
+def _draw_guides(ax, axr, emin, emax, handles) -> None:
+    """e_min as a dashed line across the map and the e marginal (named in the key, first), and the
+    omega of a transit at periastron / apastron as dotted lines."""
+    from matplotlib.lines import Line2D
+
     if emin is not None and np.isfinite(emin):
         for a in (ax, axr):
             a.axhline(emin, color=COLOURS["circ"], ls="--", lw=1.3)
@@ -104,6 +113,10 @@ def ecc_omega_figure(samples, record: dict | None = None):
     for v, lab in ((90, "transit at periastron"), (270, "transit at apastron")):
         ax.axvline(v, color="0.45", lw=0.7, ls=":")
         ax.text(v + 2, emax * 0.97, lab, fontsize=7, color="0.35", va="top", rotation=90)
+
+
+def _label_ecc_axes(plt, ax, axt, axr, emax) -> None:
+    """Limits, ticks and labels of the map and its marginals."""
     ax.set_xlim(0, 360)
     ax.set_ylim(0, emax)
     ax.set_xticks(range(0, 361, 45))
@@ -115,6 +128,11 @@ def ecc_omega_figure(samples, record: dict | None = None):
     plt.setp(axr.get_yticklabels(), visible=False)
     axt.set_yticks([])
     axr.set_xticks([])
+
+
+def _ecc_title_and_key(fig, samples, rec, eq, uq, handles) -> None:
+    """The two-line title (name; e, its intervals, P(e > 0.1), ESS) and the key below the axes."""
+    e, w = samples.e, samples.weights
     p01 = float(np.sum(w[e > 0.1]))
     p0 = rec.get("p_ecc_gt_0p1_prior")
     line2 = (f"e = {eq['q50']:.2f} (95 %: {eq['q025']:.2f}–{eq['q975']:.2f})"
@@ -129,6 +147,47 @@ def ecc_omega_figure(samples, record: dict | None = None):
     n_lines = _title_lines(f"{samples.name}: eccentricity posterior", fig).count("\n") + 2
     bottom = 0.085 + 0.024 * len(handles)
     fig.subplots_adjust(left=0.1, right=0.9, top=max(0.6, 0.965 - 0.03 * n_lines), bottom=bottom)
+
+
+def ecc_omega_figure(samples, record: dict | None = None):
+    """2-D weighted histogram of (omega, e) with both marginals.
+
+    The e marginal (right) also shows the e marginal re-weighted to a uniform e prior (outline) and
+    the 95 % intervals under the run's prior and under the uniform one (bars at the right edge); a
+    bound the prior sets (``record['ecc_bounds']``) carries a dagger, as in the terminal table.
+    ``ecc_min`` (the smallest e giving the median density ratio) is a dashed line named in the key
+    below the axes, so no label covers the posterior.
+
+    Parameters
+    ----------
+    samples : rhofollow.core.samples.SampleSet
+        The target's weighted posterior samples (e dimensionless, omega in rad).
+    record : dict, optional
+        The assessment record (``ecc_uniform_prior``, ``ecc_bounds``, ``ecc_min``, ``prior``,
+        ``p_ecc_gt_0p1_prior``, ``ess_uniform_prior``, ``orbit_measured``).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        Axes in order: the (omega [deg], e) map, the omega marginal, the e marginal, the colour bar
+        (posterior density per degree per unit e).
+    """
+    plt = _plt()
+    rec = record or {}
+    om = np.degrees(np.mod(samples.omega, 2 * np.pi))
+    e, w = samples.e, samples.weights
+    wu = _uniform_marginal(samples, rec)
+    uq = rec.get("ecc_uniform_prior") or {}
+    emax = _ecc_top(e, uq)
+    fig, ax, axt, axr, cax = _ecc_axes(plt)
+    handles = []
+    peak = _draw_posterior(fig, (ax, axt, axr, cax), om, e, w, wu, emax, rec.get("ess_uniform_prior"), handles)
+    eq = samples.quantiles("e")
+    prior_name = rec.get("prior") or samples.meta.get("prior") or "run's prior"
+    _draw_interval_bars(axr, rec, eq, uq, prior_name, peak, handles)
+    _draw_guides(ax, axr, rec.get("ecc_min"), emax, handles)
+    _label_ecc_axes(plt, ax, axt, axr, emax)
+    _ecc_title_and_key(fig, samples, rec, eq, uq, handles)
     return fig
 
 
@@ -136,41 +195,3 @@ def _prior_delta() -> float:
     from rhofollow.stages.assess import PRIOR_DRIVEN_DELTA
 
     return PRIOR_DRIVEN_DELTA
-
-
-def _text_width_pt(text: str, fontsize: float) -> float:
-    """Rendered width of ``text`` in points at ``fontsize`` (matplotlib's own text metrics)."""
-    from matplotlib.font_manager import FontProperties
-    from matplotlib.textpath import TextToPath
-
-    w, _, _ = TextToPath().get_text_width_height_descent(text, FontProperties(size=fontsize), ismath=False)
-    return float(w)
-
-
-def _title_lines(text: str, fig, fontsize: float = 9.5, share: float = 0.94, max_lines: int = 5) -> str:
-    """``text`` folded into lines no wider than ``share`` of the figure, measured with matplotlib's
-    text metrics: words move to the next line, and a word (a long target name) wider than a line
-    breaks inside, so a title never runs off the figure whatever the name. Beyond ``max_lines``
-    lines the title ends in an ellipsis, so the axes keep their room (tight_layout stays
-    applicable)."""
-    limit = fig.get_figwidth() * 72 * share
-    lines, cur = [], ""
-    for word in text.split(" "):
-        trial = word if not cur else cur + " " + word
-        if _text_width_pt(trial, fontsize) <= limit:
-            cur = trial
-            continue
-        if cur:
-            lines.append(cur)
-        cur = ""
-        for ch in word:  # the word alone is too wide: break it where it must
-            if cur and _text_width_pt(cur + ch, fontsize) > limit:
-                lines.append(cur)
-                cur = ""
-            cur += ch
-    if cur:
-        lines.append(cur)
-    if len(lines) > max_lines:  # an absurdly long name: keep the layout, end the title visibly cut
-        lines = lines[:max_lines]
-        lines[-1] = lines[-1][:-1] + "…"
-    return "\n".join(lines)

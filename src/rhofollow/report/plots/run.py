@@ -12,7 +12,22 @@ from rhofollow.report.plots.density import _plain_log_axis
 # catalogue overview and campaign strip
 
 def overview_figure(records: list[dict], periods: dict, label_top: int = 30):
-    """Density ratio vs period for every assessed target, coloured by P(e > 0.1) (colour bar)."""
+    """Density ratio vs period for every assessed target, coloured by P(e > 0.1) (colour bar).
+
+    Parameters
+    ----------
+    records : list of dict
+        Assessment records (``density_ratio`` quantiles, ``p_ecc_gt_0p1``).
+    periods : dict
+        Target name -> orbital period (days).
+    label_top : int
+        Name the points of this many targets with the largest P(e > 0.1).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        One axes: period (days, log) against rho_circ / rho* (log), plus the colour bar.
+    """
     plt = _plt()
     from matplotlib.colors import Normalize
 
@@ -84,7 +99,24 @@ def _place_labels(ax, xs, ys, names, fontsize=7.5):
 def campaign_figure(campaign: dict, nights: list | None = None, order: list[str] | None = None,
                     max_rows: int = 30):
     """Calendar strip of the campaign: one row per target (in ``order``), occultation windows and RV
-    visits per night, clashes hollow; the top panel shows the dark hours of each night."""
+    visits per night, clashes hollow; the top panel shows the dark hours of each night.
+
+    Parameters
+    ----------
+    campaign : dict
+        The campaign JSON (``targets`` with ``occultation_windows`` and ``rv_visits`` per night).
+    nights : list of NightGrid, optional
+        The campaign's nights (dark hours).
+    order : list of str, optional
+        Target names in the order of the rows (default: the campaign's order).
+    max_rows : int
+        Most target rows drawn.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        Two axes: dark hours per night (h), and the target rows against the local evening date.
+    """
     plt = _plt()
     import matplotlib.dates as mdates
 
