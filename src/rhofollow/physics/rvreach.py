@@ -13,7 +13,11 @@ Math. Stat. 9, 60) with its false-alarm threshold from simulations under the cir
 same epoch sets.
 
 Nested epoch sets give common random numbers across N: the first N nights of one random order of
-the reachable nights, and the first N noise draws, so the power curve over N is smooth.
+the reachable nights, and the first N noise draws, so the power curve over N is smooth. Nesting
+also lets the statistic grow with N: weighted sums over the visits are carried from one visit
+count to the next (:class:`_RunningLRT`), so the products with the (e, omega) grid cost one pass
+over the visits for the whole curve; the reported point is checked against the direct
+computation (:func:`power_curve_at_pool`, ``power``).
 
 Units: phases in cycles from mid-transit, velocities m/s, exposures and overheads s, hours h.
 Pure numpy / scipy: no I/O.
@@ -112,9 +116,105 @@ def _chi2(y, s, w):
     return yy[..., None] - gain
 
 
+def _direct_step(sims, n):
+    """Delta chi^2 of the alternative and null data sets at the first ``n`` visits, each visit count
+    computed from scratch (centred sums): the reference the running sums are checked against."""
+    y_alt, y_null, templ, circ, kept, n_alt, n_null = sims
+    w = kept[:, :n]
+    sl = (Ellipsis, slice(0, n))
+    d = []
+    for y in (y_alt, y_null):
+        chi_c = _chi2(y[sl], circ[sl], w)[..., 0]
+        chi_e = _chi2(y[sl], templ[sl], w).min(axis=-1)
+        d.append(np.maximum(chi_c - chi_e, 0.0).ravel())
+    return d[0][:n_alt], d[1][:n_null]
+
+
+class _RunningLRT:
+    """Delta chi^2 at increasing visit counts from running weighted sums.
+
+    With offsets profiled, chi^2 = S_yy - S_y^2/S_w - (S_ys - S_y S_s / S_w)^2 / (S_ss - S_s^2/S_w)
+    (the centred sums of :func:`_chi2` written with raw sums; Frisch-Waugh-Lovell), so
+    Delta chi^2 = max_grid gain_ecc - gain_circ and S_yy cancels. Going from n to n' visits adds
+    the sums of visits n..n'-1 only: the products over the (e, omega) grid cost one pass over the
+    visits in all instead of one per visit count. Equal to :func:`_direct_step` up to rounding
+    (relative 1e-12: raw instead of centred sums).
+    """
+
+    def __init__(self, y_alt, y_null, templ, circ, kept):
+        self.na = y_alt.shape[1]
+        self.y = np.concatenate([y_alt, y_null], axis=1)                 # (B, D, N)
+        self.s = np.concatenate([circ, templ], axis=1)                   # (B, 1 + G, N), circular first
+        self.ws = self.s * kept[:, None, :]
+        self.kept = kept
+        nb, nd, _ = self.y.shape
+        ng = self.s.shape[1]
+        self.sw = np.zeros(nb)
+        self.sy = np.zeros((nb, nd))
+        self.ss = np.zeros((nb, ng))
+        self.sss = np.zeros((nb, ng))
+        self.sys = np.zeros((nb, nd, ng))
+        self.buf = np.empty((nd, ng))
+        self.m = 0
+
+    def advance(self, n):
+        """Delta chi^2 at the first ``n`` visits, after adding the visits since the last call.
+
+        Parameters
+        ----------
+        n : int, visit count (at least the previous call's)
+
+        Returns
+        -------
+        (ndarray (B, Da), ndarray (B, Dn)): Delta chi^2 (dimensionless) of the alternative and the
+        null data sets.
+        """
+        seg = slice(self.m, n)
+        y, ws, kp = self.y[..., seg], self.ws[..., seg], self.kept[:, seg]
+        self.sw += kp.sum(axis=-1)
+        self.sy += np.sum(y * kp[:, None, :], axis=-1)
+        self.ss += ws.sum(axis=-1)
+        self.sss += np.sum(ws * self.s[..., seg], axis=-1)
+        self.sys += y @ np.swapaxes(ws, -1, -2)
+        self.m = n
+        sw = np.where(self.sw > 0, self.sw, 1.0)[:, None]
+        ss = self.sss - self.ss * self.ss / sw                            # (B, 1 + G)
+        with np.errstate(divide="ignore"):
+            inv = np.where(ss > 1e-12, 1.0 / np.where(ss > 1e-12, ss, 1.0), 0.0)
+        mean_y = self.sy / sw
+        d = np.empty(self.sy.shape)
+        b = self.buf
+        for i in range(d.shape[0]):       # one epoch set at a time: its (D, G) block stays in cache
+            np.multiply(mean_y[i][:, None], self.ss[i][None, :], out=b)
+            np.subtract(self.sys[i], b, out=b)                            # centred S_ys
+            np.square(b, out=b)
+            np.multiply(b, inv[i][None, :], out=b)                        # gain per template
+            d[i] = b[:, 1:].max(axis=-1) - b[:, 0]
+        np.maximum(d, 0.0, out=d)
+        return d[:, :self.na], d[:, self.na:]
+
+
+def _simulate(e, omega, k, sigma, pool, n_max, loss, weights, rng, n_alt, n_null, n_batches, grid):
+    """Epoch sets, kept visits and simulated data sets (in units of sigma) of one power curve."""
+    nb = n_batches
+    na, nn = -(-n_alt // nb), -(-n_null // nb)
+    ph = pool.draw(nb, n_max, rng)                                        # (B, N)
+    kept = (rng.random((nb, n_max)) >= loss).astype(float)                # lost visits weigh 0
+    ia = _draw_indices(weights, nb * na, rng, e.size).reshape(nb, na)
+    i0 = _draw_indices(weights, nb * nn, rng, e.size).reshape(nb, nn)
+    ks = k / float(sigma)                                                 # data in units of sigma
+    y_alt = ks[ia][..., None] * rv_shape(ph[:, None, :], e[ia][..., None], omega[ia][..., None]) \
+        + rng.standard_normal((nb, na, n_max))
+    y_null = ks[i0][..., None] * circular_shape(ph)[:, None, :] + rng.standard_normal((nb, nn, n_max))
+    templ = grid.templates(ph)                                            # (B, G, N)
+    circ = circular_shape(ph)[:, None, :]                                 # (B, 1, N)
+    return y_alt, y_null, templ, circ, kept, n_alt, n_null
+
+
 def power_curve_at_pool(e, omega, k, sigma, pool: EpochPool, ladder, *, loss: float = 0.0,
                         weights=None, fap: float = 0.01, seed=0, n_alt: int = 400, n_null: int = 2000,
-                        n_batches: int = 16, grid: EccGrid | None = None) -> dict:
+                        n_batches: int = 16, grid: EccGrid | None = None, power: float | None = None,
+                        method: str = "running") -> dict:
     """Simulated power of the eccentricity LRT at each requested visit count of ``ladder``.
 
     Parameters
@@ -129,6 +229,12 @@ def power_curve_at_pool(e, omega, k, sigma, pool: EpochPool, ladder, *, loss: fl
     seed : int or Generator (the same seed gives the same curve)
     n_alt, n_null : simulated data sets from the posterior and under the circular null, per N
     n_batches : independent epoch sets (data sets are split evenly among them)
+    power : the power wanted, or None. When given, the first count reaching it (the last count
+        when none does) is recomputed from scratch: its power and threshold are exactly those of
+        ``method="direct"`` (the running sums differ from them by rounding only, ~1e-12 relative);
+        should its power differ, the whole curve is recomputed directly.
+    method : ``"running"`` (running sums over the visits, :class:`_RunningLRT`) or ``"direct"``
+        (every count from scratch; the reference, several times slower)
 
     Returns
     -------
@@ -140,35 +246,44 @@ def power_curve_at_pool(e, omega, k, sigma, pool: EpochPool, ladder, *, loss: fl
         return {"n": [], "power": [], "threshold": []}
     if not 0.0 <= loss < 1.0:
         raise ValueError(f"loss fraction must lie in [0, 1), got {loss}")
-    n_max = ladder[-1]
+    if method not in ("running", "direct"):
+        raise ValueError(f"method must be 'running' or 'direct', got {method!r}")
     rng = np.random.default_rng(seed)
-    grid = grid or ecc_grid()
     e, omega, k = (np.asarray(a, float) for a in (e, omega, k))
-    nb = n_batches
-    na, nn = -(-n_alt // nb), -(-n_null // nb)
-    ph = pool.draw(nb, n_max, rng)                                        # (B, N)
-    kept = (rng.random((nb, n_max)) >= loss).astype(float)                # lost visits weigh 0
-    ia = _draw_indices(weights, nb * na, rng, e.size).reshape(nb, na)
-    i0 = _draw_indices(weights, nb * nn, rng, e.size).reshape(nb, nn)
-    ks = k / float(sigma)                                                 # data in units of sigma
-    y_alt = ks[ia][..., None] * rv_shape(ph[:, None, :], e[ia][..., None], omega[ia][..., None]) \
-        + rng.standard_normal((nb, na, n_max))
-    y_null = ks[i0][..., None] * circular_shape(ph)[:, None, :] + rng.standard_normal((nb, nn, n_max))
-    templ = grid.templates(ph)                                            # (B, G, N)
-    circ = circular_shape(ph)[:, None, :]                                 # (B, 1, N)
+    sims = _simulate(e, omega, k, sigma, pool, ladder[-1], loss, weights, rng, n_alt, n_null, n_batches,
+                     grid or ecc_grid())
+    step = (lambda n: _direct_step(sims, n)) if method == "direct" else _running_steps(sims)
+    out = _curve(ladder, step, fap)
+    if power is not None and method == "running":
+        i = next((j for j, p in enumerate(out["power"]) if p >= power), len(ladder) - 1)
+        p_i, thr_i = _point(*_direct_step(sims, ladder[i]), fap)
+        if p_i != out["power"][i]:
+            return _curve(ladder, lambda n: _direct_step(sims, n), fap)
+        out["threshold"][i] = thr_i
+    return out
+
+
+def _running_steps(sims):
+    y_alt, y_null, templ, circ, kept, n_alt, n_null = sims
+    run = _RunningLRT(y_alt, y_null, templ, circ, kept)
+
+    def step(n):
+        d_alt, d_null = run.advance(n)
+        return d_alt.ravel()[:n_alt], d_null.ravel()[:n_null]
+    return step
+
+
+def _point(d_alt, d_null, fap):
+    thr = float(np.quantile(d_null, 1.0 - fap))
+    return float(np.mean(d_alt > thr)), thr
+
+
+def _curve(ladder, step, fap):
     out = {"n": [], "power": [], "threshold": []}
     for n in ladder:
-        w = kept[:, :n]
-        sl = (Ellipsis, slice(0, n))
-        d = []
-        for y in (y_alt, y_null):
-            chi_c = _chi2(y[sl], circ[sl], w)[..., 0]
-            chi_e = _chi2(y[sl], templ[sl], w).min(axis=-1)
-            d.append(np.maximum(chi_c - chi_e, 0.0).ravel())
-        d_alt, d_null = d[0][:n_alt], d[1][:n_null]
-        thr = float(np.quantile(d_null, 1.0 - fap))
+        p, thr = _point(*step(n), fap)
         out["n"].append(n)
-        out["power"].append(float(np.mean(d_alt > thr)))
+        out["power"].append(p)
         out["threshold"].append(thr)
     return out
 
@@ -233,19 +348,47 @@ def choose_exposure(lam_unit, weights, vmag, jitter_ms, inst, *, n_cap: int, los
     thr = stats.chi2.isf(fap, 2)
     n_cap = max(int(n_cap), N_MIN)
     ns = np.arange(N_MIN, n_cap + 1) if ns is None else np.asarray([n for n in ns if n <= n_cap], int)
-    # power (candidates, N) -- posterior mean over samples
-    nc = (ns[None, :, None] * (1.0 - loss) * lam[None, None, :]) / (sig[:, None, None] ** 2)
-    pw = np.tensordot(stats.ncx2.sf(thr, 2, nc), w, axes=([2], [0]))
-    reach = pw >= power
-    n_need = np.where(reach.any(axis=1), ns[np.argmax(reach, axis=1)], np.iinfo(int).max)
-    if np.any(reach.any(axis=1)):
+    if ns.size == 0 or np.any(np.diff(ns) <= 0):
+        raise ValueError(f"visit counts must be increasing and include one <= {n_cap}, got {ns.tolist()}")
+    p_cap, n_need = _first_reaching(ns, lam, w, sig, loss, thr, power)
+    if np.any(n_need < np.iinfo(int).max):
         hours = np.where(n_need < np.iinfo(int).max, n_need * (t + inst.overhead_s), np.inf)
         i = int(np.argmin(hours))
         return {"exposure_s": float(t[i]), "sigma_ms": float(sig[i]), "n_fisher": int(n_need[i]),
                 "reason": "fewest hours to the power (Fisher estimate at the reachable epochs)"}
-    i = int(np.argmax(pw[:, -1]))
+    i = int(np.argmax(p_cap))
     return {"exposure_s": float(t[i]), "sigma_ms": float(sig[i]), "n_fisher": None,
             "reason": "highest power at the most visits the range allows (Fisher estimate)"}
+
+
+def _fisher_power(n, lam, w, sig, loss, thr):
+    """Fisher power at visit counts ``n`` (C,) for per-visit errors ``sig`` (C,): posterior mean."""
+    nc = (n[:, None] * (1.0 - loss) * lam[None, :]) / (sig[:, None] ** 2)
+    return stats.ncx2.sf(thr, 2, nc) @ w
+
+
+def _first_reaching(ns, lam, w, sig, loss, thr, power):
+    """Per candidate error: the Fisher power at the last count of ``ns`` and the first count whose
+    power reaches ``power`` (the int maximum when none does).
+
+    The power rises with N (the non-central chi^2 survival function rises with its
+    non-centrality, which is proportional to N), so the first count is found by bisection on
+    ``ns``: about log2(len(ns)) evaluations per candidate instead of len(ns), with the same answer
+    as scanning every count.
+    """
+    last = ns.size - 1
+    p_cap = _fisher_power(np.full(sig.size, ns[last]), lam, w, sig, loss, thr)
+    lo = np.full(sig.size, -1)                  # power below ``power`` at lo (or lo = -1)
+    hi = np.where(p_cap >= power, last, -1)     # power reaches it at hi (-1: never)
+    while True:
+        act = np.flatnonzero((hi >= 0) & (hi - lo > 1))
+        if act.size == 0:
+            break
+        mid = (lo[act] + hi[act]) // 2
+        ok = _fisher_power(ns[mid], lam, w, sig[act], loss, thr) >= power
+        hi[act[ok]] = mid[ok]
+        lo[act[~ok]] = mid[~ok]
+    return p_cap, np.where(hi >= 0, ns[np.maximum(hi, 0)], np.iinfo(int).max)
 
 
 def choose_exposure_uniform(e, omega, k, weights, vmag, jitter_ms, inst, *, fap: float = 0.01,

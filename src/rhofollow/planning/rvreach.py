@@ -152,7 +152,8 @@ def _one(rec, entry, s, nights, inst, loss, fap, power, seed, n_alt, n_null, rel
         rec["confirm_reachable"]["exposure_reason"] = pick["reason"]
         return
     curve = rvreach.power_curve_at_pool(e, om, kk, pick["sigma_ms"], pool, rvreach.visit_ladder(m), loss=loss,
-                                        fap=fap, seed=_rng(seed, name, "reach-lrt"), n_alt=n_alt, n_null=n_null)
+                                        fap=fap, seed=_rng(seed, name, "reach-lrt"), n_alt=n_alt, n_null=n_null,
+                                        power=power)
     n = rvreach.visits_for_power(curve, power)
     pts = [{"n": a, "power": round(b, 4)} for a, b in zip(curve["n"], curve["power"])]
     hours = None if n is None else n * cost["visit_h"]
