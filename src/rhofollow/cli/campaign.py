@@ -98,6 +98,7 @@ def run(args) -> int:
             nights.append(NightVis(str(g.date), night_visibility(eng, g, prep.science), g.start_jd, g.end_jd))
             prog.advance(task)
     from rhofollow.pipeline import PipelineOptions, _instruments
+    from rhofollow.planning.rvreach import epochs_from_ledger
     from rhofollow.planning.rvrequest import plan_rv_requests
 
     spec, _phot = _instruments(site)
@@ -109,7 +110,8 @@ def run(args) -> int:
             task = prog.add_task("RV reachable", total=len(prep.science))
             req = plan_rv_requests(prep.stages.assessments, prep.science, nights, spec,
                                    loss_fraction=site.loss_fraction, seed=args.seed, n_null=sims,
-                                   n_alt=min(400, sims), hours=hours, progress=lambda: prog.advance(task))
+                                   n_alt=min(400, sims), hours=hours, progress=lambda: prog.advance(task),
+                                   epochs_in_hand=epochs_from_ledger(args.ledger, [e["name"] for e in prep.science]))
     plan = plan_campaign(prep.science, nights, site=site.name, overhead_h=prep.overhead_h,
                          instruments=prep.instruments, model=prep.model, rv_request=req)
     from rhofollow.pipeline import campaign_document

@@ -119,7 +119,8 @@ def _chi2(y, s, w):
 def _direct_step(sims, n):
     """Delta chi^2 of the alternative and null data sets at the first ``n`` visits, each visit count
     computed from scratch (centred sums): the reference the running sums are checked against."""
-    y_alt, y_null, templ, circ, kept, n_alt, n_null = sims
+    y_alt, y_null, templ, circ, kept, n_alt, n_null, off = sims
+    n = n + off
     w = kept[:, :n]
     sl = (Ellipsis, slice(0, n))
     d = []
@@ -137,8 +138,9 @@ class _RunningLRT:
     (the centred sums of :func:`_chi2` written with raw sums; Frisch-Waugh-Lovell), so
     Delta chi^2 = max_grid gain_ecc - gain_circ and S_yy cancels. Going from n to n' visits adds
     the sums of visits n..n'-1 only: the products over the (e, omega) grid cost one pass over the
-    visits in all instead of one per visit count. Equal to :func:`_direct_step` up to rounding
-    (relative 1e-12: raw instead of centred sums).
+    visits in all instead of one per visit count. Equal to :func:`_direct_step` up to rounding:
+    raw instead of centred sums lose digits of the size of the gains, ~(K / sigma)^2 N, so a
+    threshold may differ by ~1e-16 of that (1e-10 at K / sigma = 80, N = 20).
     """
 
     def __init__(self, y_alt, y_null, templ, circ, kept):
@@ -194,8 +196,14 @@ class _RunningLRT:
         return d[:, :self.na], d[:, self.na:]
 
 
-def _simulate(e, omega, k, sigma, pool, n_max, loss, weights, rng, n_alt, n_null, n_batches, grid):
-    """Epoch sets, kept visits and simulated data sets (in units of sigma) of one power curve."""
+def _simulate(e, omega, k, sigma, pool, n_max, loss, weights, rng, n_alt, n_null, n_batches, grid,
+              prior=None):
+    """Epoch sets, kept visits and simulated data sets (in units of sigma) of one power curve.
+
+    ``prior`` = (phases, errors in m/s) of the RV epochs already in hand, or None: they come first
+    in every epoch set, are never lost, weigh (sigma / error)^2, and their data are drawn from the
+    same truth as the new visits (after every other draw, so the new visits' draws do not change).
+    """
     nb = n_batches
     na, nn = -(-n_alt // nb), -(-n_null // nb)
     ph = pool.draw(nb, n_max, rng)                                        # (B, N)
@@ -208,13 +216,27 @@ def _simulate(e, omega, k, sigma, pool, n_max, loss, weights, rng, n_alt, n_null
     y_null = ks[i0][..., None] * circular_shape(ph)[:, None, :] + rng.standard_normal((nb, nn, n_max))
     templ = grid.templates(ph)                                            # (B, G, N)
     circ = circular_shape(ph)[:, None, :]                                 # (B, 1, N)
-    return y_alt, y_null, templ, circ, kept, n_alt, n_null
+    off = 0
+    if prior is not None and np.size(prior[0]):
+        pp = np.asarray(prior[0], float).ravel() % 1.0
+        rel = np.broadcast_to(np.asarray(prior[1], float) / float(sigma), pp.shape)
+        if not np.all(np.isfinite(rel) & (rel > 0)):
+            raise ValueError("the errors of the RV epochs in hand must be positive and finite")
+        off = pp.size
+        ya = ks[ia][..., None] * rv_shape(pp, e[ia][..., None], omega[ia][..., None]) \
+            + rel * rng.standard_normal((nb, na, off))
+        yn = ks[i0][..., None] * circular_shape(pp) + rel * rng.standard_normal((nb, nn, off))
+        y_alt, y_null = np.concatenate([ya, y_alt], axis=-1), np.concatenate([yn, y_null], axis=-1)
+        templ = np.concatenate([np.broadcast_to(grid.templates(pp), (nb, grid.size, off)), templ], axis=-1)
+        circ = np.concatenate([np.broadcast_to(circular_shape(pp), (nb, 1, off)), circ], axis=-1)
+        kept = np.concatenate([np.broadcast_to(1.0 / rel**2, (nb, off)), kept], axis=-1)
+    return y_alt, y_null, templ, circ, kept, n_alt, n_null, off
 
 
 def power_curve_at_pool(e, omega, k, sigma, pool: EpochPool, ladder, *, loss: float = 0.0,
                         weights=None, fap: float = 0.01, seed=0, n_alt: int = 400, n_null: int = 2000,
                         n_batches: int = 16, grid: EccGrid | None = None, power: float | None = None,
-                        method: str = "running") -> dict:
+                        method: str = "running", prior_phases=None, prior_sigma=None) -> dict:
     """Simulated power of the eccentricity LRT at each requested visit count of ``ladder``.
 
     Parameters
@@ -231,10 +253,15 @@ def power_curve_at_pool(e, omega, k, sigma, pool: EpochPool, ladder, *, loss: fl
     n_batches : independent epoch sets (data sets are split evenly among them)
     power : the power wanted, or None. When given, the first count reaching it (the last count
         when none does) is recomputed from scratch: its power and threshold are exactly those of
-        ``method="direct"`` (the running sums differ from them by rounding only, ~1e-12 relative);
+        ``method="direct"`` (the running sums differ from them by rounding only, see
+        :class:`_RunningLRT`);
         should its power differ, the whole curve is recomputed directly.
     method : ``"running"`` (running sums over the visits, :class:`_RunningLRT`) or ``"direct"``
         (every count from scratch; the reference, several times slower)
+    prior_phases, prior_sigma : phases (0..1) and errors (m/s, jitter included) of the RV epochs
+        already in hand, or None. They enter every simulated data set (never lost; their values
+        drawn from the same truth as the new visits'), and the counts of ``ladder`` are the new
+        visits on top of them.
 
     Returns
     -------
@@ -251,7 +278,7 @@ def power_curve_at_pool(e, omega, k, sigma, pool: EpochPool, ladder, *, loss: fl
     rng = np.random.default_rng(seed)
     e, omega, k = (np.asarray(a, float) for a in (e, omega, k))
     sims = _simulate(e, omega, k, sigma, pool, ladder[-1], loss, weights, rng, n_alt, n_null, n_batches,
-                     grid or ecc_grid())
+                     grid or ecc_grid(), None if prior_phases is None else (prior_phases, prior_sigma))
     step = (lambda n: _direct_step(sims, n)) if method == "direct" else _running_steps(sims)
     out = _curve(ladder, step, fap)
     if power is not None and method == "running":
@@ -264,11 +291,11 @@ def power_curve_at_pool(e, omega, k, sigma, pool: EpochPool, ladder, *, loss: fl
 
 
 def _running_steps(sims):
-    y_alt, y_null, templ, circ, kept, n_alt, n_null = sims
+    y_alt, y_null, templ, circ, kept, n_alt, n_null, off = sims
     run = _RunningLRT(y_alt, y_null, templ, circ, kept)
 
     def step(n):
-        d_alt, d_null = run.advance(n)
+        d_alt, d_null = run.advance(n + off)
         return d_alt.ravel()[:n_alt], d_null.ravel()[:n_null]
     return step
 
