@@ -8,8 +8,15 @@ and the site's loss fraction, and rewrites each record's planning keys in place:
 ``exposure_s, sigma_rv_ms, visit_h, overheads (itemised per visit), n_epochs_confirm_ecc (visits to
 request), hours_confirm_ecc, power_at_n`` and ``confirm_reachable`` = ``{"phase_model":
 "reachable", "n_nights_reachable", "loss_fraction", "power_curve": [{"n", "power"}], "visits",
-"hours", "power_target", "confirmable", "exposure_reason"}``. The uniform-phase numbers stay under
-``uniform_phase`` (``n_epochs_confirm_ecc``, ``hours_confirm_ecc``, ``exposure_s``).
+"hours", "power_target", "confirmable", "exposure_reason"}`` (and ``visits_in_hand`` when RVs are
+in hand). The uniform-phase numbers stay under ``uniform_phase`` (``n_epochs_confirm_ecc``,
+``hours_confirm_ecc``, ``exposure_s``).
+
+RVs in hand (``epochs_in_hand``, e.g. the ledger's measured RVs, :func:`epochs_from_ledger`) enter
+every simulated data set at their own phases and errors (jitter added), never lost; the visit
+counts of the curve, and so the visits requested, are the new visits on top of them. Their nights
+leave the science dict's ``n_done`` (the planners subtract the rest: visits logged as done
+without a measured RV yet).
 
 Visit cost, itemised once (:func:`visit_overheads`): exposure + the spectrograph's
 ``overhead_min`` (pointing/slew, acquisition, read-out: the instrument file's own definition). The
