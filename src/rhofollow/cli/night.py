@@ -5,7 +5,7 @@ from rhofollow.cli.common import UserError, add_json_option, add_plan_options, c
 from rhofollow.cli.options import add_hours_option, load_site_arg, parse_hours
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 from rhofollow.cli.runs import Prepared, nothing_to_plan, prepare  # noqa: F401  (also importable from here)
-from rhofollow.cli.summaries import print_planner_messages
+from rhofollow.cli.summaries import print_planner_messages, rv_request_lines
 from rhofollow.core.defaults import MIN_PLANNING_SAMPLES
 
 __all__ = ["register", "run", "prepare", "Prepared", "load_site_arg", "RV_RANGE_DAYS", "rv_request_over_range"]
@@ -218,6 +218,10 @@ def run(args) -> int:
         say(f"No block can be scheduled at {site.name} on the night of {date}.")
     say(f"Total value {doc['total_value']:.3f} ({doc['method']}, {doc['solver_status']}); "
         f"{prep.overhead_h * 60:.0f} min slew + setup between blocks.")
+    if req is not None:
+        say(f"RV visits are counted at the epochs the site reaches from {date} to {end}:")
+        for line in rv_request_lines(req):
+            say(line)
     message(CAUTION, "caution", to_stdout=True)
     print_planner_messages(prep.notices, doc, prep.stages.unreachable)
     if args.json:
