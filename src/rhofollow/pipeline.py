@@ -463,6 +463,7 @@ def campaign_document(plan, stages: Stages, site, start, end, seed, samples, cat
 
 def _rv_request(stages: Stages, nights, site, opts: PipelineOptions, progress):
     """Time-to-confirm at reachable epochs and the RV request (:mod:`rhofollow.planning.rvrequest`)."""
+    from rhofollow.planning.rvreach import epochs_from_ledger
     from rhofollow.planning.rvrequest import plan_rv_requests
 
     spec, _ = _instruments(site)
@@ -472,7 +473,8 @@ def _rv_request(stages: Stages, nights, site, opts: PipelineOptions, progress):
     adv = progress("RV at reachable epochs", len(stages.science))
     req = plan_rv_requests(stages.assessments, stages.science, nights, spec, loss_fraction=site.loss_fraction,
                            fap=opts.fap, power=opts.power, seed=opts.seed, n_null=opts.sims,
-                           n_alt=min(400, opts.sims), hours=opts.rv_hours, progress=adv)
+                           n_alt=min(400, opts.sims), hours=opts.rv_hours, progress=adv,
+                           epochs_in_hand=epochs_from_ledger(opts.ledger, [e["name"] for e in stages.science]))
     stages.timings["rv_reachable_s"] = time.perf_counter() - t
     return req
 

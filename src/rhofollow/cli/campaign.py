@@ -13,6 +13,16 @@ __all__ = ["register", "run"]
 
 
 def register(subparsers):
+    """Add the ``campaign`` command to ``subparsers``.
+
+    Parameters
+    ----------
+    subparsers : the action of :meth:`argparse.ArgumentParser.add_subparsers`
+
+    Returns
+    -------
+    None
+    """
     p = subparsers.add_parser(
         "campaign", help="occultation windows, RV visits and hours per instrument over a date range",
         description="For each target: every occultation window observable from the site, the RV visits "
@@ -24,7 +34,9 @@ def register(subparsers):
     p.add_argument("--end", metavar="YYYY-MM-DD", required=True, help="local date of the last evening")
     p.add_argument("--ics", metavar="PATH", help="write the windows and visits as an iCalendar file")
     p.add_argument("--table", choices=["md", "latex", "csv"],
-                   help="print the hours table in this format instead of the terminal table")
+                   help="print the RV request per target (hours, visits, exposure, phases, months, density "
+                   "mismatch, P(e > 0.1), power, total with overheads) in this format instead of the "
+                   "terminal table")
     add_hours_option(p)
     add_json_option(p)
     add_plan_options(p)
@@ -62,7 +74,7 @@ def campaign_table(doc: dict, plan, site_name: str, start, end, n_nights: int, w
 def run(args) -> int:
     from rhofollow.cli.common import count_progress
 
-    from rhofollow.planning.campaign import NightVis, hours_table, plan_campaign, to_ical
+    from rhofollow.planning.campaign import NightVis, plan_campaign, to_ical
     from rhofollow.planning.night import CAUTION, night_visibility
     from rhofollow.planning.tasks import jd_to_iso
     from rhofollow.planning.visibility import VisibilityEngine
@@ -86,6 +98,7 @@ def run(args) -> int:
             nights.append(NightVis(str(g.date), night_visibility(eng, g, prep.science), g.start_jd, g.end_jd))
             prog.advance(task)
     from rhofollow.pipeline import PipelineOptions, _instruments
+    from rhofollow.planning.rvreach import epochs_from_ledger
     from rhofollow.planning.rvrequest import plan_rv_requests
 
     spec, _phot = _instruments(site)
@@ -97,18 +110,23 @@ def run(args) -> int:
             task = prog.add_task("RV reachable", total=len(prep.science))
             req = plan_rv_requests(prep.stages.assessments, prep.science, nights, spec,
                                    loss_fraction=site.loss_fraction, seed=args.seed, n_null=sims,
-                                   n_alt=min(400, sims), hours=hours, progress=lambda: prog.advance(task))
+                                   n_alt=min(400, sims), hours=hours, progress=lambda: prog.advance(task),
+                                   epochs_in_hand=epochs_from_ledger(args.ledger, [e["name"] for e in prep.science]))
     plan = plan_campaign(prep.science, nights, site=site.name, overhead_h=prep.overhead_h,
                          instruments=prep.instruments, model=prep.model, rv_request=req)
     from rhofollow.pipeline import campaign_document
 
     full = campaign_document(plan, prep.stages, site, start, end, args.seed, args.samples, prep.catalogue)
+    from rhofollow.report.proposal import campaign_proposal, proposal_table
+
+    full["proposal"] = campaign_proposal(full, prep.stages.assessments, prep.science, PipelineOptions().fap)
     # the terminal table lists the planned targets (failed ones are reported below it)
     doc = plan.to_dict()
 
     con = console()
     if args.table:
-        con.print(hours_table(plan, args.table), end="", highlight=False, markup=False, soft_wrap=True)
+        con.print(proposal_table(full["proposal"], args.table), end="", highlight=False, markup=False,
+                  soft_wrap=True)
     else:
         fitted = campaign_table(doc, plan, site.name, start, end, len(nights), con.width)
         con.print(fitted.table)

@@ -2,16 +2,29 @@
 from __future__ import annotations
 
 from rhofollow.cli.common import UserError, add_json_option, add_plan_options, console, write_json
-from rhofollow.cli.options import load_site_arg
+from rhofollow.cli.options import add_hours_option, load_site_arg, parse_hours
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 from rhofollow.cli.runs import Prepared, nothing_to_plan, prepare  # noqa: F401  (also importable from here)
-from rhofollow.cli.summaries import print_planner_messages
+from rhofollow.cli.summaries import print_planner_messages, rv_request_lines
 from rhofollow.core.defaults import MIN_PLANNING_SAMPLES
 
-__all__ = ["register", "run", "prepare", "Prepared", "load_site_arg"]
+__all__ = ["register", "run", "prepare", "Prepared", "load_site_arg", "RV_RANGE_DAYS", "rv_request_over_range"]
+
+#: Days after the night over which the RV visits to confirm are counted when ``--end`` is not given.
+RV_RANGE_DAYS = 60
 
 
 def register(subparsers):
+    """Add the ``night`` command to ``subparsers``.
+
+    Parameters
+    ----------
+    subparsers : the action of :meth:`argparse.ArgumentParser.add_subparsers`
+
+    Returns
+    -------
+    None
+    """
     p = subparsers.add_parser(
         "night", help="the night's plan: occultation windows and RV visits chosen exactly",
         description="Assess the catalogue, predict the occultations and the RV needs, and choose the "
@@ -22,6 +35,11 @@ def register(subparsers):
     p.add_argument("--date", metavar="YYYY-MM-DD",
                    help="local date of the evening (default: the coming night at the site)")
     p.add_argument("--plot", metavar="PNG", help="write the night's schedule chart (blocks on a timeline, altitudes beneath)")
+    p.add_argument("--end", metavar="YYYY-MM-DD",
+                   help="local date of the last evening of the campaign this night belongs to: the RV visits "
+                   "to confirm each eccentricity are counted at the epochs the site reaches from the night "
+                   f"to this date, as 'campaign' counts them (default: {RV_RANGE_DAYS} days after the night)")
+    add_hours_option(p)
     add_json_option(p)
     add_plan_options(p)
     p.set_defaults(func=run)
@@ -63,7 +81,96 @@ def night_table(doc: dict, eng, night, site, date, instruments: dict, width: int
     return fit_table(title, cols, rows, width)
 
 
+def rv_request_over_range(args, eng, site, prep, start, end):
+    """Time-to-confirm at the epochs reachable from ``start`` to ``end`` and the RV request, exactly as
+    ``campaign`` makes them for that range (the science dicts' RV records are updated in place).
+
+    Parameters
+    ----------
+    args : parsed options (``hours``, ``seed``)
+    eng : the site's :class:`~rhofollow.planning.visibility.VisibilityEngine`
+    site : the site (:class:`~rhofollow.planning.site.Site`: instruments, loss fraction)
+    prep : :class:`~rhofollow.cli.runs.Prepared` (assessments and science dicts)
+    start, end : local dates (``datetime.date``) of the first and last evening
+
+    Returns
+    -------
+    dict or None
+        The run-level request (:func:`rhofollow.planning.rvrequest.plan_rv_requests`); None without a
+        spectrograph or RV records. The science dicts keep the BJD offsets of the range's last
+        night: call :func:`~rhofollow.planning.night.night_visibility` for the night after this.
+    """
+    from rhofollow.cli.common import count_progress
+    from rhofollow.pipeline import PipelineOptions, _instruments
+    from rhofollow.planning.campaign import NightVis
+    from rhofollow.planning.night import night_visibility
+    from rhofollow.planning.rvreach import epochs_from_ledger
+    from rhofollow.planning.rvrequest import plan_rv_requests
+
+    spec, _phot = _instruments(site)
+    hours = parse_hours(args.hours, [spec.name] if spec is not None else [])
+    if spec is None or not any(e.get("rv") for e in prep.science):
+        return None
+    grids = [g for g in eng.nights(start, end) if g.kind != "no_night"]
+    nights = []
+    with count_progress(len(grids), "visibility") as prog:
+        task = prog.add_task("visibility", total=len(grids))
+        for g in grids:
+            nights.append(NightVis(str(g.date), night_visibility(eng, g, prep.science), g.start_jd, g.end_jd))
+            prog.advance(task)
+    sims = PipelineOptions().sims
+    with count_progress(len(prep.science), "RV at reachable epochs") as prog:
+        task = prog.add_task("RV reachable", total=len(prep.science))
+        return plan_rv_requests(prep.stages.assessments, prep.science, nights, spec,
+                                loss_fraction=site.loss_fraction, seed=args.seed, n_null=sims,
+                                n_alt=min(400, sims), hours=hours, progress=lambda: prog.advance(task),
+                                epochs_in_hand=epochs_from_ledger(args.ledger, [e["name"] for e in prep.science]))
+
+
+def _with_request(doc: dict, req, science: list[dict]) -> dict:
+    """The night JSON with the RV request: run level (``rv_request``) and per target."""
+    if req is None:
+        return doc
+    recs = {e["name"]: (e.get("rv") or {}).get("request") for e in science}
+    for t in doc["targets"]:
+        if recs.get(t["name"]) is not None:
+            t["rv_request"] = recs[t["name"]]
+    doc["rv_request"] = req
+    return doc
+
+
+def _range_end(text, date):
+    """``--end`` as a date (default :data:`RV_RANGE_DAYS` after the night), not before the night and
+    spanning at most :data:`rhofollow.cli.options.MAX_NIGHTS` evenings."""
+    import datetime as dt
+
+    from rhofollow.cli.options import MAX_NIGHTS
+
+    if text is None:
+        return date + dt.timedelta(days=RV_RANGE_DAYS)
+    try:
+        end = dt.date.fromisoformat(text)
+    except ValueError:
+        raise UserError(f"--end must be YYYY-MM-DD, got {text!r}") from None
+    if end < date:
+        raise UserError(f"--end {end} is before the night of {date}")
+    if (end - date).days + 1 > MAX_NIGHTS:
+        raise UserError(f"{(end - date).days + 1} nights from {date} to --end {end}; at most {MAX_NIGHTS}")
+    return end
+
+
 def run(args) -> int:
+    """Run ``night`` with the parsed options ``args``.
+
+    Parameters
+    ----------
+    args : :class:`argparse.Namespace` of the command's options
+
+    Returns
+    -------
+    int
+        Exit status (0 all went well, 1 some targets failed, 2 bad input).
+    """
     import datetime as dt
 
     from rhofollow.planning.night import CAUTION, night_visibility, plan_night
@@ -92,12 +199,15 @@ def run(args) -> int:
         return nothing_to_plan("night", args, prep, {"date": str(date), "timezone": site.timezone,
                                                      "blocks": [], "total_value": 0.0})
     prep.engine = eng
-    vis = night_visibility(eng, night, prep.science)
+    end = _range_end(args.end, date)
+    req = rv_request_over_range(args, eng, site, prep, date, end)
+    vis = night_visibility(eng, night, prep.science)   # after the range: this night's BJD offsets
     plan = plan_night(prep.science, vis, site=site.name, night_start_jd=night.start_jd,
                       night_end_jd=night.end_jd, overhead_h=prep.overhead_h, model=prep.model)
     from rhofollow.pipeline import night_document
 
-    doc = night_document(plan, prep.stages, site, date, args.seed, args.samples, prep.catalogue)
+    doc = _with_request(night_document(plan, prep.stages, site, date, args.seed, args.samples, prep.catalogue),
+                        req, prep.science)
 
     con = console()
     if doc["blocks"]:
@@ -108,6 +218,10 @@ def run(args) -> int:
         say(f"No block can be scheduled at {site.name} on the night of {date}.")
     say(f"Total value {doc['total_value']:.3f} ({doc['method']}, {doc['solver_status']}); "
         f"{prep.overhead_h * 60:.0f} min slew + setup between blocks.")
+    if req is not None:
+        say(f"RV visits are counted at the epochs the site reaches from {date} to {end}:")
+        for line in rv_request_lines(req):
+            say(line)
     message(CAUTION, "caution", to_stdout=True)
     print_planner_messages(prep.notices, doc, prep.stages.unreachable)
     if args.json:

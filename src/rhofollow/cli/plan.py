@@ -20,12 +20,26 @@ __all__ = ["register", "run", "demo_paths", "plan_to_folder", "DEMO_DAYS", "summ
 
 
 def register(subparsers):
+    """Add the ``plan`` command to ``subparsers``.
+
+    Parameters
+    ----------
+    subparsers : the action of :meth:`argparse.ArgumentParser.add_subparsers`
+
+    Returns
+    -------
+    None
+    """
     p = subparsers.add_parser(
         "plan", help="the whole chain into a report folder (summary, tables, calendar, plots, samples)",
         description="Assess the catalogue, predict occultations and RV needs, plan the first night and the "
         "whole date range at the site, and write a report folder. Without a catalogue, run the bundled "
         "demo scenario (invented survey and site) over the coming months.")
     add_report_options(p)
+    p.add_argument("--table", choices=["md", "latex", "csv"],
+                   help="also print the RV request per target (hours, visits, exposure, phases, months, density "
+                   "mismatch, P(e > 0.1), power, total with overheads) in this format and write it into the "
+                   "report folder as proposal_table.md / .tex / .csv")
     p.set_defaults(func=run)
 
 
@@ -36,7 +50,31 @@ def _date(s: str, opt: str) -> dt.date:
         raise UserError(f"{opt} must be YYYY-MM-DD, got {s!r}") from None
 
 
+def _proposal_table(doc: dict, out: Path, fmt: str) -> None:
+    """Print the proposal table of the results document and write it into the report folder."""
+    from rhofollow.cli.common import console
+    from rhofollow.io.atomic import atomic_write_text
+    from rhofollow.report.proposal import proposal_document, proposal_table, table_file_name
+
+    text = proposal_table(proposal_document(doc), fmt)
+    console().print(text, end="", highlight=False, markup=False, soft_wrap=True)
+    path = out / table_file_name(fmt)
+    atomic_write_text(path, text)
+    message(f"wrote {path}")
+
+
 def run(args) -> int:
+    """Run ``plan`` with the parsed options ``args``.
+
+    Parameters
+    ----------
+    args : :class:`argparse.Namespace` of the command's options
+
+    Returns
+    -------
+    int
+        Exit status (0 all went well, 1 some targets failed, 2 bad input).
+    """
     if args.catalog is None:
         cat, site = demo_paths()
         site = args.site or site
@@ -54,6 +92,8 @@ def run(args) -> int:
     written = plan_to_folder(cat, site, start, end, out, args)
     if written["result"] is not None:
         print_plan_summary(written, out)
+        if getattr(args, "table", None):
+            _proposal_table(written["doc"], out, args.table)
     status = written["doc"]["exit_status"]
     if status == 0 and written["result"] is not None and written["result"].stages.failures:
         status = 1  # a target's stage failed after its assessment (reported in notices)

@@ -8,8 +8,15 @@ and the site's loss fraction, and rewrites each record's planning keys in place:
 ``exposure_s, sigma_rv_ms, visit_h, overheads (itemised per visit), n_epochs_confirm_ecc (visits to
 request), hours_confirm_ecc, power_at_n`` and ``confirm_reachable`` = ``{"phase_model":
 "reachable", "n_nights_reachable", "loss_fraction", "power_curve": [{"n", "power"}], "visits",
-"hours", "power_target", "confirmable", "exposure_reason"}``. The uniform-phase numbers stay under
-``uniform_phase`` (``n_epochs_confirm_ecc``, ``hours_confirm_ecc``, ``exposure_s``).
+"hours", "power_target", "confirmable", "exposure_reason"}`` (and ``visits_in_hand`` when RVs are
+in hand). The uniform-phase numbers stay under ``uniform_phase`` (``n_epochs_confirm_ecc``,
+``hours_confirm_ecc``, ``exposure_s``).
+
+RVs in hand (``epochs_in_hand``, e.g. the ledger's measured RVs, :func:`epochs_from_ledger`) enter
+every simulated data set at their own phases and errors (jitter added), never lost; the visit
+counts of the curve, and so the visits requested, are the new visits on top of them. Their nights
+leave the science dict's ``n_done`` (the planners subtract the rest: visits logged as done
+without a measured RV yet).
 
 Visit cost, itemised once (:func:`visit_overheads`): exposure + the spectrograph's
 ``overhead_min`` (pointing/slew, acquisition, read-out: the instrument file's own definition). The
@@ -26,7 +33,8 @@ import numpy as np
 from rhofollow.physics import rvreach
 from rhofollow.planning.tasks import rv_task
 
-__all__ = ["visit_overheads", "night_phases", "epoch_pool", "reachable_rv", "DEFAULT_LOSS_FRACTION"]
+__all__ = ["visit_overheads", "night_phases", "epoch_pool", "reachable_rv", "epochs_from_ledger",
+           "DEFAULT_LOSS_FRACTION"]
 
 #: Loss fraction used when the site file gives none (weather and technical losses; common
 #: practice, no source): see ``[overheads] loss_fraction`` in :mod:`.site`.
@@ -86,7 +94,7 @@ def _subsample(s, k, seed, name):
 
 def reachable_rv(assessments, science: list[dict], nights, inst, *, loss_fraction: float,
                  fap: float = 0.01, power: float = 0.8, seed: int = 0, n_alt: int = 400, n_null: int = 2000,
-                 relation: str = "auto", progress=None) -> None:
+                 relation: str = "auto", progress=None, epochs_in_hand: dict | None = None) -> None:
     """Time-to-confirm at reachable epochs for every science entry with an RV record (in place).
 
     Parameters
@@ -102,6 +110,13 @@ def reachable_rv(assessments, science: list[dict], nights, inst, *, loss_fractio
     n_alt, n_null : simulated data sets per visit count
     relation : mass-radius relation (the RV stage's)
     progress : optional callable, once per target
+    epochs_in_hand : target name -> (BJD_TDB (days), RV errors (m/s)) of the RVs already measured
+        (:func:`epochs_from_ledger`), or None. They enter the power curve (:func:`_in_hand`), so the
+        visits to request are those on top of them.
+
+    Returns
+    -------
+    None (the records are updated in place)
     """
     from rhofollow.stages.rv import _rng, planet_mass_and_k
 
@@ -113,7 +128,7 @@ def reachable_rv(assessments, science: list[dict], nights, inst, *, loss_fractio
                 and np.isfinite(entry.get("period_d", np.nan)) and np.isfinite(entry.get("t0_bjd", np.nan)):
             try:
                 _one(rec, entry, s, nights, inst, loss_fraction, fap, power, seed, n_alt, n_null, relation,
-                     _rng, planet_mass_and_k)
+                     _rng, planet_mass_and_k, (epochs_in_hand or {}).get(entry["name"]))
             except Exception as exc:  # noqa: BLE001 - one target's failure stays with that target
                 rec.setdefault("warnings", []).append(
                     f"time-to-confirm at reachable epochs failed ({type(exc).__name__}: {exc}); "
@@ -122,7 +137,8 @@ def reachable_rv(assessments, science: list[dict], nights, inst, *, loss_fractio
             progress()
 
 
-def _one(rec, entry, s, nights, inst, loss, fap, power, seed, n_alt, n_null, relation, _rng, mass_and_k):
+def _one(rec, entry, s, nights, inst, loss, fap, power, seed, n_alt, n_null, relation, _rng, mass_and_k,
+         in_hand=None):
     name = entry["name"]
     _mp, k, _used = mass_and_k(s, _rng(seed, name, "mass"), relation)
     e, om, kk = _subsample(s, k, seed, name)
@@ -146,13 +162,17 @@ def _one(rec, entry, s, nights, inst, loss, fap, power, seed, n_alt, n_null, rel
     rec.update(exposure_s=cost["exposure_s"], sigma_rv_ms=pick["sigma_ms"], visit_h=cost["visit_h"],
                overheads=cost)
     m = pool.n_nights
-    if m < rvreach.N_MIN:
+    prior = _in_hand(entry, rec, in_hand)
+    n_min = rvreach.N_MIN if prior is None else max(1, rvreach.N_MIN - prior[0].size)
+    if m < n_min:
         _not_confirmable(rec, m, loss, power, f"only {m} night(s) of the range allow a visit "
-                         f"(at least {rvreach.N_MIN} visits are needed)")
+                         f"(at least {n_min} visits are needed)")
         rec["confirm_reachable"]["exposure_reason"] = pick["reason"]
         return
-    curve = rvreach.power_curve_at_pool(e, om, kk, pick["sigma_ms"], pool, rvreach.visit_ladder(m), loss=loss,
-                                        fap=fap, seed=_rng(seed, name, "reach-lrt"), n_alt=n_alt, n_null=n_null)
+    curve = rvreach.power_curve_at_pool(e, om, kk, pick["sigma_ms"], pool, rvreach.visit_ladder(m, n_min),
+                                        loss=loss, fap=fap, seed=_rng(seed, name, "reach-lrt"), n_alt=n_alt,
+                                        n_null=n_null, power=power, prior_phases=None if prior is None else prior[0],
+                                        prior_sigma=None if prior is None else prior[1])
     n = rvreach.visits_for_power(curve, power)
     pts = [{"n": a, "power": round(b, 4)} for a, b in zip(curve["n"], curve["power"])]
     hours = None if n is None else n * cost["visit_h"]
@@ -160,6 +180,8 @@ def _one(rec, entry, s, nights, inst, loss, fap, power, seed, n_alt, n_null, rel
         "phase_model": "reachable", "n_nights_reachable": m, "loss_fraction": loss, "power_target": power,
         "power_curve": pts, "visits": n, "hours": hours, "confirmable": n is not None,
         "exposure_reason": pick["reason"], "n_fisher": pick["n_fisher"]}
+    if prior is not None:
+        rec["confirm_reachable"]["visits_in_hand"] = int(prior[0].size)
     rec["n_epochs_confirm_ecc"] = n
     rec["hours_confirm_ecc"] = hours
     i = curve["n"].index(n) if n is not None else len(curve["n"]) - 1
@@ -170,6 +192,52 @@ def _one(rec, entry, s, nights, inst, loss, fap, power, seed, n_alt, n_null, rel
             f"not confirmable in this range: {m} reachable visits give power {curve['power'][-1]:.2f} "
             f"< {power:.2f}")
         _warn(rec, rec["confirm_reachable"]["note"])
+
+
+def _in_hand(entry, rec, in_hand):
+    """Phases and errors (jitter added in quadrature, m/s) of the RVs in hand, or None.
+
+    The science dict's ``n_done`` (visits done, which the planners subtract from the visits
+    needed) loses the nights of these RVs: they are counted in the power curve instead, and the
+    visits it gives are already those on top of them.
+    """
+    if in_hand is None:
+        return None
+    bjd, err = (np.atleast_1d(np.asarray(a, float)) for a in in_hand)
+    ok = np.isfinite(bjd) & np.isfinite(err) & (err > 0)
+    if not ok.any():
+        return None
+    bjd, err = bjd[ok], err[ok]
+    phases = ((bjd - entry["t0_bjd"]) / entry["period_d"]) % 1.0
+    sigma = np.sqrt(err ** 2 + float(rec.get("jitter_ms") or 0.0) ** 2)
+    nights = len({int(b + 0.5) for b in bjd})
+    entry["n_done"] = max(0, int(entry.get("n_done", 0)) - nights)
+    return phases, sigma
+
+
+def epochs_from_ledger(path, names) -> dict:
+    """The RVs in hand per target from a campaign ledger: name -> (BJD_TDB (days), errors (m/s)).
+
+    Parameters
+    ----------
+    path : the ledger file (SQLite, :class:`rhofollow.io.ledger.Ledger`), or None
+    names : target names
+
+    Returns
+    -------
+    dict (targets without RVs left out; empty without a ledger)
+    """
+    if not path:
+        return {}
+    from rhofollow.io.ledger import Ledger
+
+    lg = Ledger(path)
+    out = {}
+    for name in names:
+        ms = lg.rv_measurements(name)
+        if ms:
+            out[name] = (np.array([m.bjd_tdb for m in ms]), np.array([m.rv_err_ms for m in ms]))
+    return out
 
 
 def _not_confirmable(rec, m, loss, power, why):

@@ -32,7 +32,8 @@ def p_eccentric_of(assessment, fallback: float) -> float:
 def plan_rv_requests(assessments, science: list[dict], nights, inst, *, loss_fraction: float,
                      fap: float = 0.01, power: float = 0.8, seed: int = 0, n_alt: int = 400,
                      n_null: int = 2000, hours: dict | None = None,
-                     min_gain_per_hour: float = MIN_GAIN_PER_HOUR, progress=None) -> dict:
+                     min_gain_per_hour: float = MIN_GAIN_PER_HOUR, progress=None,
+                     epochs_in_hand: dict | None = None) -> dict:
     """Reachable-epoch time-to-confirm, then the request (see the module docstring).
 
     Parameters
@@ -41,9 +42,15 @@ def plan_rv_requests(assessments, science: list[dict], nights, inst, *, loss_fra
         as for :func:`rhofollow.planning.rvreach.reachable_rv`
     hours : spectrograph name -> budget (hours), or None for the threshold rule
     min_gain_per_hour : threshold of the rule without a budget (expected confirmations per hour)
+    epochs_in_hand : target name -> (BJD_TDB, errors in m/s) of the RVs already measured (e.g.
+        :func:`rhofollow.planning.rvreach.epochs_from_ledger`): the visits requested are on top
+
+    Returns
+    -------
+    dict, the run-level summary (module docstring)
     """
     reachable_rv(assessments, science, nights, inst, loss_fraction=loss_fraction, fap=fap, power=power,
-                 seed=seed, n_alt=n_alt, n_null=n_null, progress=progress)
+                 seed=seed, n_alt=n_alt, n_null=n_null, progress=progress, epochs_in_hand=epochs_in_hand)
     by_name = {a.name: a for a in assessments}
     items, recs = [], {}
     for entry in science:

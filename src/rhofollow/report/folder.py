@@ -27,7 +27,9 @@ __all__ = ["write_report", "slug", "REPORT_FILES", "ReportFolderError", "check_r
 
 #: Files every report folder holds (besides samples/ and plots/).
 REPORT_FILES = ("summary.md", "summary.html", "results.json", "results.ecsv", "results.csv", "night.json",
-                "campaign.json", "windows.ics")
+                "campaign.json", "windows.ics",
+                # written after the folder by ``plan --table`` (rhofollow.report.proposal)
+                "proposal_table.md", "proposal_table.tex", "proposal_table.csv")
 _REPORT_DIRS = ("samples", "plots")
 
 
