@@ -55,15 +55,18 @@ _PI32 = _P(np.pi)
 def _markley_block(m, e):
     """Solve E - e sin E = m for m in [0, pi] (one block of float64 arrays).
 
-    Returns ``(E, res)``: the eccentric anomaly and its residual E - e sin E - m. The cubic
-    starter is evaluated in float32 (it only needs ~1e-4 accuracy before the fifth-order
-    correction); the correction and the residual are float64. The sine and cosine of the starter
-    come from one tangent of the half angle (sin x = 2t/(1+t^2), cos x = (1-t^2)/(1+t^2),
-    t = tan(x/2); numpy's tangent is vectorised where its sine and cosine are not, which made the
-    solver three times faster). The residual uses them and Taylor series of the (small)
-    correction dd, truncated after dd^5 and dd^4 (error below 1e-15 for |dd| <= 0.01); larger
-    corrections are flagged by an infinite residual so that the caller re-checks them with a
-    direct sine. Operations are in place to keep the temporaries of a block few.
+    Returns ``(E, res)``: the eccentric anomaly and its residual E - e sin E - m, from the float32
+    cubic starter (:func:`_markley_starter`) and one float64 fifth-order correction
+    (:func:`_markley_correct`).
+    """
+    return _markley_correct(m, e, _markley_starter(m, e))
+
+
+def _markley_starter(m, e):
+    """Markley's (1995) cubic starter E1 (float64 array) for m in [0, pi], evaluated in float32.
+
+    It only needs ~1e-4 accuracy before the fifth-order correction. Operations are in place to keep
+    the temporaries of a block few.
     """
     m32 = m.astype(np.float32)
     e32 = e.astype(np.float32)
@@ -101,8 +104,20 @@ def _markley_block(m, e):
     w /= den
     w += m32
     w /= d
-    e1 = w.astype(np.float64)
-    # One fifth-order correction, Markley (1995) eqs. (27)-(29), float64.
+    return w.astype(np.float64)
+
+
+def _markley_correct(m, e, e1):
+    """One fifth-order correction of the starter ``e1``, Markley (1995) eqs. (27)-(29), float64.
+
+    Returns ``(E, res)`` with the residual E - e sin E - m. The sine and cosine of the starter come
+    from one tangent of the half angle (sin x = 2t/(1+t^2), cos x = (1-t^2)/(1+t^2), t = tan(x/2);
+    numpy's tangent is vectorised where its sine and cosine are not, which made the solver three
+    times faster). The residual uses them and Taylor series of the (small) correction dd, truncated
+    after dd^5 and dd^4 (error below 1e-15 for |dd| <= 0.01); larger corrections are flagged by an
+    infinite residual so that the caller re-checks them with a direct sine. Operations are in place
+    to keep the temporaries of a block few.
+    """
     # sin and cos of e1 from one tangent of the half angle (one libm call instead of two)
     t = np.tan(0.5 * e1)
     t2 = t * t
