@@ -208,55 +208,73 @@ def adaptive_importance_sample(model, d, n, rng, ess_floor=2000.0, max_rounds=4,
         Keep drawing past ``max_rounds`` while the ESS is short (off for hypotheses whose evidence
         alone is wanted).
     """
-    proposals, counts, us, lls, auxes = [], [], [], [], []
-
-    def draw(proposal, m):
-        if proposal is None:
-            u = rng.random((m, d))
-        else:
-            u, _ = proposal.sample(rng, m)
-        ll, aux = model(u, rng)
-        proposals.append(proposal)
-        counts.append(m)
-        us.append(u)
-        lls.append(ll)
-        auxes.append(aux)
-
-    def pooled():
-        u = us[0] if len(us) == 1 else np.vstack(us)
-        ll = lls[0] if len(lls) == 1 else np.concatenate(lls)
-        total = float(sum(counts))
-        comps = [np.log(c / total) + (np.zeros(len(u)) if q is None else q.log_density(u))
-                 for q, c in zip(proposals, counts)]
-        log_q = comps[0] if len(comps) == 1 else logsumexp(np.stack(comps), axis=0)
-        log_w = np.where(np.isfinite(ll), ll - log_q, -np.inf)
-        return u, log_w
-
+    batches = _Batches(model, d, rng)
     first = None
     if proxy is not None:
         u0 = rng.random((n, d))
         lp = proxy(u0)
         first = _GridProposal(u0, np.exp(lp - np.max(lp)), d)
-    draw(first, n)
-    u, log_w = pooled()
+    batches.draw(first, n)
+    u, log_w = batches.pooled()
     ess = _kish(log_w)
     adapted = proxy is not None
     while ess < ess_floor and np.any(np.isfinite(log_w)):
-        drawn = sum(counts)
-        if len(counts) < max_rounds:
-            m = n
-        elif pool and drawn < POOL_BUDGET * n and ess > 0:
-            # pooled ESS grows about linearly with the draws: size the batch from the shortfall
-            m = int(np.clip(math.ceil(drawn * (ess_floor / ess - 1.0) * 1.1), n // 4, 4 * n))
-            m = max(1, min(m, POOL_BUDGET * n - drawn))
-        else:
+        m = _next_batch_size(batches.counts, n, ess, ess_floor, max_rounds, pool)
+        if m is None:
             break
         w = np.exp(log_w - np.max(log_w))
-        draw(_GridProposal(u, w, d), m)
+        batches.draw(_GridProposal(u, w, d), m)
         adapted = True
-        u, log_w = pooled()
+        u, log_w = batches.pooled()
         ess = _kish(log_w)
+    auxes = batches.auxes
     aux = auxes[0] if len(auxes) == 1 else {k: np.concatenate([a[k] for a in auxes]) for k in auxes[0]}
     finite = np.isfinite(log_w)
     log_z = float(logsumexp(log_w[finite]) - np.log(len(log_w))) if finite.any() else -np.inf
-    return ImportanceResult(u, log_w, aux, log_z, ess, len(counts), adapted)
+    return ImportanceResult(u, log_w, aux, log_z, ess, len(batches.counts), adapted)
+
+
+def _next_batch_size(counts, n, ess, ess_floor, max_rounds, pool):
+    """Size of the next batch, or None to stop: n while rounds remain, then (with ``pool``) a batch
+    sized from the ESS shortfall (the pooled ESS grows about linearly with the draws) until
+    ``POOL_BUDGET`` x n draws are spent."""
+    drawn = sum(counts)
+    if len(counts) < max_rounds:
+        return n
+    if pool and drawn < POOL_BUDGET * n and ess > 0:
+        m = int(np.clip(math.ceil(drawn * (ess_floor / ess - 1.0) * 1.1), n // 4, 4 * n))
+        return max(1, min(m, POOL_BUDGET * n - drawn))
+    return None
+
+
+class _Batches:
+    """The batches drawn so far and their proposals; pooled with the balance-heuristic weights."""
+
+    def __init__(self, model, d, rng):
+        self.model, self.d, self.rng = model, d, rng
+        self.proposals, self.counts, self.us, self.lls, self.auxes = [], [], [], [], []
+
+    def draw(self, proposal, m):
+        """Draw m points from ``proposal`` (None: the uniform prior) and evaluate the model there."""
+        if proposal is None:
+            u = self.rng.random((m, self.d))
+        else:
+            u, _ = proposal.sample(self.rng, m)
+        ll, aux = self.model(u, self.rng)
+        self.proposals.append(proposal)
+        self.counts.append(m)
+        self.us.append(u)
+        self.lls.append(ll)
+        self.auxes.append(aux)
+
+    def pooled(self):
+        """(u, log w) of every point drawn, weighted against the deterministic mixture of proposals."""
+        us, lls = self.us, self.lls
+        u = us[0] if len(us) == 1 else np.vstack(us)
+        ll = lls[0] if len(lls) == 1 else np.concatenate(lls)
+        total = float(sum(self.counts))
+        comps = [np.log(c / total) + (np.zeros(len(u)) if q is None else q.log_density(u))
+                 for q, c in zip(self.proposals, self.counts)]
+        log_q = comps[0] if len(comps) == 1 else logsumexp(np.stack(comps), axis=0)
+        log_w = np.where(np.isfinite(ll), ll - log_q, -np.inf)
+        return u, log_w
