@@ -8,9 +8,7 @@ density says.
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import logsumexp
-
-from rhofollow.physics.sampling import ImportanceResult, _kish
+from rhofollow.physics.sampling import ImportanceResult, _kish, logsumexp
 
 __all__ = ["CUT_GROUP", "CUT_BUDGET", "cut_sample"]
 

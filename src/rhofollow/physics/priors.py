@@ -89,8 +89,23 @@ class EccPrior:
         """Prior density at e (per unit e): the tabulated CDF's cell slope (0 outside [0, e_max))."""
         e = np.asarray(e, dtype=float)
         dens = np.diff(self.cdf) / np.diff(self.e_grid)
-        i = np.clip(np.searchsorted(self.e_grid, e, side="right") - 1, 0, len(dens) - 1)
-        return np.where((e >= 0) & (e < self.e_grid[-1]), dens[i], 0.0)
+        return np.where((e >= 0) & (e < self.e_grid[-1]), dens[self._cell(e)], 0.0)
+
+    def _cell(self, e):
+        """Index of the grid cell holding each e: searchsorted(e_grid, e, "right") - 1, clipped to the
+        cells. On a uniform grid the index comes from arithmetic, corrected by one comparison with
+        each neighbouring edge (the same index as the search, without it)."""
+        grid = self.e_grid
+        last = len(grid) - 2
+        step = (grid[-1] - grid[0]) / (last + 1)
+        if e.ndim == 0 or not step > 0 or not np.allclose(np.diff(grid), step, rtol=1e-9, atol=0):
+            return np.clip(np.searchsorted(grid, e, side="right") - 1, 0, last)
+        with np.errstate(invalid="ignore"):
+            i = np.clip(np.nan_to_num((e - grid[0]) / step, nan=last), 0, last).astype(np.intp)
+        i -= grid[i] > e                      # the estimate was one cell too high
+        np.clip(i, 0, last, out=i)
+        i += (i < last) & (grid[np.minimum(i + 1, last + 1)] <= e)   # one cell too low
+        return i
 
     def prob_above(self, e_cut: float, transit_prob: bool = False) -> float:
         """P(e > e_cut) under the prior, optionally times the transit-probability factor.

@@ -17,7 +17,8 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import ndtr, ndtri, logsumexp
+from scipy.special import logsumexp as _scipy_logsumexp
+from scipy.special import ndtr, ndtri
 
 __all__ = ["split_normal_ppf", "split_normal_cdf", "draw_split_normal", "split_normal_logpdf", "ImportanceResult",
            "adaptive_importance_sample"]
@@ -28,9 +29,17 @@ def split_normal_ppf(u, mu, s_lo, s_hi):
     u = np.asarray(u, dtype=float)
     p_lo = s_lo / (s_lo + s_hi)
     with np.errstate(divide="ignore", invalid="ignore"):
-        lo = mu + s_lo * ndtri(np.clip(u / p_lo * 0.5, 1e-300, 0.5))
-        hi = mu + s_hi * ndtri(np.clip(0.5 + (u - p_lo) / (1 - p_lo) * 0.5, 0.5, 1 - 1e-16))
-    return np.where(u < p_lo, lo, hi)
+        if u.ndim == 0 or np.ndim(mu) or np.ndim(s_lo) or np.ndim(s_hi):
+            lo = mu + s_lo * ndtri(np.clip(u / p_lo * 0.5, 1e-300, 0.5))
+            hi = mu + s_hi * ndtri(np.clip(0.5 + (u - p_lo) / (1 - p_lo) * 0.5, 0.5, 1 - 1e-16))
+            return np.where(u < p_lo, lo, hi)
+        # scalar parameters: each element needs only its own side (the same values, half the work)
+        low = u < p_lo
+        out = np.empty(u.shape)
+        ul, uh = u[low], u[~low]
+        out[low] = mu + s_lo * ndtri(np.clip(ul / p_lo * 0.5, 1e-300, 0.5))
+        out[~low] = mu + s_hi * ndtri(np.clip(0.5 + (uh - p_lo) / (1 - p_lo) * 0.5, 0.5, 1 - 1e-16))
+    return out
 
 
 def split_normal_cdf(x, mu, s_lo, s_hi):
@@ -67,6 +76,44 @@ def split_normal_logpdf(x, mu, s_lo, s_hi):
     return -0.5 * z * z - np.log(0.5 * np.sqrt(2 * np.pi) * (s_lo + s_hi))
 
 
+def logsumexp(a, axis=None):
+    """log(sum(exp(a))) over ``axis`` (all elements by default) of a real float array, stably.
+
+    The same operations, in the same order, as :func:`scipy.special.logsumexp` (the largest term is
+    taken out of the sum and enters through log1p, Blanchard, Higham & Higham 2021, IMA J. Numer.
+    Anal. 41, 2311), so the result is the same to the last bit, without that function's extra pass
+    for infinite results; a result that is not finite is handed to scipy for its edge cases.
+
+    Parameters
+    ----------
+    a : ndarray
+        Real float values (any unit of log weight); not empty.
+    axis : int, optional
+        Axis of the sum (None: every element).
+
+    Returns
+    -------
+    float or ndarray
+        The log of the sum, in the unit of ``a`` (a float for ``axis=None``).
+    """
+    a = np.asarray(a, dtype=float)
+    if a.size == 0 or a.ndim == 0:
+        return _scipy_logsumexp(a, axis=axis)
+    ax = tuple(range(a.ndim)) if axis is None else axis
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        a_max = np.max(a, axis=ax, keepdims=True)
+        top = a == a_max
+        rest = np.where(top, -np.inf, a)
+        m = np.sum(top.astype(float), axis=ax, keepdims=True, dtype=float)
+        s = np.sum(np.exp(rest - a_max), axis=ax, keepdims=True, dtype=float)
+        s = np.where(s == 0, s, s / m)
+        out = np.log1p(s) + np.log(m) + a_max
+    if not np.all(np.isfinite(out)):
+        return _scipy_logsumexp(a, axis=axis)
+    out = np.squeeze(out, axis=ax)
+    return out[()] if out.ndim == 0 else out
+
+
 @dataclass
 class ImportanceResult:
     """Output of :func:`adaptive_importance_sample`.
@@ -98,6 +145,15 @@ def _kish(log_w):
 POOL_BUDGET = 12
 
 _BINS = {1: (128,), 2: (40, 40), 3: (20, 20, 10), 4: (12, 12, 8, 8)}
+_SLICES = 4096  # slices of [0, 1] in the proposal's cell look-up table
+
+
+def _slice_table(edges):
+    """Cell of the left end of each of ``_SLICES`` equal slices of [0, 1], or None when two edges may
+    share a slice (then one comparison per point would not finish the look-up)."""
+    if not np.min(np.diff(edges)) > 1.0 / _SLICES:
+        return None
+    return np.searchsorted(edges, np.arange(_SLICES) / _SLICES, side="right") - 1
 
 
 class _GridProposal:
@@ -114,7 +170,7 @@ class _GridProposal:
         self.d = d
         w = np.asarray(w, dtype=float)
         w = w / w.sum()
-        self.edges = []
+        self.edges, self._tables = [], []
         idx = []
         fine = 1024
         probs_fine = np.linspace(0, 1, fine + 1)
@@ -130,7 +186,8 @@ class _GridProposal:
             edges[0], edges[-1] = 0.0, 1.0
             edges = np.maximum.accumulate(edges)
             self.edges.append(edges)
-            idx.append(np.clip(np.searchsorted(edges, u[:, j], side="right") - 1, 0, nb - 1))
+            self._tables.append(_slice_table(edges))
+            idx.append(self._cells(j, u[:, j]))
         flat = np.ravel_multi_index(tuple(idx), bins)
         ncell = int(np.prod(bins))
         m = np.bincount(flat, weights=w, minlength=ncell).reshape(bins)
@@ -149,9 +206,25 @@ class _GridProposal:
         self.cdf[-1] = 1.0
         self.defensive = defensive
 
+    def _cells(self, j, x):
+        """Cell index of x along dimension j: searchsorted(edges, x, "right") - 1, clipped to the cells.
+
+        A table over 4096 equal slices of [0, 1] gives the cell of each slice's left end; one
+        comparison with the next edge finishes it, which is exact because no two edges lie within
+        one slice (the edges are at least 0.3 / bins apart: 30 % uniform blend). Falls back to the
+        search when that does not hold or x leaves [0, 1].
+        """
+        edges, nb = self.edges[j], self.bins[j]
+        table = self._tables[j]
+        if table is None or not (x.size == 0 or (x.min() >= 0.0 and x.max() <= 1.0)):
+            return np.clip(np.searchsorted(edges, x, side="right") - 1, 0, nb - 1)
+        idx = table[np.minimum((x * _SLICES).astype(np.intp), _SLICES - 1)]
+        idx += x >= edges[idx + 1]
+        return np.minimum(idx, nb - 1, out=idx)
+
     def log_density(self, u):
-        idx = [np.clip(np.searchsorted(self.edges[j], u[:, j], side="right") - 1, 0, self.bins[j] - 1)
-               for j in range(self.d)]
+        """Log density (natural log, per unit volume of the unit cube) of the mixture at points u (n, d)."""
+        idx = [self._cells(j, u[:, j]) for j in range(self.d)]
         flat = np.ravel_multi_index(tuple(idx), self.bins)
         return np.log((1 - self.defensive) * self.mass[flat] / self.vol[flat] + self.defensive)
 
@@ -253,14 +326,21 @@ class _Batches:
     def __init__(self, model, d, rng):
         self.model, self.d, self.rng = model, d, rng
         self.proposals, self.counts, self.us, self.lls, self.auxes = [], [], [], [], []
+        self.logq = []  # logq[k][j]: log density of proposal k at the points of batch j (None: uniform)
 
     def draw(self, proposal, m):
-        """Draw m points from ``proposal`` (None: the uniform prior) and evaluate the model there."""
+        """Draw m points from ``proposal`` (None: the uniform prior) and evaluate the model there.
+
+        Each proposal's density is evaluated once at each batch's points and kept for the pooling.
+        """
         if proposal is None:
-            u = self.rng.random((m, self.d))
+            u, lq_new = self.rng.random((m, self.d)), None
         else:
-            u, _ = proposal.sample(self.rng, m)
+            u, lq_new = proposal.sample(self.rng, m)
         ll, aux = self.model(u, self.rng)
+        for q, lqs in zip(self.proposals, self.logq):
+            lqs.append(None if q is None else q.log_density(u))
+        self.logq.append([None if proposal is None else proposal.log_density(uj) for uj in self.us] + [lq_new])
         self.proposals.append(proposal)
         self.counts.append(m)
         self.us.append(u)
@@ -273,8 +353,9 @@ class _Batches:
         u = us[0] if len(us) == 1 else np.vstack(us)
         ll = lls[0] if len(lls) == 1 else np.concatenate(lls)
         total = float(sum(self.counts))
-        comps = [np.log(c / total) + (np.zeros(len(u)) if q is None else q.log_density(u))
-                 for q, c in zip(self.proposals, self.counts)]
+        comps = [np.log(c / total) + (np.zeros(len(u)) if q is None else lqs[0] if len(lqs) == 1
+                                      else np.concatenate(lqs))
+                 for q, c, lqs in zip(self.proposals, self.counts, self.logq)]
         log_q = comps[0] if len(comps) == 1 else logsumexp(np.stack(comps), axis=0)
         log_w = np.where(np.isfinite(ll), ll - log_q, -np.inf)
         return u, log_w

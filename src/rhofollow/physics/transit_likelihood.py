@@ -99,8 +99,10 @@ def overlap_draw(rng_, m_t, s_t, star_sn, broad):
     s_t2 = 1.2 * s_t
     pick = rng_.random(m)
     z = rng_.standard_normal(m)
-    from_prior = split_normal_ppf(rng_.random(m), mu, lo, hi)
-    ln_rho = np.where(pick < 0.7, m_p + s_p * z, np.where(pick < 0.85, m_t + s_t2 * z, from_prior))
+    u_prior = rng_.random(m)
+    ln_rho = np.where(pick < 0.7, m_p + s_p * z, m_t + s_t2 * z)
+    tail = pick >= 0.85  # only these take the prior's draw (evaluated for them alone)
+    ln_rho[tail] = split_normal_ppf(u_prior[tail], mu, lo, hi)
     log_prior = split_normal_logpdf(ln_rho, mu, lo, hi)
     comps = np.stack([np.log(0.7) + normal_logpdf(ln_rho, m_p, s_p),
                       np.log(0.15) + normal_logpdf(ln_rho, m_t, s_t2),
