@@ -18,7 +18,25 @@ CUT_GROUP = 4
 
 
 def cut_batch(model, ng, group, rng):
-    """One batch of ``ng`` groups for :func:`cut_sample`: (u, log_w, cut log weights, aux)."""
+    """One batch of ``ng`` groups for :func:`cut_sample`: (u, log_w, cut log weights, aux).
+
+    Parameters
+    ----------
+    model : callable(u, rng) -> (log_w, aux)
+        The hypothesis model over the two quantile axes of (e, w).
+    ng : int
+        Number of groups.
+    group : int
+        Members per group.
+    rng : numpy.random.Generator
+        Source of the draws.
+
+    Returns
+    -------
+    (ndarray, ndarray, ndarray, dict)
+        Unit-cube points (ng * group, 2), log weights, group-normalised ("cut") log weights and the
+        model's physical arrays.
+    """
     ug = np.empty((ng, 2))
     for j in range(2):
         ug[:, j] = (rng.permutation(ng) + rng.random(ng)) / ng
@@ -53,7 +71,26 @@ def cut_sample(model, n, rng, group=CUT_GROUP, ess_floor=0.0):
     The Kish ESS of the final pooled set is checked: while it is below ``ess_floor``, another batch of
     groups (sized from the shortfall) is drawn and pooled, up to ``CUT_BUDGET`` x the first batch.
     Without further data each group contributes between 1 and ``group`` effective samples, so the
-    floor is met once the finite groups number ``ess_floor``."""
+    floor is met once the finite groups number ``ess_floor``.
+
+    Parameters
+    ----------
+    model : callable(u, rng) -> (log_w, aux)
+        The hypothesis model over the two quantile axes of (e, w).
+    n : int
+        Samples of the first batch.
+    rng : numpy.random.Generator
+        Source of the draws.
+    group : int
+        Members per group.
+    ess_floor : float
+        Target Kish effective sample size.
+
+    Returns
+    -------
+    ImportanceResult
+        Cut weights, the evidence (natural log) and the physical arrays.
+    """
     ng = max(1, -(-n // group))
     u, log_w, cut, aux = cut_batch(model, ng, group, rng)
     ess, rounds, total = _kish(cut), 1, ng

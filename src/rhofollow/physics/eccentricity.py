@@ -169,7 +169,22 @@ class _HypothesisModel:
             self.b_mu, self.b_sd = None, None
 
     def orbit(self, u, m, rng_):
-        """(e, w, log prior factor) of this hypothesis."""
+        """(e, w, log prior factor) of this hypothesis.
+
+        Parameters
+        ----------
+        u : ndarray (m, d)
+            Unit-cube points of the adapted axes.
+        m : int
+            Number of samples.
+        rng_ : numpy.random.Generator
+            Source of the measured orbit's draws.
+
+        Returns
+        -------
+        (ndarray, ndarray, ndarray)
+            e (dimensionless), w (radians) and the log prior factor.
+        """
         setup = self.setup
         if self.hyp == "eccentric":
             e = setup.prior.ppf(u[:, self.col["e"]])
@@ -186,7 +201,20 @@ class _HypothesisModel:
         return e, w, log_prior
 
     def dilution(self, u, m):
-        """Dilution D >= 1 of the transit depth: known third light, a blend, or the other host's flux."""
+        """Dilution D >= 1 of the transit depth: known third light, a blend, or the other host's flux.
+
+        Parameters
+        ----------
+        u : ndarray (m, d)
+            Unit-cube points of the adapted axes.
+        m : int
+            Number of samples.
+
+        Returns
+        -------
+        ndarray
+            Dilution D (dimensionless).
+        """
         dilution = np.full(m, self.obs.dilution_known)
         if self.hyp == "blend":
             dilution = dilution / (1 - BLEND_CONTAM_MAX * u[:, self.col["c"]])
@@ -201,7 +229,22 @@ class _HypothesisModel:
 
     def impact(self, bmax, m, rng_):
         """(b, log prior/proposal ratio): prior U(0, 1 + k); proposal about the circular fit's b when
-        known (80 %, truncated normal) mixed with the prior (20 %)."""
+        known (80 %, truncated normal) mixed with the prior (20 %).
+
+        Parameters
+        ----------
+        bmax : ndarray
+            1 + k, the largest impact parameter of a transit (stellar radii).
+        m : int
+            Number of samples.
+        rng_ : numpy.random.Generator
+            Source of the draws.
+
+        Returns
+        -------
+        (ndarray, ndarray)
+            b (stellar radii; NaN for the density route) and the log prior/proposal ratio.
+        """
         if self.dur and self.b_mu is not None:
             b_mu, b_sd = self.b_mu, self.b_sd
             lo_c = ndtr((0 - b_mu) / b_sd)
@@ -280,8 +323,9 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
 
     The adaptive grid covers the hypothesis' own parameters ((e, w) for ``eccentric``, the
     contaminating fraction for ``blend``, the flux fraction for ``other_host``). The host density is
-    drawn from the overlap proposal (:func:`~rhofollow.physics.transit_likelihood.overlap_draw`) about the density the transit implies at
-    each sample's orbit, dilution and b (:func:`~rhofollow.physics.transit_likelihood.transit_ln_rho`), b about the circular fit's b. Their
+    drawn from the overlap proposal (:func:`~rhofollow.physics.transit_likelihood.overlap_draw`)
+    about the density the transit implies at each sample's orbit, dilution and b
+    (:func:`~rhofollow.physics.transit_likelihood.transit_ln_rho`), b about the circular fit's b. Their
     prior/proposal density ratios enter the weights, so the result is exact importance sampling of the
     full likelihood; the proposals only make it efficient. With a measured orbit the eccentric
     hypothesis uses :func:`~rhofollow.physics.cut_sampler.cut_sample`.
@@ -293,6 +337,30 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
     ``extra_loglike(aux) -> array`` adds the log-likelihood of further data (measured RVs, occultation
     timings) to the weights, so the proposal adapts to the joint posterior instead of re-weighting
     samples drawn without it.
+
+    Parameters
+    ----------
+    hyp : str
+        One of :data:`HYPOTHESES`.
+    obs : TransitObservables
+        The transit's measurements (days).
+    star : StarPool
+        Draws of the host star (g/cm^3, Msun, Rsun, K).
+    setup : HypothesisSetup
+        Prior, measured orbit and companion star.
+    n : int
+        Samples per batch.
+    rng : numpy.random.Generator
+        The target's generator.
+    ess_floor : float
+        Target Kish effective sample size.
+    extra_loglike : callable(aux) -> ndarray, optional
+        Log-likelihood of further data.
+
+    Returns
+    -------
+    ImportanceResult
+        Log weights, log-evidence (natural log), ESS and ``aux`` (days, radians, g/cm^3, Msun, Rsun, K).
     """
     if hyp not in HYPOTHESES:
         raise ValueError(f"unknown hypothesis {hyp!r}")

@@ -26,13 +26,50 @@ class Obs:
     hi: float
 
     def ppf(self, u):
+        """Values at quantiles u of the measurement's split normal.
+
+        Parameters
+        ----------
+        u : float or ndarray
+            Quantile in [0, 1].
+
+        Returns
+        -------
+        ndarray
+            Values in the unit of ``value``.
+        """
         return split_normal_ppf(u, self.value, self.lo, self.hi)
 
     def logpdf(self, x):
+        """Log density of the measurement's split normal at x.
+
+        Parameters
+        ----------
+        x : float or ndarray
+            Values in the unit of ``value``.
+
+        Returns
+        -------
+        ndarray
+            Natural log of the density, per unit of ``value``.
+        """
         return split_normal_logpdf(x, self.value, self.lo, self.hi)
 
     def draw(self, rng, m):
-        """m random draws (untruncated); symmetric errors take the fast normal path."""
+        """m random draws (untruncated); symmetric errors take the fast normal path.
+
+        Parameters
+        ----------
+        rng : numpy.random.Generator
+            Source of the draws.
+        m : int
+            Number of draws.
+
+        Returns
+        -------
+        ndarray
+            m values in the unit of ``value`` (the constant value when both widths are zero).
+        """
         if self.lo <= 0 and self.hi <= 0:
             return np.full(m, self.value)
         if self.lo == self.hi:
@@ -81,6 +118,18 @@ class StarPool:
             setattr(self, name, np.asarray(getattr(self, name), dtype=float)[order])
 
     def take(self, u):
+        """The joint draw at density quantile u of the pool.
+
+        Parameters
+        ----------
+        u : ndarray
+            Quantiles in [0, 1] (dimensionless).
+
+        Returns
+        -------
+        (ndarray, ndarray, ndarray, ndarray)
+            Density (g/cm^3), mass (Msun), radius (Rsun) and Teff (K).
+        """
         idx = np.minimum((np.asarray(u) * len(self.rho)).astype(int), len(self.rho) - 1)
         return self.rho[idx], self.mstar[idx], self.rstar[idx], self.teff[idx]
 
@@ -92,7 +141,18 @@ class StarPool:
 
     def log_density_ln(self, ln_rho):
         """Log density of ln(rho) under the star's measurement: a split normal fitted to the draws'
-        16/50/84 % quantiles (smooth, with tails, so evidences of poor fits stay finite)."""
+        16/50/84 % quantiles (smooth, with tails, so evidences of poor fits stay finite).
+
+        Parameters
+        ----------
+        ln_rho : float or ndarray
+            Natural log of the density in g/cm^3.
+
+        Returns
+        -------
+        ndarray
+            Log density per unit ln(rho).
+        """
         mu, lo, hi = self._fit()
         return split_normal_logpdf(ln_rho, mu, lo, hi)
 
@@ -122,6 +182,18 @@ class StarPool:
         The mass follows the star's joint draws: its log-mean and spread in the density bin of each
         sample (48 bins over the pool's range; O(1) per sample). The radius then makes the density
         exact: R = (M / (rho/rho_sun))^(1/3) in solar units.
+
+        Parameters
+        ----------
+        rho : ndarray
+            Stellar densities, g/cm^3.
+        rng : numpy.random.Generator, optional
+            Draws the mass's scatter within its bin (None: the bin's mean).
+
+        Returns
+        -------
+        (ndarray, ndarray, ndarray)
+            Mass (Msun), radius (Rsun) and Teff (K; NaN when the pool has none).
         """
         lo, width, nb, mean_m, sd_m, mean_t, no_teff = self._bins()
         i = np.clip(((np.log(rho) - lo) / width).astype(int), 0, nb - 1)

@@ -65,6 +65,16 @@ class EccPrior:
 
         Uses a table of e on a uniform grid of u (built once), so each call is arithmetic indexing and
         a linear interpolation, with no search.
+
+        Parameters
+        ----------
+        u : float or ndarray
+            Prior quantile in [0, 1] (clipped).
+
+        Returns
+        -------
+        ndarray
+            Eccentricity (dimensionless).
         """
         table = self._ppf_table()
         n = len(table) - 1
@@ -81,12 +91,30 @@ class EccPrior:
         return t
 
     def mean(self) -> float:
+        """Prior mean of the eccentricity (from the tabulated CDF, midpoint rule).
+
+        Returns
+        -------
+        float
+            Mean e (dimensionless).
+        """
         pdf_mass = np.diff(self.cdf)
         mid = 0.5 * (self.e_grid[1:] + self.e_grid[:-1])
         return float(np.sum(pdf_mass * mid))
 
     def pdf(self, e):
-        """Prior density at e (per unit e): the tabulated CDF's cell slope (0 outside [0, e_max))."""
+        """Prior density at e (per unit e): the tabulated CDF's cell slope (0 outside [0, e_max)).
+
+        Parameters
+        ----------
+        e : float or ndarray
+            Eccentricity (dimensionless).
+
+        Returns
+        -------
+        ndarray
+            Prior density, per unit e.
+        """
         e = np.asarray(e, dtype=float)
         dens = np.diff(self.cdf) / np.diff(self.e_grid)
         return np.where((e >= 0) & (e < self.e_grid[-1]), dens[self._cell(e)], 0.0)
@@ -112,6 +140,18 @@ class EccPrior:
 
         The factor (1 + e sin w)/(1 - e^2) averages to 1/(1 - e^2) over a uniform w, so the transit-
         weighted prior on e is p(e)/(1 - e^2) normalised by ``mean_transit_boost`` (Kipping 2014b).
+
+        Parameters
+        ----------
+        e_cut : float
+            Eccentricity threshold (dimensionless).
+        transit_prob : bool
+            Weight the prior by the transit-probability factor.
+
+        Returns
+        -------
+        float
+            Probability (dimensionless, in [0, 1]).
         """
         mass = np.diff(self.cdf)
         mid = 0.5 * (self.e_grid[1:] + self.e_grid[:-1])
@@ -137,7 +177,19 @@ def _tabulate(name: str, pdf, e_max: float, description: str) -> EccPrior:
 
 
 def parse_prior(spec: str | None) -> EccPrior:
-    """Build a prior from a name (see module docstring) or ``KIND:PARAMS``; raise ValueError if unknown."""
+    """Build a prior from a name (see module docstring) or ``KIND:PARAMS``; raise ValueError if unknown.
+
+    Parameters
+    ----------
+    spec : str or None
+        A name of ``PRIOR_NAMES`` or ``beta:A,B``, ``halfnormal:S``, ``rayleigh:S``, ``uniform:EMAX``
+        (None: the default prior).
+
+    Returns
+    -------
+    EccPrior
+        The tabulated prior on e (dimensionless).
+    """
     spec = (spec or DEFAULT_PRIOR).strip()
     if spec in PRIOR_NAMES:
         kind, params, desc = PRIOR_NAMES[spec]
@@ -192,6 +244,18 @@ class MeasuredEcc(EccPrior):
         return c0, c1
 
     def ppf(self, u):
+        """Eccentricity at quantile u of the truncated split normal (exact inverse CDF).
+
+        Parameters
+        ----------
+        u : float or ndarray
+            Quantile in [0, 1] (clipped).
+
+        Returns
+        -------
+        ndarray
+            Eccentricity (dimensionless), in [0, e_max).
+        """
         from rhofollow.physics.sampling import split_normal_ppf
         c0, c1 = self._bounds()
         uu = c0 + (c1 - c0) * np.clip(np.asarray(u, dtype=float), 0.0, 1.0)
@@ -199,6 +263,18 @@ class MeasuredEcc(EccPrior):
         return np.clip(e, 0.0, np.nextafter(self.e_grid[-1], 0))
 
     def pdf(self, e):
+        """Density of the truncated split normal at e.
+
+        Parameters
+        ----------
+        e : float or ndarray
+            Eccentricity (dimensionless).
+
+        Returns
+        -------
+        ndarray
+            Density per unit e (0 outside [0, e_max)).
+        """
         from rhofollow.physics.sampling import split_normal_logpdf
         c0, c1 = self._bounds()
         e = np.asarray(e, dtype=float)
@@ -217,6 +293,18 @@ def measured_ecc_problem(value: float, err_lo: float, err_hi: float) -> str:
     range every sampler covers. The catalogue reader and :func:`measured_prior` share this test, so a
     row that ``check`` accepts is one ``assess`` can use (both give an error left out
     :data:`MEASURED_ECC_DEFAULT_ERR`).
+
+    Parameters
+    ----------
+    value : float
+        Measured eccentricity (dimensionless).
+    err_lo, err_hi : float
+        Its lower and upper 1-sigma errors (dimensionless).
+
+    Returns
+    -------
+    str
+        The reason, or "" when the measurement can be used.
     """
     from rhofollow.physics.sampling import split_normal_cdf
     slo = max(err_lo, 1e-4)
@@ -234,6 +322,18 @@ def measured_prior(value: float, err_lo: float, err_hi: float) -> EccPrior:
 
     Used when the catalogue gives ``ecc`` (a known orbit): the measurement replaces the population prior.
     The table (``e_grid``, ``cdf``) is kept for the moments; draws use the closed form.
+
+    Parameters
+    ----------
+    value : float
+        Measured eccentricity (dimensionless).
+    err_lo, err_hi : float
+        Its lower and upper 1-sigma errors (dimensionless, > 0).
+
+    Returns
+    -------
+    EccPrior
+        A :class:`MeasuredEcc`.
     """
     problem = measured_ecc_problem(value, err_lo, err_hi)
     if problem:
@@ -260,6 +360,20 @@ def reweight_to_prior(e, weights, prior: EccPrior, other: EccPrior):
     Importance re-weighting by the prior ratio: w' = w p_other(e) / p_prior(e) (the likelihood and
     every other prior factor cancel). Returns None when no sample keeps weight (``other`` puts no
     mass where the samples are). e dimensionless, weights any positive scale.
+
+    Parameters
+    ----------
+    e : ndarray
+        Eccentricities of the samples (dimensionless).
+    weights : ndarray
+        Their weights under ``prior`` (any positive scale).
+    prior, other : EccPrior
+        The prior the samples were drawn under and the one to re-weight to.
+
+    Returns
+    -------
+    ndarray or None
+        Weights under ``other``, summing to 1 (dimensionless).
     """
     e = np.asarray(e, dtype=float)
     p_def = prior.pdf(e)

@@ -20,12 +20,29 @@ import numpy as np
 from scipy.special import logsumexp as _scipy_logsumexp
 from scipy.special import ndtr, ndtri
 
+from rhofollow.physics.grid_proposal import _GridProposal, grid_bins  # noqa: F401 (grid_bins re-exported)
+
 __all__ = ["split_normal_ppf", "split_normal_cdf", "draw_split_normal", "split_normal_logpdf", "ImportanceResult",
            "adaptive_importance_sample"]
 
 
 def split_normal_ppf(u, mu, s_lo, s_hi):
-    """Inverse CDF of the split normal with mode ``mu`` and side widths ``s_lo``, ``s_hi``."""
+    """Inverse CDF of the split normal with mode ``mu`` and side widths ``s_lo``, ``s_hi``.
+
+    Parameters
+    ----------
+    u : float or ndarray
+        Quantile in [0, 1].
+    mu : float or ndarray
+        Mode, in the unit of the measured quantity.
+    s_lo, s_hi : float or ndarray
+        Lower and upper 1-sigma widths (> 0), same unit.
+
+    Returns
+    -------
+    ndarray
+        Values at the quantiles, unit of ``mu``.
+    """
     u = np.asarray(u, dtype=float)
     p_lo = s_lo / (s_lo + s_hi)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -43,13 +60,47 @@ def split_normal_ppf(u, mu, s_lo, s_hi):
 
 
 def split_normal_cdf(x, mu, s_lo, s_hi):
-    """CDF of the split normal (see :func:`split_normal_ppf`)."""
+    """CDF of the split normal (see :func:`split_normal_ppf`).
+
+    Parameters
+    ----------
+    x : float or ndarray
+        Values, unit of ``mu``.
+    mu : float
+        Mode.
+    s_lo, s_hi : float
+        Lower and upper 1-sigma widths (> 0), unit of ``mu``.
+
+    Returns
+    -------
+    ndarray
+        Cumulative probability in [0, 1].
+    """
     p_lo = s_lo / (s_lo + s_hi)
     return np.where(x < mu, 2 * p_lo * ndtr((x - mu) / s_lo), p_lo + 2 * (1 - p_lo) * (ndtr((x - mu) / s_hi) - 0.5))
 
 
 def draw_split_normal(rng, n, mu, s_lo, s_hi, lower=-np.inf, upper=np.inf):
-    """n draws of a split normal truncated to (lower, upper); zero widths give the constant ``mu``."""
+    """n draws of a split normal truncated to (lower, upper); zero widths give the constant ``mu``.
+
+    Parameters
+    ----------
+    rng : numpy.random.Generator
+        Source of the draws.
+    n : int
+        Number of draws.
+    mu : float
+        Mode, in the unit of the measured quantity.
+    s_lo, s_hi : float
+        Lower and upper 1-sigma widths, same unit (a zero width takes the other side's).
+    lower, upper : float
+        Open physical bounds, same unit (default unbounded).
+
+    Returns
+    -------
+    ndarray
+        n draws, unit of ``mu``, strictly inside (lower, upper).
+    """
     if s_lo <= 0 and s_hi <= 0:
         return np.full(n, float(mu))
     s_lo = s_lo if s_lo > 0 else s_hi
@@ -69,7 +120,22 @@ def draw_split_normal(rng, n, mu, s_lo, s_hi, lower=-np.inf, upper=np.inf):
 
 
 def split_normal_logpdf(x, mu, s_lo, s_hi):
-    """Log density of a split normal (normalised) at x; x and mu broadcast."""
+    """Log density of a split normal (normalised) at x; x and mu broadcast.
+
+    Parameters
+    ----------
+    x : float or ndarray
+        Values, unit of ``mu``.
+    mu : float or ndarray
+        Mode.
+    s_lo, s_hi : float
+        Lower and upper 1-sigma widths (> 0), unit of ``mu``.
+
+    Returns
+    -------
+    ndarray
+        Natural log of the density, per unit of ``x``.
+    """
     x = np.asarray(x, dtype=float)
     s = np.where(x < mu, s_lo, s_hi)
     z = (x - mu) / s
@@ -143,111 +209,6 @@ def _kish(log_w):
 
 #: Most draws (in units of the batch size n) the final pooling stage may add up to.
 POOL_BUDGET = 12
-
-_BINS = {1: (128,), 2: (40, 40), 3: (20, 20, 10), 4: (12, 12, 8, 8)}
-_SLICES = 4096  # slices of [0, 1] in the proposal's cell look-up table
-
-
-def _slice_table(edges):
-    """Cell of the left end of each of ``_SLICES`` equal slices of [0, 1], or None when two edges may
-    share a slice (then one comparison per point would not finish the look-up)."""
-    if not np.min(np.diff(edges)) > 1.0 / _SLICES:
-        return None
-    return np.searchsorted(edges, np.arange(_SLICES) / _SLICES, side="right") - 1
-
-
-class _GridProposal:
-    """Piecewise-constant density on a rectilinear grid over the unit cube, mixed with the uniform one.
-
-    Cell edges per dimension follow the weighted marginal quantiles of the points it is fitted to
-    (blended with uniform edges), so cells are small where the posterior mass is (as in VEGAS,
-    Lepage 1978); cell masses come from the weighted joint histogram, smoothed to the neighbours.
-    """
-
-    def __init__(self, u, w, d, defensive=0.15):
-        bins = grid_bins(d)
-        self.bins = bins
-        self.d = d
-        w = np.asarray(w, dtype=float)
-        w = w / w.sum()
-        self.edges, self._tables = [], []
-        idx = []
-        fine = 1024
-        probs_fine = np.linspace(0, 1, fine + 1)
-        for j in range(d):
-            nb = bins[j]
-            # weighted marginal CDF on a fine uniform grid (O(n), no sort)
-            hist = np.bincount(np.minimum((u[:, j] * fine).astype(int), fine - 1), weights=w, minlength=fine)
-            cdf = np.concatenate([[0.0], np.cumsum(hist)])
-            cdf /= cdf[-1]
-            probs = np.linspace(0, 1, nb + 1)
-            q = np.interp(probs, cdf, probs_fine)
-            edges = 0.7 * q + 0.3 * probs
-            edges[0], edges[-1] = 0.0, 1.0
-            edges = np.maximum.accumulate(edges)
-            self.edges.append(edges)
-            self._tables.append(_slice_table(edges))
-            idx.append(self._cells(j, u[:, j]))
-        flat = np.ravel_multi_index(tuple(idx), bins)
-        ncell = int(np.prod(bins))
-        m = np.bincount(flat, weights=w, minlength=ncell).reshape(bins)
-        sm = m.copy()
-        for ax in range(d):
-            sm = sm + 0.25 * (np.roll(m, 1, axis=ax) + np.roll(m, -1, axis=ax))
-        sm = sm.ravel()
-        sm = sm / sm.sum()
-        widths = [np.diff(e) for e in self.edges]
-        vol = widths[0]
-        for wd in widths[1:]:
-            vol = np.multiply.outer(vol, wd)
-        self.vol = np.asarray(vol).ravel()
-        self.mass = sm
-        self.cdf = np.cumsum(sm)
-        self.cdf[-1] = 1.0
-        self.defensive = defensive
-
-    def _cells(self, j, x):
-        """Cell index of x along dimension j: searchsorted(edges, x, "right") - 1, clipped to the cells.
-
-        A table over 4096 equal slices of [0, 1] gives the cell of each slice's left end; one
-        comparison with the next edge finishes it, which is exact because no two edges lie within
-        one slice (the edges are at least 0.3 / bins apart: 30 % uniform blend). Falls back to the
-        search when that does not hold or x leaves [0, 1].
-        """
-        edges, nb = self.edges[j], self.bins[j]
-        table = self._tables[j]
-        if table is None or not (x.size == 0 or (x.min() >= 0.0 and x.max() <= 1.0)):
-            return np.clip(np.searchsorted(edges, x, side="right") - 1, 0, nb - 1)
-        idx = table[np.minimum((x * _SLICES).astype(np.intp), _SLICES - 1)]
-        idx += x >= edges[idx + 1]
-        return np.minimum(idx, nb - 1, out=idx)
-
-    def log_density(self, u):
-        """Log density (natural log, per unit volume of the unit cube) of the mixture at points u (n, d)."""
-        idx = [self._cells(j, u[:, j]) for j in range(self.d)]
-        flat = np.ravel_multi_index(tuple(idx), self.bins)
-        return np.log((1 - self.defensive) * self.mass[flat] / self.vol[flat] + self.defensive)
-
-    def sample(self, rng, n):
-        cells = np.searchsorted(self.cdf, rng.random(n))
-        cells = np.minimum(cells, len(self.cdf) - 1)
-        idx = np.unravel_index(cells, self.bins)
-        u = np.empty((n, self.d))
-        r = rng.random((n, self.d))
-        for j in range(self.d):
-            lo = self.edges[j][idx[j]]
-            hi = self.edges[j][idx[j] + 1]
-            u[:, j] = lo + (hi - lo) * r[:, j]
-        uniform = rng.random(n) < self.defensive
-        if uniform.any():
-            u[uniform] = rng.random((int(uniform.sum()), self.d))
-        return u, self.log_density(u)
-
-
-def grid_bins(d: int) -> tuple:
-    """Cells per dimension of the adaptive proposal grid for d dimensions."""
-    return _BINS.get(d, (6,) * d)
-
 
 def adaptive_importance_sample(model, d, n, rng, ess_floor=2000.0, max_rounds=4, proxy=None,
                                pool=True):
@@ -332,6 +293,13 @@ class _Batches:
         """Draw m points from ``proposal`` (None: the uniform prior) and evaluate the model there.
 
         Each proposal's density is evaluated once at each batch's points and kept for the pooling.
+
+        Parameters
+        ----------
+        proposal : _GridProposal or None
+            Where to draw from.
+        m : int
+            Number of points.
         """
         if proposal is None:
             u, lq_new = self.rng.random((m, self.d)), None

@@ -24,7 +24,18 @@ STAR_FREE_SIGMA_LN = 0.5 * 2.302585092994046
 
 
 def best_possible_loglike(obs: TransitObservables) -> float:
-    """Log-likelihood of a model that reproduces every transit observable exactly (chi^2 = 0)."""
+    """Log-likelihood of a model that reproduces every transit observable exactly (chi^2 = 0).
+
+    Parameters
+    ----------
+    obs : TransitObservables
+        The transit's measurements (days; ln g/cm^3 for the density route).
+
+    Returns
+    -------
+    float
+        Log-likelihood (natural log, per the observables' units).
+    """
     if obs.route == "durations":
         ll = float(obs.t14.logpdf(obs.t14.value))
         if obs.t23 is not None:
@@ -36,7 +47,30 @@ def best_possible_loglike(obs: TransitObservables) -> float:
 
 
 def log_like_transit(obs: TransitObservables, rho_host, period, k_true, b, e, w, dilution):
-    """Log-likelihood of the transit observables for arrays of physical parameters."""
+    """Log-likelihood of the transit observables for arrays of physical parameters.
+
+    Parameters
+    ----------
+    obs : TransitObservables
+        The transit's measurements (days; ln g/cm^3 for the density route).
+    rho_host : ndarray
+        Host density, g/cm^3.
+    period : ndarray
+        Orbital period, days.
+    k_true : ndarray
+        True radius ratio Rp/R* of the host.
+    b : ndarray
+        Transit impact parameter, stellar radii (unused by the density route).
+    e, w : ndarray
+        Eccentricity and argument of periastron (radians, RV convention).
+    dilution : ndarray
+        Dilution D >= 1 (dimensionless).
+
+    Returns
+    -------
+    ndarray
+        Log-likelihood per sample (-inf for impossible geometry).
+    """
     if obs.route == "durations":
         a_rs = ars_from_rho(rho_host, period)
         t14, t23 = eccentric_durations(a_rs, b, k_true, period, e, w)
@@ -55,6 +89,18 @@ def log_like_transit(obs: TransitObservables, rho_host, period, k_true, b, e, w,
 
 
 def normal_logpdf(x, mu, sd):
+    """Log density of a normal distribution.
+
+    Parameters
+    ----------
+    x, mu, sd : float or ndarray
+        Values, mean and standard deviation (sd > 0), one unit.
+
+    Returns
+    -------
+    ndarray
+        Natural log of the density, per unit of x.
+    """
     z = (x - mu) / sd
     return -0.5 * z * z - np.log(np.sqrt(2 * np.pi) * sd)
 
@@ -65,6 +111,26 @@ def transit_ln_rho(obs: TransitObservables, period, k_true, b, ln_g3, dilution):
     Durations: the exact circular a/R* at the measured T14, this b and k (Seager & Mallen-Ornelas 2003),
     linearised in T14, moved by the photo-eccentric factor -3 ln g (Kipping 2010). Density route:
     ln rho_circ - 3 ln g + (3/4) ln D (Kipping 2014, MNRAS 440, 2164).
+
+    Parameters
+    ----------
+    obs : TransitObservables
+        The transit's measurements.
+    period : ndarray
+        Orbital period, days.
+    k_true : ndarray
+        True radius ratio Rp/R*.
+    b : ndarray
+        Impact parameter, stellar radii.
+    ln_g3 : ndarray
+        3 ln g, the photo-eccentric shift (dimensionless).
+    dilution : ndarray
+        Dilution D >= 1 (dimensionless).
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        Mean and standard deviation of ln rho (rho in g/cm^3).
     """
     if obs.route == "durations":
         t14 = np.clip(np.full_like(period, obs.t14.value), 1e-6 * period, 0.499 * period)
@@ -87,6 +153,23 @@ def overlap_draw(rng_, m_t, s_t, star_sn, broad):
     The prior is the star's split normal (or, ``broad``, a normal about its mode with
     STAR_FREE_SIGMA_LN). The proposal mixes 70 % of the Gaussian product of prior and transit (widened
     1.3x), 15 % transit alone and 15 % prior alone (defensive mixture, Hesterberg 1995).
+
+    Parameters
+    ----------
+    rng_ : numpy.random.Generator
+        Source of the draws.
+    m_t, s_t : ndarray
+        Mean and sd of the ln rho the transit implies (rho in g/cm^3).
+    star_sn : tuple of float
+        The star's split normal of ln rho: (mode, lower width, upper width).
+    broad : bool
+        Use the broad prior of the ``star_density`` explanation.
+
+    Returns
+    -------
+    (ndarray, ndarray, ndarray)
+        ln rho (g/cm^3), the proposal's log density and the star prior's log density (both per unit
+        ln rho).
     """
     mu, lo, hi = star_sn
     m = m_t.shape[0]
