@@ -111,9 +111,8 @@ def weighted_quantiles(x: np.ndarray, weights: np.ndarray | None, q) -> np.ndarr
         weights = np.ones_like(x)
     w = np.broadcast_to(np.asarray(weights, dtype=float), x.shape)
     if x.ndim == 1:
-        x2, w2 = x[None, :], w[None, :]
-    else:
-        x2, w2 = x, w
+        return _weighted_quantiles_1d(x, w, qa, q)
+    x2, w2 = x, w
     good = np.isfinite(x2) & np.isfinite(w2) & (w2 > 0)
     w2 = np.where(good, w2, 0.0)
     x2 = np.where(good, x2, np.inf)          # sorted to the end, with zero weight
@@ -129,8 +128,26 @@ def weighted_quantiles(x: np.ndarray, weights: np.ndarray | None, q) -> np.ndarr
             continue
         cdf = (cw[i, :m] - 0.5 * ws[i, :m]) / tot
         out[i] = np.interp(qa, cdf, xs[i, :m])
-    if x.ndim == 1:
-        out = out[0]
+    return out if np.ndim(q) else out[..., 0]
+
+
+def _weighted_quantiles_1d(x, w, qa, q):
+    """:func:`weighted_quantiles` of one row: the same operations without the 2-D bookkeeping (and
+    without copies when every sample counts)."""
+    good = np.isfinite(x) & np.isfinite(w) & (w > 0)
+    m = int(np.count_nonzero(good))
+    if m < x.size:
+        w = np.where(good, w, 0.0)
+        x = np.where(good, x, np.inf)        # sorted to the end, with zero weight
+    order = np.argsort(x)
+    xs = x[order]
+    ws = w[order]
+    cw = np.cumsum(ws)
+    out = np.full(qa.size, np.nan)
+    tot = cw[-1] if cw.size else 0.0
+    if m and np.isfinite(tot) and tot > 0:
+        cdf = (cw[:m] - 0.5 * ws[:m]) / tot
+        out[:] = np.interp(qa, cdf, xs[:m])
     return out if np.ndim(q) else out[..., 0]
 
 

@@ -71,6 +71,7 @@ class _GridProposal:
         self.mass = sm
         self.cdf = np.cumsum(sm)
         self.cdf[-1] = 1.0
+        self._cdf_table = np.searchsorted(self.cdf, np.arange(_SLICES) / _SLICES)
         self.defensive = defensive
 
     def _cells(self, j, x):
@@ -106,6 +107,21 @@ class _GridProposal:
         flat = np.ravel_multi_index(tuple(idx), self.bins)
         return np.log((1 - self.defensive) * self.mass[flat] / self.vol[flat] + self.defensive)
 
+    def _cell_of_mass(self, r):
+        """searchsorted(cdf, r) for r in [0, 1): the first cell of each r's slice from a table, then
+        steps over the few cumulative masses inside that slice (the search for any still short)."""
+        cdf = self.cdf
+        idx = self._cdf_table[(r * _SLICES).astype(np.intp)]
+        for _ in range(4):
+            step = cdf[idx] < r          # cdf[-1] = 1 > r, so idx stays a valid index
+            if not step.any():
+                return idx
+            idx += step
+        step = cdf[idx] < r
+        if step.any():
+            idx[step] = np.searchsorted(cdf, r[step])
+        return idx
+
     def sample(self, rng, n):
         """Draw n points from the mixture.
 
@@ -121,7 +137,7 @@ class _GridProposal:
         (ndarray (n, d), ndarray (n,))
             Points of the unit cube (dimensionless) and their log density (per unit volume).
         """
-        cells = np.searchsorted(self.cdf, rng.random(n))
+        cells = self._cell_of_mass(rng.random(n))
         cells = np.minimum(cells, len(self.cdf) - 1)
         idx = np.unravel_index(cells, self.bins)
         u = np.empty((n, self.d))

@@ -126,7 +126,11 @@ class EccPrior:
         grid = self.e_grid
         last = len(grid) - 2
         step = (grid[-1] - grid[0]) / (last + 1)
-        if e.ndim == 0 or not step > 0 or not np.allclose(np.diff(grid), step, rtol=1e-9, atol=0):
+        uniform = self.__dict__.get("_uniform")
+        if uniform is None:
+            uniform = bool(step > 0 and np.allclose(np.diff(grid), step, rtol=1e-9, atol=0))
+            object.__setattr__(self, "_uniform", uniform)
+        if e.ndim == 0 or not uniform:
             return np.clip(np.searchsorted(grid, e, side="right") - 1, 0, last)
         with np.errstate(invalid="ignore"):
             i = np.clip(np.nan_to_num((e - grid[0]) / step, nan=last), 0, last).astype(np.intp)

@@ -105,6 +105,18 @@ def normal_logpdf(x, mu, sd):
     return -0.5 * z * z - np.log(np.sqrt(2 * np.pi) * sd)
 
 
+def _normal_logpdf_inplace(x, mu, sd):
+    """:func:`normal_logpdf` of arrays with two temporaries (the same operations, in place)."""
+    z = x - mu
+    z /= sd
+    out = -0.5 * z
+    out *= z
+    lg = np.sqrt(2 * np.pi) * sd
+    np.log(lg, out=lg)
+    out -= lg
+    return out
+
+
 def transit_ln_rho(obs: TransitObservables, period, k_true, b, ln_g3, dilution):
     """The host density the transit implies for given orbit and geometry: (mean, sd) of ln rho (g/cm^3).
 
@@ -176,8 +188,9 @@ def overlap_draw(rng_, m_t, s_t, star_sn, broad):
     if broad:
         lo = hi = STAR_FREE_SIGMA_LN
     s_s = np.where(m_t < mu, lo, hi)
-    prec = 1.0 / s_t**2 + 1.0 / s_s**2
-    m_p = (m_t / s_t**2 + mu / s_s**2) / prec
+    var_t, var_s = s_t**2, s_s**2
+    prec = 1.0 / var_t + 1.0 / var_s
+    m_p = (m_t / var_t + mu / var_s) / prec
     s_p = 1.3 / np.sqrt(prec)
     s_t2 = 1.2 * s_t
     pick = rng_.random(m)
@@ -187,9 +200,19 @@ def overlap_draw(rng_, m_t, s_t, star_sn, broad):
     tail = pick >= 0.85  # only these take the prior's draw (evaluated for them alone)
     ln_rho[tail] = split_normal_ppf(u_prior[tail], mu, lo, hi)
     log_prior = split_normal_logpdf(ln_rho, mu, lo, hi)
-    comps = np.stack([np.log(0.7) + normal_logpdf(ln_rho, m_p, s_p),
-                      np.log(0.15) + normal_logpdf(ln_rho, m_t, s_t2),
-                      np.log(0.15) + log_prior])
-    mx = comps.max(axis=0)
-    log_q = mx + np.log(np.exp(comps - mx).sum(axis=0))
+    # log of the mixture density, the three components combined in place (log-sum-exp about their max)
+    c0 = _normal_logpdf_inplace(ln_rho, m_p, s_p)
+    c0 += np.log(0.7)
+    c1 = _normal_logpdf_inplace(ln_rho, m_t, s_t2)
+    c1 += np.log(0.15)
+    c2 = np.log(0.15) + log_prior
+    mx = np.maximum(c0, c1)
+    np.maximum(mx, c2, out=mx)
+    for c in (c0, c1, c2):
+        c -= mx
+        np.exp(c, out=c)
+    c0 += c1
+    c0 += c2
+    log_q = np.log(c0, out=c0)
+    log_q += mx
     return ln_rho, log_q, log_prior
