@@ -252,10 +252,22 @@ class _HypothesisModel:
             mix = rng_.random(m) < 0.2
             b = np.where(mix, bmax * rng_.random(m),
                          b_mu + b_sd * ndtri(np.clip(lo_c + (hi_c - lo_c) * rng_.random(m), 1e-300, 1 - 1e-16)))
-            b = np.clip(b, 0, np.nextafter(bmax, 0))
-            z = (b - b_mu) / b_sd
-            q_norm = np.exp(-0.5 * z * z) / (np.sqrt(2 * np.pi) * b_sd * np.maximum(hi_c - lo_c, 1e-300))
-            return b, -np.log(bmax) - np.log(0.2 / bmax + 0.8 * q_norm)
+            np.clip(b, 0, np.nextafter(bmax, 0), out=b)
+            # log prior/proposal = -ln bmax - ln(0.2 / bmax + 0.8 q), q the truncated normal (in place)
+            q = b - b_mu
+            q /= b_sd
+            q_den = np.maximum(hi_c - lo_c, 1e-300)
+            q_den *= np.sqrt(2 * np.pi) * b_sd
+            np.multiply(q, -0.5 * q, out=q)
+            np.exp(q, out=q)
+            q /= q_den
+            q *= 0.8
+            mixed = 0.2 / bmax
+            mixed += q
+            log_pq = np.log(bmax)
+            np.negative(log_pq, out=log_pq)
+            log_pq -= np.log(mixed, out=mixed)
+            return b, log_pq
         if self.dur:
             return bmax * rng_.random(m), np.zeros(m)
         return np.full(m, np.nan), np.zeros(m)
@@ -269,16 +281,17 @@ class _HypothesisModel:
         dilution = self.dilution(u, m)
         k_true = k_obs * np.sqrt(dilution)
         b, log_pq_b = self.impact(1 + k_true, m, rng_)
-        ln_g3 = 3 * np.log(g_factor(e, w))
+        sin_w = np.sin(w)
+        ln_g3 = 3 * np.log((1.0 + e * sin_w) / np.sqrt(1.0 - e * e))   # 3 ln g_factor(e, w)
         m_t, s_t = transit_ln_rho(obs, period, k_true, np.nan_to_num(b), ln_g3, dilution)
         ln_rho, log_q_rho, log_p_rho = overlap_draw(rng_, m_t, s_t, self.star_sn, self.broad)
         if self.broad:
             log_p_rho = normal_logpdf(ln_rho, self.star_sn[0], STAR_FREE_SIGMA_LN)
         rho = np.exp(ln_rho)
         mstar, rstar, teff = self.host.at_density(rho, rng_)
-        ll = log_like_transit(obs, rho, period, k_true, b, e, w, dilution)
-        log_w = ll + log_prior + log_p_rho - log_q_rho + log_pq_b
         a_rs = ars_from_rho(rho, period)
+        ll = log_like_transit(obs, rho, period, k_true, b, e, w, dilution, sin_w=sin_w, a_rs=a_rs)
+        log_w = ll + log_prior + log_p_rho - log_q_rho + log_pq_b
         aux = dict(e=e, omega=np.mod(w, 2 * np.pi), b=b, k=k_true, period=period, t0=t0,
                    rho_star=rho, mstar=mstar, rstar=rstar, a_rs=a_rs, teff=teff, dilution=dilution,
                    loglike=np.where(np.isfinite(ll), ll, -np.inf),

@@ -297,12 +297,39 @@ def eccentric_durations(a_rs, b, k, period, e, omega):
         T14 and T23, days.
     """
     a_rs, b, k, period, e = (np.asarray(x, dtype=float) for x in (a_rs, b, k, period, e))
-    fac = (1 - e * e) / (1 + e * np.sin(omega))
+    t14, t23, _ = durations_from_sin(a_rs, b, k, period, e, np.sin(omega))
+    return t14, t23
+
+
+def durations_from_sin(a_rs, b, k, period, e, sin_w, full=True):
+    """:func:`eccentric_durations` from sin(omega) computed once by the caller (float arrays).
+
+    Parameters
+    ----------
+    a_rs, b, k, period, e : ndarray
+        a/R*, impact parameter (stellar radii), Rp/R*, period (days), eccentricity.
+    sin_w : ndarray
+        Sine of the argument of periastron (RV convention).
+    full : bool
+        Also compute T23 (else None is returned for it).
+
+    Returns
+    -------
+    (ndarray, ndarray or None, ndarray)
+        T14 and T23 (days), and (1 - e^2) / (1 + e sin w) (dimensionless).
+    """
+    one_e2 = 1 - e * e
+    e_sin1 = 1 + e * sin_w
+    fac = one_e2 / e_sin1
     cos_i = b / (a_rs * fac)
     sin_i = np.sqrt(np.clip(1 - cos_i**2, 1e-300, 1.0))
-    scale = np.sqrt(1 - e * e) / (1 + e * np.sin(omega))
-    x14 = np.sqrt(np.clip((1 + k) ** 2 - b**2, 0.0, None)) / (a_rs * sin_i)
-    x23 = np.sqrt(np.clip((1 - k) ** 2 - b**2, 0.0, None)) / (a_rs * sin_i)
+    scale = np.sqrt(one_e2) / e_sin1
+    b2 = b**2
+    a_sin_i = a_rs * sin_i
+    x14 = np.sqrt(np.clip((1 + k) ** 2 - b2, 0.0, None)) / a_sin_i
     t14 = period / np.pi * np.arcsin(np.clip(x14, 0.0, 1.0)) * scale
+    if not full:
+        return t14, None, fac
+    x23 = np.sqrt(np.clip((1 - k) ** 2 - b2, 0.0, None)) / a_sin_i
     t23 = period / np.pi * np.arcsin(np.clip(x23, 0.0, 1.0)) * scale
-    return t14, t23
+    return t14, t23, fac

@@ -12,7 +12,7 @@ import numpy as np
 
 from rhofollow.physics.observables import TransitObservables
 from rhofollow.physics.sampling import split_normal_logpdf, split_normal_ppf
-from rhofollow.physics.transit import ars_from_rho, eccentric_durations, g_factor, rho_from_ars
+from rhofollow.physics.transit import ars_from_rho, durations_from_sin, rho_from_ars
 
 __all__ = ["best_possible_loglike", "log_like_transit", "transit_ln_rho", "overlap_draw", "normal_logpdf",
            "STAR_FREE_SIGMA_LN"]
@@ -46,7 +46,8 @@ def best_possible_loglike(obs: TransitObservables) -> float:
     return float(obs.ln_rho_circ.logpdf(obs.ln_rho_circ.value))
 
 
-def log_like_transit(obs: TransitObservables, rho_host, period, k_true, b, e, w, dilution):
+def log_like_transit(obs: TransitObservables, rho_host, period, k_true, b, e, w, dilution, *, sin_w=None,
+                     a_rs=None):
     """Log-likelihood of the transit observables for arrays of physical parameters.
 
     Parameters
@@ -65,25 +66,27 @@ def log_like_transit(obs: TransitObservables, rho_host, period, k_true, b, e, w,
         Eccentricity and argument of periastron (radians, RV convention).
     dilution : ndarray
         Dilution D >= 1 (dimensionless).
+    sin_w, a_rs : ndarray, optional
+        sin(w) and the host's a/R* when the caller has them already (the same values either way).
 
     Returns
     -------
     ndarray
         Log-likelihood per sample (-inf for impossible geometry).
     """
+    sin_w = np.sin(w) if sin_w is None else sin_w
     if obs.route == "durations":
-        a_rs = ars_from_rho(rho_host, period)
-        t14, t23 = eccentric_durations(a_rs, b, k_true, period, e, w)
+        a_rs = ars_from_rho(rho_host, period) if a_rs is None else a_rs
+        t14, t23, fac = durations_from_sin(a_rs, b, k_true, period, e, sin_w, full=obs.t23 is not None)
         ll = obs.t14.logpdf(t14)
         if obs.t23 is not None:
             ll = ll + obs.t23.logpdf(t23)
         elif obs.b is not None:
             ll = ll + obs.b.logpdf(b)
         # impossible geometry (planet inside the star, no inclination gives this b)
-        fac = (1 - e * e) / (1 + e * np.sin(w))
         bad = (b >= a_rs * fac) | (a_rs * (1 - e) <= 1 + k_true)
         return np.where(bad, -np.inf, ll)
-    g3 = g_factor(e, w) ** 3
+    g3 = ((1.0 + e * sin_w) / np.sqrt(1.0 - e * e)) ** 3   # g_factor(e, w)^3 with the given sine
     ln_model = np.log(rho_host * g3) - 0.75 * np.log(dilution)
     return obs.ln_rho_circ.logpdf(ln_model)
 
