@@ -291,14 +291,18 @@ class _HypothesisModel:
         mstar, rstar, teff = self.host.at_density(rho, rng_)
         a_rs = ars_from_rho(rho, period)
         ll = log_like_transit(obs, rho, period, k_true, b, e, w, dilution, sin_w=sin_w, a_rs=a_rs)
-        log_w = ll + log_prior + log_p_rho - log_q_rho + log_pq_b
+        log_w = ll + log_prior
+        log_w += log_p_rho
+        log_w -= log_q_rho
+        log_w += log_pq_b
         aux = dict(e=e, omega=np.mod(w, 2 * np.pi), b=b, k=k_true, period=period, t0=t0,
                    rho_star=rho, mstar=mstar, rstar=rstar, a_rs=a_rs, teff=teff, dilution=dilution,
                    loglike=np.where(np.isfinite(ll), ll, -np.inf),
                    log_star=split_normal_logpdf(ln_rho, *self.star_sn) - self.peak)
         if self.extra_loglike is not None:
-            log_w = log_w + self._further_data(aux, w, m)
-        return np.where(np.isfinite(log_w), log_w, -np.inf), aux
+            log_w += self._further_data(aux, w, m)
+        log_w[~np.isfinite(log_w)] = -np.inf
+        return log_w, aux
 
     def _further_data(self, aux, w, m):
         """Log-likelihood of further data (RVs, occultation timings); sets aux['inc'] (and the cut

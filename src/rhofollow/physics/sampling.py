@@ -139,7 +139,10 @@ def split_normal_logpdf(x, mu, s_lo, s_hi):
     x = np.asarray(x, dtype=float)
     s = np.where(x < mu, s_lo, s_hi)
     z = (x - mu) / s
-    return -0.5 * z * z - np.log(0.5 * np.sqrt(2 * np.pi) * (s_lo + s_hi))
+    out = -0.5 * z
+    out *= z
+    out -= np.log(0.5 * np.sqrt(2 * np.pi) * (s_lo + s_hi))
+    return out
 
 
 def logsumexp(a, axis=None):
