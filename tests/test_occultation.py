@@ -105,14 +105,17 @@ def test_light_travel_circular_hd189733b():
 @given(st.floats(0.0, 0.7), st.floats(0.0, 2 * np.pi), st.floats(0.0, 0.6), st.floats(0.01, 0.2))
 def test_duration_properties(e, w, b, k):
     # Invariants (common practice, no source): T23 < T14; both shorter than a quarter period;
-    # the exact T14 of the occultation is within 1 % of Winn's closed form for aR = 20.
+    # the exact T14 of the occultation is within 1 % of Winn's closed form for aR = 20 up to e = 0.6,
+    # 2 % above (the closed form takes the planet's speed as constant across the event, so its error
+    # grows with e: a scan of 20,000 random geometries gives at most 0.5 % for e <= 0.6 and 1.5 % at
+    # e = 0.7; computed, no source).
     a_rs = 20.0
     inc = np.arccos(b * (1 + e * np.sin(w)) / (a_rs * (1 - e * e)))
     if occultation_impact_parameter(a_rs, inc, e, w) >= 1 - k:
         return
     t14, t23 = eclipse_durations(P, a_rs, inc, e, w, k)
     assert 0 < t23 < t14 < P / 4
-    assert t14 == pytest.approx(duration_winn(P, a_rs, inc, e, w, k), rel=0.01)
+    assert t14 == pytest.approx(duration_winn(P, a_rs, inc, e, w, k), rel=0.01 if e <= 0.6 else 0.02)
 
 
 def test_vectorised_matches_elementwise():

@@ -42,7 +42,18 @@ RELIABLE_ESS = 100.0
 
 def kish_ess(weights: np.ndarray) -> float:
     """Kish effective sample size (sum w)^2 / sum w^2 of importance weights (0 when the weights
-    are empty, all zero or not finite)."""
+    are empty, all zero or not finite).
+
+    Parameters
+    ----------
+    weights : ndarray
+        Importance weights (any positive scale).
+
+    Returns
+    -------
+    float
+        Effective number of samples.
+    """
     w = np.asarray(weights, dtype=float)
     if w.size == 0 or not np.all(np.isfinite(w)):
         return 0.0
@@ -56,6 +67,18 @@ def reliability(ess: float | None, floor: float = RELIABLE_ESS) -> tuple[bool, s
     """``(reliable, reason)``: whether quantiles from ``ess`` effective samples can be trusted.
 
     ``reason`` is empty when reliable, else one sentence naming the ESS and the floor.
+
+    Parameters
+    ----------
+    ess : float or None
+        Effective sample size (None or NaN: unknown).
+    floor : float
+        Smallest ESS that counts as reliable.
+
+    Returns
+    -------
+    (bool, str)
+        Whether reliable, and the reason when not.
     """
     try:
         e = float(ess)
@@ -88,9 +111,8 @@ def weighted_quantiles(x: np.ndarray, weights: np.ndarray | None, q) -> np.ndarr
         weights = np.ones_like(x)
     w = np.broadcast_to(np.asarray(weights, dtype=float), x.shape)
     if x.ndim == 1:
-        x2, w2 = x[None, :], w[None, :]
-    else:
-        x2, w2 = x, w
+        return _weighted_quantiles_1d(x, w, qa, q)
+    x2, w2 = x, w
     good = np.isfinite(x2) & np.isfinite(w2) & (w2 > 0)
     w2 = np.where(good, w2, 0.0)
     x2 = np.where(good, x2, np.inf)          # sorted to the end, with zero weight
@@ -106,8 +128,26 @@ def weighted_quantiles(x: np.ndarray, weights: np.ndarray | None, q) -> np.ndarr
             continue
         cdf = (cw[i, :m] - 0.5 * ws[i, :m]) / tot
         out[i] = np.interp(qa, cdf, xs[i, :m])
-    if x.ndim == 1:
-        out = out[0]
+    return out if np.ndim(q) else out[..., 0]
+
+
+def _weighted_quantiles_1d(x, w, qa, q):
+    """:func:`weighted_quantiles` of one row: the same operations without the 2-D bookkeeping (and
+    without copies when every sample counts)."""
+    good = np.isfinite(x) & np.isfinite(w) & (w > 0)
+    m = int(np.count_nonzero(good))
+    if m < x.size:
+        w = np.where(good, w, 0.0)
+        x = np.where(good, x, np.inf)        # sorted to the end, with zero weight
+    order = np.argsort(x)
+    xs = x[order]
+    ws = w[order]
+    cw = np.cumsum(ws)
+    out = np.full(qa.size, np.nan)
+    tot = cw[-1] if cw.size else 0.0
+    if m and np.isfinite(tot) and tot > 0:
+        cdf = (cw[:m] - 0.5 * ws[:m]) / tot
+        out[:] = np.interp(qa, cdf, xs[:m])
     return out if np.ndim(q) else out[..., 0]
 
 
@@ -116,6 +156,20 @@ def quantile_dict(x: np.ndarray, weights: np.ndarray | None = None, scale: float
 
     Every value is None ("not available", null in JSON) when there is nothing to summarise (no
     finite sample with positive weight), or when a quantile is not finite.
+
+    Parameters
+    ----------
+    x : ndarray
+        Sample values (any unit).
+    weights : ndarray, optional
+        Sample weights (any positive scale; None: equal).
+    scale : float
+        Factor applied to the quantiles (e.g. a unit conversion).
+
+    Returns
+    -------
+    dict
+        Keys q025, q16, q50, q84, q975: floats in the unit of ``x`` times ``scale``, or None.
     """
     x = np.asarray(x, dtype=float).ravel()
     if weights is not None:
@@ -168,10 +222,24 @@ class SampleSet:
 
     @property
     def n(self) -> int:
+        """Number of samples.
+
+        Returns
+        -------
+        int
+            Samples held (weighted or not).
+        """
         return len(self.weights)
 
     @property
     def ess(self) -> float:
+        """Kish effective sample size of the weights.
+
+        Returns
+        -------
+        float
+            Effective number of samples.
+        """
         return kish_ess(self.weights)
 
     @property
@@ -180,11 +248,35 @@ class SampleSet:
         return reliability(self.ess)[0]
 
     def quantiles(self, column: str, scale: float = 1.0) -> dict:
-        """Quantile object (q025..q975) of one column, weighted."""
+        """Quantile object (q025..q975) of one column, weighted.
+
+        Parameters
+        ----------
+        column : str
+            A column of ``SAMPLE_COLUMNS`` (internal units: days, radians, g/cm^3, Msun, Rsun, K).
+        scale : float
+            Factor applied to the quantiles.
+
+        Returns
+        -------
+        dict
+            Keys q025..q975, unit of the column times ``scale`` (None: not available).
+        """
         return quantile_dict(getattr(self, column), self.weights, scale)
 
     def reweighted(self, log_like: np.ndarray) -> "SampleSet":
-        """A copy with weights multiplied by exp(log_like) (numerically stabilised)."""
+        """A copy with weights multiplied by exp(log_like) (numerically stabilised).
+
+        Parameters
+        ----------
+        log_like : ndarray (n,)
+            Log-likelihood of further data per sample (natural log; -inf or NaN drops the sample).
+
+        Returns
+        -------
+        SampleSet
+            The same samples with the new weights (normalised to 1).
+        """
         ll = np.asarray(log_like, dtype=float)
         ll = np.where(np.isfinite(ll), ll, -np.inf)
         m = np.max(ll)
@@ -193,7 +285,20 @@ class SampleSet:
         return SampleSet(name=self.name, weights=w, meta=dict(self.meta), **kw)
 
     def resample(self, n: int, rng: np.random.Generator) -> dict:
-        """Equal-weight draws (systematic resampling): dict column -> array (n,)."""
+        """Equal-weight draws (systematic resampling): dict column -> array (n,).
+
+        Parameters
+        ----------
+        n : int
+            Number of draws.
+        rng : numpy.random.Generator
+            Source of the one uniform offset.
+
+        Returns
+        -------
+        dict
+            Column name -> array (n,) in the column's internal unit.
+        """
         if self.n == 0 or not self.weights.sum() > 0:
             raise ValueError(f"{self.name}: no sample carries weight; nothing to resample")
         cw = np.cumsum(self.weights)
@@ -241,7 +346,18 @@ class SampleSet:
 
     @classmethod
     def from_table(cls, t) -> "SampleSet":
-        """Inverse of :meth:`to_table`."""
+        """Inverse of :meth:`to_table`.
+
+        Parameters
+        ----------
+        t : astropy.table.Table
+            A table written by :meth:`to_table` (omega and inc in degrees).
+
+        Returns
+        -------
+        SampleSet
+            The samples (internal units: radians for omega and inc).
+        """
         kw = {}
         for c, unit in SAMPLE_COLUMNS.items():
             if c in ("omega", "inc"):

@@ -42,5 +42,18 @@ def target_rng(seed: int, name: str, stage: str | None = None) -> np.random.Gene
 
 
 def target_seed(seed: int, name: str) -> np.random.Generator:
-    """The assessment's generator of one target: ``target_rng(seed, name)`` (the name older code uses)."""
+    """The assessment's generator of one target: ``target_rng(seed, name)`` (the name older code uses).
+
+    Parameters
+    ----------
+    seed : int
+        The run seed.
+    name : str
+        The target name.
+
+    Returns
+    -------
+    numpy.random.Generator
+        The target's assessment generator.
+    """
     return target_rng(seed, name)

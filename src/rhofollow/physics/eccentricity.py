@@ -36,6 +36,12 @@ The host density is proposed where the star's prior and the transit overlap (the
 log-normal descriptions, mixed with each alone), so the evidence of an explanation far from the data is
 computed in its overlap region instead of in the tails of either.
 
+The pieces live in their own modules: the measurements and the star's draws in
+:mod:`~rhofollow.physics.observables`, the transit's likelihood and the host-density proposal in
+:mod:`~rhofollow.physics.transit_likelihood`, the measured-orbit sampler in
+:mod:`~rhofollow.physics.cut_sampler`; this module holds the explanations and runs them (their names
+are re-exported here).
+
 All arrays are in internal units: days, radians, g/cm^3.
 """
 from __future__ import annotations
@@ -43,149 +49,25 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy.special import ndtr, ndtri
 
+from rhofollow.physics.cut_sampler import CUT_GROUP, cut_sample
+from rhofollow.physics.observables import Obs, StarPool, TransitObservables
 from rhofollow.physics.priors import EccPrior
-from rhofollow.physics.sampling import (adaptive_importance_sample, split_normal_ppf, split_normal_logpdf,
-                       ImportanceResult, _kish)
-from scipy.special import logsumexp, ndtr, ndtri
+from rhofollow.physics.sampling import ImportanceResult, adaptive_importance_sample, split_normal_logpdf
+from rhofollow.physics.transit import ars_from_rho, g_factor, inclination_from_b
+from rhofollow.physics.transit_likelihood import (STAR_FREE_SIGMA_LN, best_possible_loglike, log_like_transit,
+                                                  normal_logpdf, overlap_draw, transit_ln_rho)
 
-from rhofollow.physics.constants import RHO_SUN_CGS
-from rhofollow.physics.transit import ars_from_rho, eccentric_durations, g_factor, inclination_from_b, rho_from_ars
-
-_RHO_PER_ARS3 = float(rho_from_ars(1.0, 1.0))  # g/cm^3 per (a/R*)^3 at P = 1 d
-
-__all__ = ["Obs", "TransitObservables", "StarPool", "HYPOTHESES", "MEASURED_STAR_HYPOTHESES", "run_hypothesis",
-           "best_possible_loglike", "BLEND_CONTAM_MAX", "OTHER_HOST_FLUX_RANGE", "STAR_FREE_SIGMA_LN",
-           "transit_ln_rho"]
+__all__ = ["Obs", "TransitObservables", "StarPool", "HypothesisSetup", "HYPOTHESES", "MEASURED_STAR_HYPOTHESES",
+           "run_hypothesis", "best_possible_loglike", "BLEND_CONTAM_MAX", "OTHER_HOST_FLUX_RANGE",
+           "STAR_FREE_SIGMA_LN", "CUT_GROUP", "transit_ln_rho"]
 
 HYPOTHESES = ("circular", "eccentric", "blend", "other_host", "star_density")
 #: Explanations that take the star's measured density at its word (the others free it).
 MEASURED_STAR_HYPOTHESES = ("circular", "eccentric", "blend", "other_host")
 BLEND_CONTAM_MAX = 0.9
-#: Broad prior of the ``star_density`` explanation: ln rho* normal about the measured value with this
-#: spread, 0.5 dex in density (a dwarf read as a subgiant or the reverse; common practice, no source).
-STAR_FREE_SIGMA_LN = 0.5 * 2.302585092994046
-#: Members per group of the measured-orbit ("cut") sampler: each drawn (e, w) carries this many draws
-#: of the star and geometry.
-CUT_GROUP = 4
 OTHER_HOST_FLUX_RANGE = (0.05, 0.5)
-
-
-@dataclass(frozen=True)
-class Obs:
-    """A measured value with split-normal 1-sigma widths (lo, hi > 0)."""
-
-    value: float
-    lo: float
-    hi: float
-
-    def ppf(self, u):
-        return split_normal_ppf(u, self.value, self.lo, self.hi)
-
-    def logpdf(self, x):
-        return split_normal_logpdf(x, self.value, self.lo, self.hi)
-
-    def draw(self, rng, m):
-        """m random draws (untruncated); symmetric errors take the fast normal path."""
-        if self.lo <= 0 and self.hi <= 0:
-            return np.full(m, self.value)
-        if self.lo == self.hi:
-            return self.value + self.lo * rng.standard_normal(m)
-        return self.ppf(rng.random(m))
-
-
-@dataclass(frozen=True)
-class TransitObservables:
-    """What the transit fit measured (days for times and durations).
-
-    ``route`` is "durations" (needs t14) or "density" (needs ln_rho_circ: the split-normal description
-    of log rho_circ in ln(g/cm^3)). With the durations route, ``ln_rho_circ`` (optional) only shapes
-    the sampler's first proposal; the likelihood uses the durations. ``k`` is the observed (possibly diluted) radius ratio.
-    ``dilution_known`` is D_known = 1/(1 - contam_frac) >= 1.
-    """
-
-    route: str
-    period: Obs
-    t0: Obs
-    k: Obs
-    t14: Obs | None = None
-    t23: Obs | None = None
-    b: Obs | None = None
-    ln_rho_circ: Obs | None = None
-    dilution_known: float = 1.0
-    b_circ: Obs | None = None
-
-
-@dataclass
-class StarPool:
-    """Joint draws of a star (rho g/cm^3, mstar Msun, rstar Rsun, teff K), sorted by density.
-
-    A unit-cube coordinate u maps to the draw at quantile u of density, so the sampler can adapt to the
-    part of the star's density distribution that the transit favours.
-    """
-
-    rho: np.ndarray
-    mstar: np.ndarray
-    rstar: np.ndarray
-    teff: np.ndarray
-
-    def __post_init__(self):
-        order = np.argsort(self.rho)
-        for name in ("rho", "mstar", "rstar", "teff"):
-            setattr(self, name, np.asarray(getattr(self, name), dtype=float)[order])
-
-    def take(self, u):
-        idx = np.minimum((np.asarray(u) * len(self.rho)).astype(int), len(self.rho) - 1)
-        return self.rho[idx], self.mstar[idx], self.rstar[idx], self.teff[idx]
-
-    def _fit(self):
-        if not hasattr(self, "_sn"):
-            q16, q50, q84 = np.quantile(np.log(self.rho), [0.15865, 0.5, 0.84135])
-            self._sn = (q50, max(q50 - q16, 1e-4), max(q84 - q50, 1e-4))
-        return self._sn
-
-    def log_density_ln(self, ln_rho):
-        """Log density of ln(rho) under the star's measurement: a split normal fitted to the draws'
-        16/50/84 % quantiles (smooth, with tails, so evidences of poor fits stay finite)."""
-        mu, lo, hi = self._fit()
-        return split_normal_logpdf(ln_rho, mu, lo, hi)
-
-    def _bins(self):
-        if not hasattr(self, "_b"):
-            ln = np.log(self.rho)
-            nb = 48
-            lo, hi = ln[0], ln[-1] + 1e-9
-            idx = np.minimum(((ln - lo) / (hi - lo) * nb).astype(int), nb - 1)
-            cnt = np.maximum(np.bincount(idx, minlength=nb), 1)
-            lnm = np.log(self.mstar)
-            mean_m = np.bincount(idx, weights=lnm, minlength=nb) / cnt
-            sd_m = np.sqrt(np.maximum(np.bincount(idx, weights=lnm**2, minlength=nb) / cnt - mean_m**2, 0))
-            tf = np.nan_to_num(self.teff, nan=0.0)
-            mean_t = np.bincount(idx, weights=tf, minlength=nb) / cnt
-            empty = np.bincount(idx, minlength=nb) == 0
-            for arr in (mean_m, sd_m, mean_t):  # empty bins borrow the nearest filled bin
-                filled = np.flatnonzero(~empty)
-                arr[empty] = arr[filled[np.abs(filled[:, None] - np.flatnonzero(empty)[None, :]).argmin(0)]] \
-                    if empty.any() else arr[empty]
-            self._b = (lo, (hi - lo) / nb, nb, mean_m, sd_m, mean_t, bool(np.isnan(self.teff).all()))
-        return self._b
-
-    def at_density(self, rho, rng=None):
-        """Mass, radius and Teff for given densities (g/cm^3).
-
-        The mass follows the star's joint draws: its log-mean and spread in the density bin of each
-        sample (48 bins over the pool's range; O(1) per sample). The radius then makes the density
-        exact: R = (M / (rho/rho_sun))^(1/3) in solar units.
-        """
-        lo, width, nb, mean_m, sd_m, mean_t, no_teff = self._bins()
-        i = np.clip(((np.log(rho) - lo) / width).astype(int), 0, nb - 1)
-        lnm = mean_m[i]
-        if rng is not None:
-            lnm = lnm + sd_m[i] * rng.standard_normal(len(i))
-        mstar = np.exp(lnm)
-        rstar = np.cbrt(mstar / (rho / RHO_SUN_CGS))
-        teff = np.full(len(i), np.nan) if no_teff else mean_t[i]
-        return mstar, rstar, teff
 
 
 @dataclass
@@ -199,37 +81,6 @@ class HypothesisSetup:
     companion: StarPool | None = None
     companion_flux: float | None = None
     extra: dict = field(default_factory=dict)
-
-
-def best_possible_loglike(obs: TransitObservables) -> float:
-    """Log-likelihood of a model that reproduces every transit observable exactly (chi^2 = 0)."""
-    if obs.route == "durations":
-        ll = float(obs.t14.logpdf(obs.t14.value))
-        if obs.t23 is not None:
-            ll += float(obs.t23.logpdf(obs.t23.value))
-        elif obs.b is not None:
-            ll += float(obs.b.logpdf(obs.b.value))
-        return ll
-    return float(obs.ln_rho_circ.logpdf(obs.ln_rho_circ.value))
-
-
-def _log_like_transit(obs: TransitObservables, rho_host, period, k_true, b, e, w, dilution):
-    """Log-likelihood of the transit observables for arrays of physical parameters."""
-    if obs.route == "durations":
-        a_rs = ars_from_rho(rho_host, period)
-        t14, t23 = eccentric_durations(a_rs, b, k_true, period, e, w)
-        ll = obs.t14.logpdf(t14)
-        if obs.t23 is not None:
-            ll = ll + obs.t23.logpdf(t23)
-        elif obs.b is not None:
-            ll = ll + obs.b.logpdf(b)
-        # impossible geometry (planet inside the star, no inclination gives this b)
-        fac = (1 - e * e) / (1 + e * np.sin(w))
-        bad = (b >= a_rs * fac) | (a_rs * (1 - e) <= 1 + k_true)
-        return np.where(bad, -np.inf, ll)
-    g3 = g_factor(e, w) ** 3
-    ln_model = np.log(rho_host * g3) - 0.75 * np.log(dilution)
-    return obs.ln_rho_circ.logpdf(ln_model)
 
 
 def _make_proxy(hyp, dims, obs, host, setup):
@@ -282,114 +133,204 @@ def _make_proxy(hyp, dims, obs, host, setup):
     return proxy
 
 
-def _normal_logpdf(x, mu, sd):
-    z = (x - mu) / sd
-    return -0.5 * z * z - np.log(np.sqrt(2 * np.pi) * sd)
+def _adapted_dims(hyp: str, setup: HypothesisSetup) -> list[str]:
+    """The unit-cube axes the adaptive grid covers: (e, w) for ``eccentric``, the contaminating
+    fraction for ``blend``, the flux fraction for ``other_host``, else a dummy axis."""
+    if hyp == "eccentric":
+        return ["e", "w"]
+    if hyp == "blend":
+        return ["c"]
+    if hyp == "other_host" and setup.companion_flux is None:
+        return ["f"]
+    return ["z"]  # no free parameter of its own: a dummy axis
 
 
-def transit_ln_rho(obs: TransitObservables, period, k_true, b, ln_g3, dilution):
-    """The host density the transit implies for given orbit and geometry: (mean, sd) of ln rho (g/cm^3).
+class _HypothesisModel:
+    """One hypothesis as a vectorised model: unit-cube points -> (log weight, physical arrays).
 
-    Durations: the exact circular a/R* at the measured T14, this b and k (Seager & Mallen-Ornelas 2003),
-    linearised in T14, moved by the photo-eccentric factor -3 ln g (Kipping 2010). Density route:
-    ln rho_circ - 3 ln g + (3/4) ln D (Kipping 2014, MNRAS 440, 2164).
+    Each call draws, in this order, the period, epoch and radius ratio, the orbit, the impact
+    parameter, the host density (overlap proposal) and the host's mass and radius.
     """
-    if obs.route == "durations":
-        t14 = np.clip(np.full_like(period, obs.t14.value), 1e-6 * period, 0.499 * period)
-        t14_sd = 0.5 * (obs.t14.lo + obs.t14.hi)
-        x = np.pi * t14 / period
-        sx = np.sin(x)
-        chord2 = np.clip((1 + k_true) ** 2 - b * b, 1e-12, None)
-        a2 = b * b + chord2 / (sx * sx)
-        ln_rc = np.log(_RHO_PER_ARS3 * a2 ** 1.5 / period**2)
-        dln_dt = 1.5 * (-2 * chord2 * np.cos(x) / sx**3 * np.pi / period) / a2
-        sd = np.maximum(np.abs(dln_dt) * t14_sd, 1e-4)
-        return ln_rc - ln_g3, sd
-    rc = obs.ln_rho_circ
-    return rc.value - ln_g3 + 0.75 * np.log(dilution), np.full_like(ln_g3, 0.5 * (rc.lo + rc.hi))
+
+    def __init__(self, hyp, obs: TransitObservables, star: StarPool, setup: HypothesisSetup, extra_loglike):
+        self.hyp, self.obs, self.setup, self.extra_loglike = hyp, obs, setup, extra_loglike
+        self.dims = _adapted_dims(hyp, setup)
+        self.col = {name: i for i, name in enumerate(self.dims)}
+        self.dur = obs.route == "durations"
+        self.measured = setup.orbit_measured and setup.prior is not None
+        self.host = setup.companion if hyp == "other_host" else star
+        self.star_sn = self.host._fit()
+        self.broad = hyp == "star_density"
+        self.peak = -np.log(0.5 * np.sqrt(2 * np.pi) * (self.star_sn[1] + self.star_sn[2]))  # split-normal mode
+        if self.dur and obs.b_circ is not None:
+            self.b_mu = obs.b_circ.value
+            self.b_sd = 1.5 * 0.5 * (obs.b_circ.lo + obs.b_circ.hi) + 0.03
+        else:
+            self.b_mu, self.b_sd = None, None
+
+    def orbit(self, u, m, rng_):
+        """(e, w, log prior factor) of this hypothesis.
+
+        Parameters
+        ----------
+        u : ndarray (m, d)
+            Unit-cube points of the adapted axes.
+        m : int
+            Number of samples.
+        rng_ : numpy.random.Generator
+            Source of the measured orbit's draws.
+
+        Returns
+        -------
+        (ndarray, ndarray, ndarray)
+            e (dimensionless), w (radians) and the log prior factor.
+        """
+        setup = self.setup
+        if self.hyp == "eccentric":
+            e = setup.prior.ppf(u[:, self.col["e"]])
+            uw = u[:, self.col["w"]]
+        elif self.measured and self.hyp != "circular":
+            e = setup.prior.ppf(rng_.random(m))
+            uw = rng_.random(m)
+        else:
+            return np.zeros(m), np.full(m, np.pi / 2), np.zeros(m)
+        w = setup.omega_measured.ppf(uw) if setup.omega_measured is not None else 2 * np.pi * uw
+        log_prior = np.zeros(m)
+        if setup.transit_prob and not self.measured:
+            log_prior = np.log((1 + e * np.sin(w)) / (1 - e * e) / setup.prior.mean_transit_boost)
+        return e, w, log_prior
+
+    def dilution(self, u, m):
+        """Dilution D >= 1 of the transit depth: known third light, a blend, or the other host's flux.
+
+        Parameters
+        ----------
+        u : ndarray (m, d)
+            Unit-cube points of the adapted axes.
+        m : int
+            Number of samples.
+
+        Returns
+        -------
+        ndarray
+            Dilution D (dimensionless).
+        """
+        dilution = np.full(m, self.obs.dilution_known)
+        if self.hyp == "blend":
+            dilution = dilution / (1 - BLEND_CONTAM_MAX * u[:, self.col["c"]])
+        elif self.hyp == "other_host":
+            if self.setup.companion_flux is not None:
+                f = np.full(m, self.setup.companion_flux)
+            else:
+                lo, hi = OTHER_HOST_FLUX_RANGE
+                f = lo + (hi - lo) * u[:, self.col["f"]]
+            dilution = 1.0 / f
+        return dilution
+
+    def impact(self, bmax, m, rng_):
+        """(b, log prior/proposal ratio): prior U(0, 1 + k); proposal about the circular fit's b when
+        known (80 %, truncated normal) mixed with the prior (20 %).
+
+        Parameters
+        ----------
+        bmax : ndarray
+            1 + k, the largest impact parameter of a transit (stellar radii).
+        m : int
+            Number of samples.
+        rng_ : numpy.random.Generator
+            Source of the draws.
+
+        Returns
+        -------
+        (ndarray, ndarray)
+            b (stellar radii; NaN for the density route) and the log prior/proposal ratio.
+        """
+        if self.dur and self.b_mu is not None:
+            b_mu, b_sd = self.b_mu, self.b_sd
+            lo_c = ndtr((0 - b_mu) / b_sd)
+            hi_c = ndtr((bmax - b_mu) / b_sd)
+            mix = rng_.random(m) < 0.2
+            b = np.where(mix, bmax * rng_.random(m),
+                         b_mu + b_sd * ndtri(np.clip(lo_c + (hi_c - lo_c) * rng_.random(m), 1e-300, 1 - 1e-16)))
+            np.clip(b, 0, np.nextafter(bmax, 0), out=b)
+            # log prior/proposal = -ln bmax - ln(0.2 / bmax + 0.8 q), q the truncated normal (in place)
+            q = b - b_mu
+            q /= b_sd
+            q_den = np.maximum(hi_c - lo_c, 1e-300)
+            q_den *= np.sqrt(2 * np.pi) * b_sd
+            np.multiply(q, -0.5 * q, out=q)
+            np.exp(q, out=q)
+            q /= q_den
+            q *= 0.8
+            mixed = 0.2 / bmax
+            mixed += q
+            log_pq = np.log(bmax)
+            np.negative(log_pq, out=log_pq)
+            log_pq -= np.log(mixed, out=mixed)
+            return b, log_pq
+        if self.dur:
+            return bmax * rng_.random(m), np.zeros(m)
+        return np.full(m, np.nan), np.zeros(m)
+
+    def __call__(self, u, rng_):
+        obs, m = self.obs, u.shape[0]
+        period = obs.period.draw(rng_, m)
+        t0 = obs.t0.draw(rng_, m)
+        k_obs = np.abs(obs.k.draw(rng_, m))
+        e, w, log_prior = self.orbit(u, m, rng_)
+        dilution = self.dilution(u, m)
+        k_true = k_obs * np.sqrt(dilution)
+        b, log_pq_b = self.impact(1 + k_true, m, rng_)
+        sin_w = np.sin(w)
+        ln_g3 = 3 * np.log((1.0 + e * sin_w) / np.sqrt(1.0 - e * e))   # 3 ln g_factor(e, w)
+        m_t, s_t = transit_ln_rho(obs, period, k_true, np.nan_to_num(b), ln_g3, dilution)
+        ln_rho, log_q_rho, log_p_rho = overlap_draw(rng_, m_t, s_t, self.star_sn, self.broad)
+        if self.broad:
+            log_p_rho = normal_logpdf(ln_rho, self.star_sn[0], STAR_FREE_SIGMA_LN)
+        rho = np.exp(ln_rho)
+        mstar, rstar, teff = self.host.at_density(rho, rng_)
+        a_rs = ars_from_rho(rho, period)
+        ll = log_like_transit(obs, rho, period, k_true, b, e, w, dilution, sin_w=sin_w, a_rs=a_rs)
+        log_w = ll + log_prior
+        log_w += log_p_rho
+        log_w -= log_q_rho
+        log_w += log_pq_b
+        aux = dict(e=e, omega=np.mod(w, 2 * np.pi), b=b, k=k_true, period=period, t0=t0,
+                   rho_star=rho, mstar=mstar, rstar=rstar, a_rs=a_rs, teff=teff, dilution=dilution,
+                   loglike=np.where(np.isfinite(ll), ll, -np.inf),
+                   log_star=split_normal_logpdf(ln_rho, *self.star_sn) - self.peak)
+        if self.extra_loglike is not None:
+            log_w += self._further_data(aux, w, m)
+        log_w[~np.isfinite(log_w)] = -np.inf
+        return log_w, aux
+
+    def _further_data(self, aux, w, m):
+        """Log-likelihood of further data (RVs, occultation timings); sets aux['inc'] (and the cut
+        sampler's aux['_extra'])."""
+        bb = aux["b"] if self.dur else np.full(m, 0.5)
+        with np.errstate(invalid="ignore"):
+            inc = inclination_from_b(bb, aux["a_rs"], aux["e"], w)
+        aux["inc"] = np.where(np.isfinite(inc), inc, np.pi / 2)
+        extra = self.extra_loglike(aux)
+        if self.measured and self.hyp == "eccentric":
+            aux["_extra"] = np.where(np.isfinite(extra), extra, -np.inf)
+        return extra
 
 
-def _overlap_draw(rng_, m_t, s_t, star_sn, broad):
-    """Draw ln rho from the overlap proposal; return (ln_rho, log q, log prior).
+def _complete_geometry(aux: dict, obs: TransitObservables, rng: np.random.Generator) -> None:
+    """Fill b (density route) and the inclination of the returned samples in place.
 
-    The prior is the star's split normal (or, ``broad``, a normal about its mode with
-    STAR_FREE_SIGMA_LN). The proposal mixes 70 % of the Gaussian product of prior and transit (widened
-    1.3x), 15 % transit alone and 15 % prior alone (defensive mixture, Hesterberg 1995).
+    b is not constrained by a density-only route: it is drawn from its measurement when given, else
+    from the geometric prior U(0, 1), for the downstream stages (occultation impact parameter).
     """
-    mu, lo, hi = star_sn
-    m = m_t.shape[0]
-    if broad:
-        lo = hi = STAR_FREE_SIGMA_LN
-    s_s = np.where(m_t < mu, lo, hi)
-    prec = 1.0 / s_t**2 + 1.0 / s_s**2
-    m_p = (m_t / s_t**2 + mu / s_s**2) / prec
-    s_p = 1.3 / np.sqrt(prec)
-    s_t2 = 1.2 * s_t
-    pick = rng_.random(m)
-    z = rng_.standard_normal(m)
-    from_prior = split_normal_ppf(rng_.random(m), mu, lo, hi)
-    ln_rho = np.where(pick < 0.7, m_p + s_p * z, np.where(pick < 0.85, m_t + s_t2 * z, from_prior))
-    log_prior = split_normal_logpdf(ln_rho, mu, lo, hi)
-    comps = np.stack([np.log(0.7) + _normal_logpdf(ln_rho, m_p, s_p),
-                      np.log(0.15) + _normal_logpdf(ln_rho, m_t, s_t2),
-                      np.log(0.15) + log_prior])
-    mx = comps.max(axis=0)
-    log_q = mx + np.log(np.exp(comps - mx).sum(axis=0))
-    return ln_rho, log_q, log_prior
-
-
-def _cut_batch(model, ng, group, rng):
-    """One batch of ``ng`` groups for :func:`_cut_sample`: (u, log_w, cut log weights, aux)."""
-    ug = np.empty((ng, 2))
-    for j in range(2):
-        ug[:, j] = (rng.permutation(ng) + rng.random(ng)) / ng
-    u = np.repeat(ug, group, axis=0)
-    log_w, aux = model(u, rng)
-    finite = np.isfinite(log_w)
-    extra = aux.pop("_extra", None)
-    lw_t = log_w if extra is None else np.where(finite, log_w - extra, -np.inf)
-    g = lw_t.reshape(ng, group)
+    if obs.route != "durations":
+        if obs.b is not None:
+            aux["b"] = np.clip(np.abs(obs.b.ppf(rng.random(len(aux["e"])))), 0, None)
+        else:
+            aux["b"] = rng.random(len(aux["e"]))
     with np.errstate(invalid="ignore"):
-        mx = np.max(g, axis=1, keepdims=True)
-        norm = mx + np.log(np.sum(np.exp(g - np.where(np.isfinite(mx), mx, 0.0)), axis=1, keepdims=True))
-    ok = np.isfinite(norm)
-    cut = np.where(ok, g - np.where(ok, norm, 0.0), -np.inf).ravel()
-    if extra is not None:
-        cut = cut + extra
-    cut = np.where(np.isfinite(cut), cut, -np.inf)
-    return u, log_w, cut, aux
-
-
-#: Most groups the measured-orbit sampler draws, in units of the first batch.
-CUT_BUDGET = 12
-
-
-def _cut_sample(model, n, rng, group=CUT_GROUP, ess_floor=0.0):
-    """Measured-orbit sampler: groups of ``group`` draws share one (e, w) from the measurement (Latin
-    hypercube over its two quantile axes); each group's weights are normalised to the same total, so
-    the (e, w) marginal is the measurement's whatever the transit says (a cut, Plummer 2015). Further
-    data (``aux['_extra']``, RVs or occultation timings) re-weight the groups. The evidence is the mean
-    of the un-normalised weights (exact importance sampling: (e, w) are drawn from their prior).
-
-    The Kish ESS of the final pooled set is checked: while it is below ``ess_floor``, another batch of
-    groups (sized from the shortfall) is drawn and pooled, up to ``CUT_BUDGET`` x the first batch.
-    Without further data each group contributes between 1 and ``group`` effective samples, so the
-    floor is met once the finite groups number ``ess_floor``."""
-    ng = max(1, -(-n // group))
-    u, log_w, cut, aux = _cut_batch(model, ng, group, rng)
-    ess, rounds, total = _kish(cut), 1, ng
-    while ess < ess_floor and total < CUT_BUDGET * ng and np.any(np.isfinite(cut)):
-        more = int(np.clip(np.ceil(total * (ess_floor / max(ess, 1.0) - 1.0) * 1.1), max(1, ng // 8), 4 * ng))
-        more = min(more, CUT_BUDGET * ng - total)
-        u2, lw2, cut2, aux2 = _cut_batch(model, more, group, rng)
-        u = np.vstack([u, u2])
-        log_w = np.concatenate([log_w, lw2])
-        cut = np.concatenate([cut, cut2])
-        aux = {k: np.concatenate([aux[k], aux2[k]]) for k in aux}
-        ess, rounds, total = _kish(cut), rounds + 1, total + more
-    finite = np.isfinite(log_w)
-    log_z = float(logsumexp(log_w[finite]) - np.log(len(log_w))) if finite.any() else -np.inf
-    return ImportanceResult(u, cut, aux, log_z, ess, rounds, False)
+        inc = inclination_from_b(aux["b"], aux["a_rs"], aux["e"], aux["omega"])
+    aux["inc"] = np.where(np.isfinite(inc), inc, np.pi / 2)
 
 
 def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: HypothesisSetup,
@@ -399,11 +340,12 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
 
     The adaptive grid covers the hypothesis' own parameters ((e, w) for ``eccentric``, the
     contaminating fraction for ``blend``, the flux fraction for ``other_host``). The host density is
-    drawn from the overlap proposal (:func:`_overlap_draw`) about the density the transit implies at
-    each sample's orbit, dilution and b (:func:`transit_ln_rho`), b about the circular fit's b. Their
+    drawn from the overlap proposal (:func:`~rhofollow.physics.transit_likelihood.overlap_draw`)
+    about the density the transit implies at each sample's orbit, dilution and b
+    (:func:`~rhofollow.physics.transit_likelihood.transit_ln_rho`), b about the circular fit's b. Their
     prior/proposal density ratios enter the weights, so the result is exact importance sampling of the
     full likelihood; the proposals only make it efficient. With a measured orbit the eccentric
-    hypothesis uses :func:`_cut_sample`.
+    hypothesis uses :func:`~rhofollow.physics.cut_sampler.cut_sample`.
 
     ``aux`` holds e, omega, b, k (true radius ratio of the host), period, t0, rho_star, mstar, rstar,
     a_rs, inc, teff, dilution, loglike (transit), log_star (log prior density of the host density
@@ -412,123 +354,40 @@ def run_hypothesis(hyp: str, obs: TransitObservables, star: StarPool, setup: Hyp
     ``extra_loglike(aux) -> array`` adds the log-likelihood of further data (measured RVs, occultation
     timings) to the weights, so the proposal adapts to the joint posterior instead of re-weighting
     samples drawn without it.
+
+    Parameters
+    ----------
+    hyp : str
+        One of :data:`HYPOTHESES`.
+    obs : TransitObservables
+        The transit's measurements (days).
+    star : StarPool
+        Draws of the host star (g/cm^3, Msun, Rsun, K).
+    setup : HypothesisSetup
+        Prior, measured orbit and companion star.
+    n : int
+        Samples per batch.
+    rng : numpy.random.Generator
+        The target's generator.
+    ess_floor : float
+        Target Kish effective sample size.
+    extra_loglike : callable(aux) -> ndarray, optional
+        Log-likelihood of further data.
+
+    Returns
+    -------
+    ImportanceResult
+        Log weights, log-evidence (natural log), ESS and ``aux`` (days, radians, g/cm^3, Msun, Rsun, K).
     """
     if hyp not in HYPOTHESES:
         raise ValueError(f"unknown hypothesis {hyp!r}")
-    dur = obs.route == "durations"
-    measured = setup.orbit_measured and setup.prior is not None
-    if hyp == "eccentric":
-        dims = ["e", "w"]
-    elif hyp == "blend":
-        dims = ["c"]
-    elif hyp == "other_host" and setup.companion_flux is None:
-        dims = ["f"]
+    model = _HypothesisModel(hyp, obs, star, setup, extra_loglike)
+    if hyp == "eccentric" and model.measured:
+        res = cut_sample(model, n, rng, ess_floor=ess_floor)
     else:
-        dims = ["z"]  # no free parameter of its own: a dummy axis
-    d = len(dims)
-    col = {name: i for i, name in enumerate(dims)}
-    host = setup.companion if hyp == "other_host" else star
-    star_sn = host._fit()
-    broad = hyp == "star_density"
-    peak = -np.log(0.5 * np.sqrt(2 * np.pi) * (star_sn[1] + star_sn[2]))  # split-normal mode density
-    if dur and obs.b_circ is not None:
-        b_mu = obs.b_circ.value
-        b_sd = 1.5 * 0.5 * (obs.b_circ.lo + obs.b_circ.hi) + 0.03
-    else:
-        b_mu, b_sd = None, None
-
-    def orbit(u, m, rng_):
-        """(e, w, log prior factor) of this hypothesis."""
-        if hyp == "eccentric":
-            e = setup.prior.ppf(u[:, col["e"]])
-            uw = u[:, col["w"]]
-        elif measured and hyp != "circular":
-            e = setup.prior.ppf(rng_.random(m))
-            uw = rng_.random(m)
-        else:
-            return np.zeros(m), np.full(m, np.pi / 2), np.zeros(m)
-        w = setup.omega_measured.ppf(uw) if setup.omega_measured is not None else 2 * np.pi * uw
-        log_prior = np.zeros(m)
-        if setup.transit_prob and not measured:
-            log_prior = np.log((1 + e * np.sin(w)) / (1 - e * e) / setup.prior.mean_transit_boost)
-        return e, w, log_prior
-
-    def model(u, rng_):
-        m = u.shape[0]
-        period = obs.period.draw(rng_, m)
-        t0 = obs.t0.draw(rng_, m)
-        k_obs = np.abs(obs.k.draw(rng_, m))
-        e, w, log_prior = orbit(u, m, rng_)
-        dilution = np.full(m, obs.dilution_known)
-        if hyp == "blend":
-            dilution = dilution / (1 - BLEND_CONTAM_MAX * u[:, col["c"]])
-        elif hyp == "other_host":
-            if setup.companion_flux is not None:
-                f = np.full(m, setup.companion_flux)
-            else:
-                lo, hi = OTHER_HOST_FLUX_RANGE
-                f = lo + (hi - lo) * u[:, col["f"]]
-            dilution = 1.0 / f
-        k_true = k_obs * np.sqrt(dilution)
-        # impact parameter: prior U(0, 1 + k); proposal about the circular fit's b when known
-        bmax = 1 + k_true
-        if dur and b_mu is not None:
-            lo_c = ndtr((0 - b_mu) / b_sd)
-            hi_c = ndtr((bmax - b_mu) / b_sd)
-            mix = rng_.random(m) < 0.2
-            b = np.where(mix, bmax * rng_.random(m),
-                         b_mu + b_sd * ndtri(np.clip(lo_c + (hi_c - lo_c) * rng_.random(m), 1e-300, 1 - 1e-16)))
-            b = np.clip(b, 0, np.nextafter(bmax, 0))
-            z = (b - b_mu) / b_sd
-            q_norm = np.exp(-0.5 * z * z) / (np.sqrt(2 * np.pi) * b_sd * np.maximum(hi_c - lo_c, 1e-300))
-            log_pq_b = -np.log(bmax) - np.log(0.2 / bmax + 0.8 * q_norm)
-        elif dur:
-            b = bmax * rng_.random(m)
-            log_pq_b = np.zeros(m)
-        else:
-            b = np.full(m, np.nan)
-            log_pq_b = np.zeros(m)
-        ln_g3 = 3 * np.log(g_factor(e, w))
-        m_t, s_t = transit_ln_rho(obs, period, k_true, np.nan_to_num(b), ln_g3, dilution)
-        ln_rho, log_q_rho, log_p_rho = _overlap_draw(rng_, m_t, s_t, star_sn, broad)
-        if broad:
-            log_p_rho = _normal_logpdf(ln_rho, star_sn[0], STAR_FREE_SIGMA_LN)
-        rho = np.exp(ln_rho)
-        mstar, rstar, teff = host.at_density(rho, rng_)
-        ll = _log_like_transit(obs, rho, period, k_true, b, e, w, dilution)
-        log_w = ll + log_prior + log_p_rho - log_q_rho + log_pq_b
-        a_rs = ars_from_rho(rho, period)
-        aux = dict(e=e, omega=np.mod(w, 2 * np.pi), b=b, k=k_true, period=period, t0=t0,
-                   rho_star=rho, mstar=mstar, rstar=rstar, a_rs=a_rs, teff=teff, dilution=dilution,
-                   loglike=np.where(np.isfinite(ll), ll, -np.inf),
-                   log_star=split_normal_logpdf(ln_rho, *star_sn) - peak)
-        if extra_loglike is not None:
-            bb = b if dur else np.full(m, 0.5)
-            with np.errstate(invalid="ignore"):
-                inc = inclination_from_b(bb, a_rs, e, w)
-            aux["inc"] = np.where(np.isfinite(inc), inc, np.pi / 2)
-            extra = extra_loglike(aux)
-            log_w = log_w + extra
-            if measured and hyp == "eccentric":
-                aux["_extra"] = np.where(np.isfinite(extra), extra, -np.inf)
-        return np.where(np.isfinite(log_w), log_w, -np.inf), aux
-
-    if hyp == "eccentric" and measured:
-        res = _cut_sample(model, n, rng, ess_floor=ess_floor)
-    else:
-        proxy = _make_proxy(hyp, dims, obs, host, setup) if hyp == "eccentric" else None
-        res = adaptive_importance_sample(model, d, n, rng, ess_floor=ess_floor, proxy=proxy,
+        proxy = _make_proxy(hyp, model.dims, obs, model.host, setup) if hyp == "eccentric" else None
+        res = adaptive_importance_sample(model, len(model.dims), n, rng, ess_floor=ess_floor, proxy=proxy,
                                          pool=(hyp == "eccentric"),
                                          max_rounds=4 if extra_loglike is None else 10)
-    aux = res.aux
-    if not dur:
-        # b is not constrained by a density-only route: draw it from its measurement when given, else
-        # from the geometric prior U(0, 1) for the downstream stages (occultation impact parameter).
-        if obs.b is not None:
-            aux["b"] = np.clip(np.abs(obs.b.ppf(rng.random(len(aux["e"])))), 0, None)
-        else:
-            aux["b"] = rng.random(len(aux["e"]))
-    with np.errstate(invalid="ignore"):
-        inc = inclination_from_b(aux["b"], aux["a_rs"], aux["e"], aux["omega"])
-    aux["inc"] = np.where(np.isfinite(inc), inc, np.pi / 2)
+    _complete_geometry(res.aux, obs, rng)
     return res

@@ -44,17 +44,50 @@ _BASHI_M, _BASHI_R, _BASHI_LO, _BASHI_HI = 124.0, 12.1, 0.55, 0.01
 
 
 def wrf16_mean(r):
-    """Mean mass (M_earth) of Wolfgang, Rogers & Ford 2016: M = 2.7 R^1.3."""
+    """Mean mass (M_earth) of Wolfgang, Rogers & Ford 2016: M = 2.7 R^1.3.
+
+    Parameters
+    ----------
+    r : float or ndarray
+        Planet radius, R_earth.
+
+    Returns
+    -------
+    ndarray
+        Mass, M_earth.
+    """
     return _WRF_C * np.asarray(r, float) ** _WRF_G
 
 
 def otegi20_rocky_mean(r):
-    """Otegi, Bouchy & Helled 2020 rocky population: M = 0.9 R^3.45 (M_earth)."""
+    """Otegi, Bouchy & Helled 2020 rocky population: M = 0.9 R^3.45 (M_earth).
+
+    Parameters
+    ----------
+    r : float or ndarray
+        Planet radius, R_earth.
+
+    Returns
+    -------
+    ndarray
+        Mass, M_earth.
+    """
     return _OT_ROCKY[0] * np.asarray(r, float) ** _OT_ROCKY[2]
 
 
 def otegi20_volatile_mean(r):
-    """Otegi, Bouchy & Helled 2020 volatile-rich population: M = 1.74 R^1.58 (M_earth)."""
+    """Otegi, Bouchy & Helled 2020 volatile-rich population: M = 1.74 R^1.58 (M_earth).
+
+    Parameters
+    ----------
+    r : float or ndarray
+        Planet radius, R_earth.
+
+    Returns
+    -------
+    ndarray
+        Mass, M_earth.
+    """
     return _OT_VOL[0] * np.asarray(r, float) ** _OT_VOL[2]
 
 
@@ -63,6 +96,16 @@ def bashi17_radius(m):
 
     Slopes 0.55 and 0.01 and the break (124 M_earth, 12.1 R_earth) are published; joining them
     continuously at the break is our construction (no published prefactor is used).
+
+    Parameters
+    ----------
+    m : float or ndarray
+        Planet mass, M_earth.
+
+    Returns
+    -------
+    ndarray
+        Radius, R_earth.
     """
     m = np.asarray(m, float)
     slope = np.where(m < _BASHI_M, _BASHI_LO, _BASHI_HI)
@@ -70,7 +113,18 @@ def bashi17_radius(m):
 
 
 def relation_for_radius(r):
-    """Names of the relation ``auto`` uses per radius (array of str)."""
+    """Names of the relation ``auto`` uses per radius (array of str).
+
+    Parameters
+    ----------
+    r : float or ndarray
+        Planet radius, R_earth.
+
+    Returns
+    -------
+    ndarray of str
+        Relation names.
+    """
     r = np.asarray(r, float)
     return np.select([r < 1.5, r < 4.0, r < GIANT_RADIUS_REARTH],
                      ["otegi20-rocky", "wrf16", "otegi20-volatile"], "giant")

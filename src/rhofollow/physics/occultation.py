@@ -46,6 +46,20 @@ def separation_at_transit(a_rs, e, omega):
     """Star-planet distance at mid-transit (f = pi/2 - omega), in units of a_rs's length.
 
     r_tra = a (1 - e^2) / (1 + e sin omega) (Winn 2010, arXiv:1001.2010, eq. 1 at conjunction).
+
+    Parameters
+    ----------
+    a_rs : float or ndarray
+        Semi-major axis (any length unit; a/R* gives stellar radii).
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+
+    Returns
+    -------
+    ndarray
+        Distance, unit of ``a_rs``.
     """
     a_rs, e, omega = _as(a_rs, e, omega)
     return a_rs * (1.0 - e * e) / (1.0 + e * np.sin(omega))
@@ -56,6 +70,20 @@ def separation_at_occultation(a_rs, e, omega):
 
     r_occ = a (1 - e^2) / (1 - e sin omega). Used for the day-side irradiation and the reflected
     light at the occultation.
+
+    Parameters
+    ----------
+    a_rs : float or ndarray
+        Semi-major axis (any length unit; a/R* gives stellar radii).
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+
+    Returns
+    -------
+    ndarray
+        Distance, unit of ``a_rs``.
     """
     a_rs, e, omega = _as(a_rs, e, omega)
     return a_rs * (1.0 - e * e) / (1.0 - e * np.sin(omega))
@@ -65,6 +93,22 @@ def transit_impact_parameter(a_rs, inc, e, omega):
     """Sky separation at transit conjunction in stellar radii: a cos i (1-e^2)/(1+e sin omega).
 
     Winn (2010), arXiv:1001.2010, eq. 7 (value from memory).
+
+    Parameters
+    ----------
+    a_rs : float or ndarray
+        Scaled semi-major axis a/R*.
+    inc : float or ndarray
+        Inclination, radians.
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+
+    Returns
+    -------
+    ndarray
+        Impact parameter, stellar radii.
     """
     return separation_at_transit(a_rs, e, omega) * np.cos(inc)
 
@@ -73,12 +117,47 @@ def occultation_impact_parameter(a_rs, inc, e, omega):
     """Sky separation at occultation conjunction in stellar radii: a cos i (1-e^2)/(1-e sin omega).
 
     Winn (2010), arXiv:1001.2010, eq. 8 (value from memory).
+
+    Parameters
+    ----------
+    a_rs : float or ndarray
+        Scaled semi-major axis a/R*.
+    inc : float or ndarray
+        Inclination, radians.
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+
+    Returns
+    -------
+    ndarray
+        Impact parameter, stellar radii.
     """
     return separation_at_occultation(a_rs, e, omega) * np.cos(inc)
 
 
 def occultation_occurs(a_rs, inc, e, omega, k):
-    """Boolean array: the planet passes behind the stellar disc (b_occ < 1 + k, grazing counts)."""
+    """Boolean array: the planet passes behind the stellar disc (b_occ < 1 + k, grazing counts).
+
+    Parameters
+    ----------
+    a_rs : float or ndarray
+        Scaled semi-major axis a/R*.
+    inc : float or ndarray
+        Inclination, radians.
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+    k : float or ndarray
+        Radius ratio Rp/R*.
+
+    Returns
+    -------
+    ndarray of bool
+        True where an occultation happens.
+    """
     return occultation_impact_parameter(a_rs, inc, e, omega) < 1.0 + np.asarray(k, dtype=float)
 
 
@@ -87,6 +166,26 @@ def occultation_probability(a_rs, inc, e, omega, k, weights=None) -> float:
 
     The weighted fraction of samples with b_occ < 1 + k (grazing included). ``weights`` default to
     equal weights.
+
+    Parameters
+    ----------
+    a_rs : ndarray
+        Scaled semi-major axis a/R* per sample.
+    inc : ndarray
+        Inclination, radians.
+    e : ndarray
+        Eccentricity in [0, 1).
+    omega : ndarray
+        Argument of periastron, radians (RV convention).
+    k : ndarray
+        Radius ratio Rp/R*.
+    weights : ndarray, optional
+        Sample weights (any positive scale).
+
+    Returns
+    -------
+    float
+        Probability in [0, 1].
     """
     occ = occultation_occurs(a_rs, inc, e, omega, k)
     if weights is None:
@@ -208,6 +307,30 @@ def duration_winn(period, a_rs, inc, e, omega, k, which="occultation", full=Fals
 
     T = (P/pi) asin[sqrt((1 +- k)^2 - b^2)/(a sin i)] sqrt(1-e^2)/(1 +- e sin omega), with the
     transit (+) or occultation (-) sign and impact parameter.
+
+    Parameters
+    ----------
+    period : float or ndarray
+        Orbital period, days.
+    a_rs : float or ndarray
+        Scaled semi-major axis a/R*.
+    inc : float or ndarray
+        Inclination, radians.
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+    k : float or ndarray
+        Radius ratio Rp/R*.
+    which : str
+        "transit" or "occultation".
+    full : bool
+        T23 (second to third contact) instead of T14.
+
+    Returns
+    -------
+    ndarray
+        Duration, days.
     """
     period, a_rs, inc, e, omega, k = _as(period, a_rs, inc, e, omega, k)
     s = 1.0 if which == "transit" else -1.0
@@ -223,6 +346,30 @@ def duration_kipping(period, a_rs, inc, e, omega, k, which="occultation", full=F
 
     T = (P/pi) (rho_c^2/sqrt(1-e^2)) asin[sqrt((1 +- k)^2 - b^2)/(a rho_c sin i)],
     rho_c = (1-e^2)/(1 +- e sin omega).
+
+    Parameters
+    ----------
+    period : float or ndarray
+        Orbital period, days.
+    a_rs : float or ndarray
+        Scaled semi-major axis a/R*.
+    inc : float or ndarray
+        Inclination, radians.
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+    k : float or ndarray
+        Radius ratio Rp/R*.
+    which : str
+        "transit" or "occultation".
+    full : bool
+        T23 (second to third contact) instead of T14.
+
+    Returns
+    -------
+    ndarray
+        Duration, days.
     """
     period, a_rs, inc, e, omega, k = _as(period, a_rs, inc, e, omega, k)
     s = 1.0 if which == "transit" else -1.0

@@ -49,6 +49,16 @@ def information_minutes(t14_h, t23_h):
     """Information time of a trapezoidal eclipse, ``T23 + (T14 - T23) / 3`` (minutes).
 
     A grazing event (``t23_h`` not finite or negative) is a triangle: ``T14 / 3``.
+
+    Parameters
+    ----------
+    t14_h, t23_h : float or ndarray
+        Total and full durations, hours.
+
+    Returns
+    -------
+    ndarray
+        Information time, minutes.
     """
     t14 = np.asarray(t14_h, dtype=float)
     t23 = np.asarray(t23_h, dtype=float)

@@ -36,18 +36,73 @@ TWO_PI = 2.0 * np.pi
 
 def occultation_offset(e, omega, period):
     """Exact transit-to-occultation time offset (days, in [0, P)) per sample (conjunctions,
-    no light travel): :func:`rhofollow.physics.kepler.transit_to_occultation_time`."""
+    no light travel): :func:`rhofollow.physics.kepler.transit_to_occultation_time`.
+
+    Parameters
+    ----------
+    e : ndarray
+        Eccentricity in [0, 1).
+    omega : ndarray
+        Argument of periastron, radians (RV convention).
+    period : ndarray
+        Orbital period, days.
+
+    Returns
+    -------
+    ndarray
+        Offset, days.
+    """
     return transit_to_occultation_time(period, e, omega)
 
 
 def light_time_delay(e, omega, a_rs, rstar_rsun, inc):
     """Extra observed delay of the occultation after the transit from light travel (days),
-    (r_tra + r_occ) sin i / c: :func:`rhofollow.physics.occultation.light_travel_delay`."""
+    (r_tra + r_occ) sin i / c: :func:`rhofollow.physics.occultation.light_travel_delay`.
+
+    Parameters
+    ----------
+    e : ndarray
+        Eccentricity in [0, 1).
+    omega : ndarray
+        Argument of periastron, radians (RV convention).
+    a_rs : ndarray
+        Scaled semi-major axis a/R*.
+    rstar_rsun : ndarray
+        Stellar radius, Rsun.
+    inc : ndarray
+        Inclination, radians.
+
+    Returns
+    -------
+    ndarray
+        Delay, days.
+    """
     return light_travel_delay(a_rs, rstar_rsun, inc, e, omega)
 
 
 def occultation_duration(period, a_rs, inc, e, omega, k):
-    """Exact first-to-fourth-contact occultation duration (days); 0 where none happens."""
+    """Exact first-to-fourth-contact occultation duration (days); 0 where none happens.
+
+    Parameters
+    ----------
+    period : ndarray
+        Orbital period, days.
+    a_rs : ndarray
+        Scaled semi-major axis a/R*.
+    inc : ndarray
+        Inclination, radians.
+    e : ndarray
+        Eccentricity in [0, 1).
+    omega : ndarray
+        Argument of periastron, radians (RV convention).
+    k : ndarray
+        Radius ratio Rp/R*.
+
+    Returns
+    -------
+    ndarray
+        T14 of the occultation, days.
+    """
     t14, _ = eclipse_durations(period, a_rs, inc, e, omega, k, which="occultation")
     return np.where(np.isfinite(t14), t14, 0.0)
 
@@ -56,6 +111,30 @@ def predicted_occultation_times(t0, period, e, omega, t_ref, *, a_rs=None, rstar
     """Per sample, the predicted occultation mid-time (BJD_TDB) closest to ``t_ref``.
 
     With ``a_rs``, ``rstar`` and ``inc`` the light-travel delay is included.
+
+    Parameters
+    ----------
+    t0 : ndarray
+        Mid-transit epoch, BJD_TDB (days).
+    period : ndarray
+        Orbital period, days.
+    e : ndarray
+        Eccentricity in [0, 1).
+    omega : ndarray
+        Argument of periastron, radians (RV convention).
+    t_ref : float
+        Reference time, BJD_TDB (days).
+    a_rs : ndarray, optional
+        Scaled semi-major axis a/R*.
+    rstar : ndarray, optional
+        Stellar radius, Rsun.
+    inc : ndarray, optional
+        Inclination, radians.
+
+    Returns
+    -------
+    ndarray
+        Occultation mid-times, BJD_TDB (days).
     """
     dt = occultation_offset(e, omega, period)
     if a_rs is not None and rstar is not None and inc is not None:
@@ -73,9 +152,33 @@ def timing_log_like(t0, period, e, omega, t_meas, sigma_d, *, a_rs=None, rstar=N
     the prediction taken at the epoch closest to the measurement. Samples for which no
     occultation happens (needs ``a_rs``, ``inc`` and ``k``) get -inf.
 
+    Parameters
+    ----------
+    t0 : ndarray
+        Mid-transit epoch, BJD_TDB (days).
+    period : ndarray
+        Orbital period, days.
+    e : ndarray
+        Eccentricity in [0, 1).
+    omega : ndarray
+        Argument of periastron, radians (RV convention).
+    t_meas : float
+        Measured occultation mid-time, BJD_TDB (days).
+    sigma_d : float
+        Its 1-sigma error, days.
+    a_rs : ndarray, optional
+        Scaled semi-major axis a/R*.
+    rstar : ndarray, optional
+        Stellar radius, Rsun.
+    inc : ndarray, optional
+        Inclination, radians.
+    k : ndarray, optional
+        Radius ratio Rp/R*.
+
     Returns
     -------
-    ndarray (N,), up to a constant.
+    ndarray (N,)
+        Log-likelihood (natural log), up to a constant.
     """
     if not sigma_d > 0:
         raise ValueError(f"the timing error must be > 0 days, got {sigma_d!r}")
@@ -91,6 +194,22 @@ def event_coverage(t_mid_first, period, duration, window_start, window_end):
     """Largest fraction of any occultation event (mid-times ``t_mid_first + n P``, length
     ``duration``) that lies inside [window_start, window_end]. Zero-length events count as
     fully covered when their mid-time is inside.
+
+    Parameters
+    ----------
+    t_mid_first : ndarray
+        Mid-time of a first event, days.
+    period : ndarray
+        Orbital period, days.
+    duration : ndarray
+        Event duration, days.
+    window_start, window_end : float
+        The observed window, days (same time scale as ``t_mid_first``).
+
+    Returns
+    -------
+    ndarray
+        Covered fraction in [0, 1].
     """
     half = 0.5 * np.asarray(duration, dtype=float)
     n0 = np.ceil((window_start - half - t_mid_first) / period)
@@ -155,6 +274,32 @@ def predicted_depth_ppm(k, a_rs, e, omega, teff, band_um, *, bond_albedo=0.1,
     ``band_um`` (narrower near the 0.3-30 micron limits): day-side thermal emission at the
     occultation distance plus reflected light (:func:`rhofollow.physics.thermal.occultation_depth`,
     Cowan & Agol 2011 parameters). NaN where ``teff`` is NaN.
+
+    Parameters
+    ----------
+    k : ndarray
+        Radius ratio Rp/R*.
+    a_rs : ndarray
+        Scaled semi-major axis a/R*.
+    e : ndarray
+        Eccentricity in [0, 1).
+    omega : ndarray
+        Argument of periastron, radians (RV convention).
+    teff : ndarray
+        Stellar effective temperature, K.
+    band_um : float
+        Band centre, microns.
+    bond_albedo : float
+        Bond albedo (dimensionless).
+    redistribution : float
+        Heat redistribution factor (dimensionless).
+    geometric_albedo : float
+        Geometric albedo (dimensionless).
+
+    Returns
+    -------
+    ndarray
+        Depth, ppm.
     """
     width = 0.999 * min(0.2 * band_um, 2.0 * (band_um - BAND_MIN_UM), 2.0 * (BAND_MAX_UM - band_um))
     if not width > 0:

@@ -65,6 +65,16 @@ class EccPrior:
 
         Uses a table of e on a uniform grid of u (built once), so each call is arithmetic indexing and
         a linear interpolation, with no search.
+
+        Parameters
+        ----------
+        u : float or ndarray
+            Prior quantile in [0, 1] (clipped).
+
+        Returns
+        -------
+        ndarray
+            Eccentricity (dimensionless).
         """
         table = self._ppf_table()
         n = len(table) - 1
@@ -81,22 +91,71 @@ class EccPrior:
         return t
 
     def mean(self) -> float:
+        """Prior mean of the eccentricity (from the tabulated CDF, midpoint rule).
+
+        Returns
+        -------
+        float
+            Mean e (dimensionless).
+        """
         pdf_mass = np.diff(self.cdf)
         mid = 0.5 * (self.e_grid[1:] + self.e_grid[:-1])
         return float(np.sum(pdf_mass * mid))
 
     def pdf(self, e):
-        """Prior density at e (per unit e): the tabulated CDF's cell slope (0 outside [0, e_max))."""
+        """Prior density at e (per unit e): the tabulated CDF's cell slope (0 outside [0, e_max)).
+
+        Parameters
+        ----------
+        e : float or ndarray
+            Eccentricity (dimensionless).
+
+        Returns
+        -------
+        ndarray
+            Prior density, per unit e.
+        """
         e = np.asarray(e, dtype=float)
         dens = np.diff(self.cdf) / np.diff(self.e_grid)
-        i = np.clip(np.searchsorted(self.e_grid, e, side="right") - 1, 0, len(dens) - 1)
-        return np.where((e >= 0) & (e < self.e_grid[-1]), dens[i], 0.0)
+        return np.where((e >= 0) & (e < self.e_grid[-1]), dens[self._cell(e)], 0.0)
+
+    def _cell(self, e):
+        """Index of the grid cell holding each e: searchsorted(e_grid, e, "right") - 1, clipped to the
+        cells. On a uniform grid the index comes from arithmetic, corrected by one comparison with
+        each neighbouring edge (the same index as the search, without it)."""
+        grid = self.e_grid
+        last = len(grid) - 2
+        step = (grid[-1] - grid[0]) / (last + 1)
+        uniform = self.__dict__.get("_uniform")
+        if uniform is None:
+            uniform = bool(step > 0 and np.allclose(np.diff(grid), step, rtol=1e-9, atol=0))
+            object.__setattr__(self, "_uniform", uniform)
+        if e.ndim == 0 or not uniform:
+            return np.clip(np.searchsorted(grid, e, side="right") - 1, 0, last)
+        with np.errstate(invalid="ignore"):
+            i = np.clip(np.nan_to_num((e - grid[0]) / step, nan=last), 0, last).astype(np.intp)
+        i -= grid[i] > e                      # the estimate was one cell too high
+        np.clip(i, 0, last, out=i)
+        i += (i < last) & (grid[np.minimum(i + 1, last + 1)] <= e)   # one cell too low
+        return i
 
     def prob_above(self, e_cut: float, transit_prob: bool = False) -> float:
         """P(e > e_cut) under the prior, optionally times the transit-probability factor.
 
         The factor (1 + e sin w)/(1 - e^2) averages to 1/(1 - e^2) over a uniform w, so the transit-
         weighted prior on e is p(e)/(1 - e^2) normalised by ``mean_transit_boost`` (Kipping 2014b).
+
+        Parameters
+        ----------
+        e_cut : float
+            Eccentricity threshold (dimensionless).
+        transit_prob : bool
+            Weight the prior by the transit-probability factor.
+
+        Returns
+        -------
+        float
+            Probability (dimensionless, in [0, 1]).
         """
         mass = np.diff(self.cdf)
         mid = 0.5 * (self.e_grid[1:] + self.e_grid[:-1])
@@ -122,7 +181,19 @@ def _tabulate(name: str, pdf, e_max: float, description: str) -> EccPrior:
 
 
 def parse_prior(spec: str | None) -> EccPrior:
-    """Build a prior from a name (see module docstring) or ``KIND:PARAMS``; raise ValueError if unknown."""
+    """Build a prior from a name (see module docstring) or ``KIND:PARAMS``; raise ValueError if unknown.
+
+    Parameters
+    ----------
+    spec : str or None
+        A name of ``PRIOR_NAMES`` or ``beta:A,B``, ``halfnormal:S``, ``rayleigh:S``, ``uniform:EMAX``
+        (None: the default prior).
+
+    Returns
+    -------
+    EccPrior
+        The tabulated prior on e (dimensionless).
+    """
     spec = (spec or DEFAULT_PRIOR).strip()
     if spec in PRIOR_NAMES:
         kind, params, desc = PRIOR_NAMES[spec]
@@ -177,6 +248,18 @@ class MeasuredEcc(EccPrior):
         return c0, c1
 
     def ppf(self, u):
+        """Eccentricity at quantile u of the truncated split normal (exact inverse CDF).
+
+        Parameters
+        ----------
+        u : float or ndarray
+            Quantile in [0, 1] (clipped).
+
+        Returns
+        -------
+        ndarray
+            Eccentricity (dimensionless), in [0, e_max).
+        """
         from rhofollow.physics.sampling import split_normal_ppf
         c0, c1 = self._bounds()
         uu = c0 + (c1 - c0) * np.clip(np.asarray(u, dtype=float), 0.0, 1.0)
@@ -184,6 +267,18 @@ class MeasuredEcc(EccPrior):
         return np.clip(e, 0.0, np.nextafter(self.e_grid[-1], 0))
 
     def pdf(self, e):
+        """Density of the truncated split normal at e.
+
+        Parameters
+        ----------
+        e : float or ndarray
+            Eccentricity (dimensionless).
+
+        Returns
+        -------
+        ndarray
+            Density per unit e (0 outside [0, e_max)).
+        """
         from rhofollow.physics.sampling import split_normal_logpdf
         c0, c1 = self._bounds()
         e = np.asarray(e, dtype=float)
@@ -202,6 +297,18 @@ def measured_ecc_problem(value: float, err_lo: float, err_hi: float) -> str:
     range every sampler covers. The catalogue reader and :func:`measured_prior` share this test, so a
     row that ``check`` accepts is one ``assess`` can use (both give an error left out
     :data:`MEASURED_ECC_DEFAULT_ERR`).
+
+    Parameters
+    ----------
+    value : float
+        Measured eccentricity (dimensionless).
+    err_lo, err_hi : float
+        Its lower and upper 1-sigma errors (dimensionless).
+
+    Returns
+    -------
+    str
+        The reason, or "" when the measurement can be used.
     """
     from rhofollow.physics.sampling import split_normal_cdf
     slo = max(err_lo, 1e-4)
@@ -219,6 +326,18 @@ def measured_prior(value: float, err_lo: float, err_hi: float) -> EccPrior:
 
     Used when the catalogue gives ``ecc`` (a known orbit): the measurement replaces the population prior.
     The table (``e_grid``, ``cdf``) is kept for the moments; draws use the closed form.
+
+    Parameters
+    ----------
+    value : float
+        Measured eccentricity (dimensionless).
+    err_lo, err_hi : float
+        Its lower and upper 1-sigma errors (dimensionless, > 0).
+
+    Returns
+    -------
+    EccPrior
+        A :class:`MeasuredEcc`.
     """
     problem = measured_ecc_problem(value, err_lo, err_hi)
     if problem:
@@ -245,6 +364,20 @@ def reweight_to_prior(e, weights, prior: EccPrior, other: EccPrior):
     Importance re-weighting by the prior ratio: w' = w p_other(e) / p_prior(e) (the likelihood and
     every other prior factor cancel). Returns None when no sample keeps weight (``other`` puts no
     mass where the samples are). e dimensionless, weights any positive scale.
+
+    Parameters
+    ----------
+    e : ndarray
+        Eccentricities of the samples (dimensionless).
+    weights : ndarray
+        Their weights under ``prior`` (any positive scale).
+    prior, other : EccPrior
+        The prior the samples were drawn under and the one to re-weight to.
+
+    Returns
+    -------
+    ndarray or None
+        Weights under ``other``, summing to 1 (dimensionless).
     """
     e = np.asarray(e, dtype=float)
     p_def = prior.pdf(e)

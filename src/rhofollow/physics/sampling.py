@@ -17,30 +17,90 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import ndtr, ndtri, logsumexp
+from scipy.special import logsumexp as _scipy_logsumexp
+from scipy.special import ndtr, ndtri
+
+from rhofollow.physics.grid_proposal import _GridProposal, grid_bins  # noqa: F401 (grid_bins re-exported)
 
 __all__ = ["split_normal_ppf", "split_normal_cdf", "draw_split_normal", "split_normal_logpdf", "ImportanceResult",
            "adaptive_importance_sample"]
 
 
 def split_normal_ppf(u, mu, s_lo, s_hi):
-    """Inverse CDF of the split normal with mode ``mu`` and side widths ``s_lo``, ``s_hi``."""
+    """Inverse CDF of the split normal with mode ``mu`` and side widths ``s_lo``, ``s_hi``.
+
+    Parameters
+    ----------
+    u : float or ndarray
+        Quantile in [0, 1].
+    mu : float or ndarray
+        Mode, in the unit of the measured quantity.
+    s_lo, s_hi : float or ndarray
+        Lower and upper 1-sigma widths (> 0), same unit.
+
+    Returns
+    -------
+    ndarray
+        Values at the quantiles, unit of ``mu``.
+    """
     u = np.asarray(u, dtype=float)
     p_lo = s_lo / (s_lo + s_hi)
     with np.errstate(divide="ignore", invalid="ignore"):
-        lo = mu + s_lo * ndtri(np.clip(u / p_lo * 0.5, 1e-300, 0.5))
-        hi = mu + s_hi * ndtri(np.clip(0.5 + (u - p_lo) / (1 - p_lo) * 0.5, 0.5, 1 - 1e-16))
-    return np.where(u < p_lo, lo, hi)
+        if u.ndim == 0 or np.ndim(mu) or np.ndim(s_lo) or np.ndim(s_hi):
+            lo = mu + s_lo * ndtri(np.clip(u / p_lo * 0.5, 1e-300, 0.5))
+            hi = mu + s_hi * ndtri(np.clip(0.5 + (u - p_lo) / (1 - p_lo) * 0.5, 0.5, 1 - 1e-16))
+            return np.where(u < p_lo, lo, hi)
+        # scalar parameters: each element needs only its own side (the same values, half the work)
+        low = u < p_lo
+        out = np.empty(u.shape)
+        ul, uh = u[low], u[~low]
+        out[low] = mu + s_lo * ndtri(np.clip(ul / p_lo * 0.5, 1e-300, 0.5))
+        out[~low] = mu + s_hi * ndtri(np.clip(0.5 + (uh - p_lo) / (1 - p_lo) * 0.5, 0.5, 1 - 1e-16))
+    return out
 
 
 def split_normal_cdf(x, mu, s_lo, s_hi):
-    """CDF of the split normal (see :func:`split_normal_ppf`)."""
+    """CDF of the split normal (see :func:`split_normal_ppf`).
+
+    Parameters
+    ----------
+    x : float or ndarray
+        Values, unit of ``mu``.
+    mu : float
+        Mode.
+    s_lo, s_hi : float
+        Lower and upper 1-sigma widths (> 0), unit of ``mu``.
+
+    Returns
+    -------
+    ndarray
+        Cumulative probability in [0, 1].
+    """
     p_lo = s_lo / (s_lo + s_hi)
     return np.where(x < mu, 2 * p_lo * ndtr((x - mu) / s_lo), p_lo + 2 * (1 - p_lo) * (ndtr((x - mu) / s_hi) - 0.5))
 
 
 def draw_split_normal(rng, n, mu, s_lo, s_hi, lower=-np.inf, upper=np.inf):
-    """n draws of a split normal truncated to (lower, upper); zero widths give the constant ``mu``."""
+    """n draws of a split normal truncated to (lower, upper); zero widths give the constant ``mu``.
+
+    Parameters
+    ----------
+    rng : numpy.random.Generator
+        Source of the draws.
+    n : int
+        Number of draws.
+    mu : float
+        Mode, in the unit of the measured quantity.
+    s_lo, s_hi : float
+        Lower and upper 1-sigma widths, same unit (a zero width takes the other side's).
+    lower, upper : float
+        Open physical bounds, same unit (default unbounded).
+
+    Returns
+    -------
+    ndarray
+        n draws, unit of ``mu``, strictly inside (lower, upper).
+    """
     if s_lo <= 0 and s_hi <= 0:
         return np.full(n, float(mu))
     s_lo = s_lo if s_lo > 0 else s_hi
@@ -60,11 +120,67 @@ def draw_split_normal(rng, n, mu, s_lo, s_hi, lower=-np.inf, upper=np.inf):
 
 
 def split_normal_logpdf(x, mu, s_lo, s_hi):
-    """Log density of a split normal (normalised) at x; x and mu broadcast."""
+    """Log density of a split normal (normalised) at x; x and mu broadcast.
+
+    Parameters
+    ----------
+    x : float or ndarray
+        Values, unit of ``mu``.
+    mu : float or ndarray
+        Mode.
+    s_lo, s_hi : float
+        Lower and upper 1-sigma widths (> 0), unit of ``mu``.
+
+    Returns
+    -------
+    ndarray
+        Natural log of the density, per unit of ``x``.
+    """
     x = np.asarray(x, dtype=float)
     s = np.where(x < mu, s_lo, s_hi)
     z = (x - mu) / s
-    return -0.5 * z * z - np.log(0.5 * np.sqrt(2 * np.pi) * (s_lo + s_hi))
+    out = -0.5 * z
+    out *= z
+    out -= np.log(0.5 * np.sqrt(2 * np.pi) * (s_lo + s_hi))
+    return out
+
+
+def logsumexp(a, axis=None):
+    """log(sum(exp(a))) over ``axis`` (all elements by default) of a real float array, stably.
+
+    The same operations, in the same order, as :func:`scipy.special.logsumexp` (the largest term is
+    taken out of the sum and enters through log1p, Blanchard, Higham & Higham 2021, IMA J. Numer.
+    Anal. 41, 2311), so the result is the same to the last bit, without that function's extra pass
+    for infinite results; a result that is not finite is handed to scipy for its edge cases.
+
+    Parameters
+    ----------
+    a : ndarray
+        Real float values (any unit of log weight); not empty.
+    axis : int, optional
+        Axis of the sum (None: every element).
+
+    Returns
+    -------
+    float or ndarray
+        The log of the sum, in the unit of ``a`` (a float for ``axis=None``).
+    """
+    a = np.asarray(a, dtype=float)
+    if a.size == 0 or a.ndim == 0:
+        return _scipy_logsumexp(a, axis=axis)
+    ax = tuple(range(a.ndim)) if axis is None else axis
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        a_max = np.max(a, axis=ax, keepdims=True)
+        top = a == a_max
+        rest = np.where(top, -np.inf, a)
+        m = np.sum(top.astype(float), axis=ax, keepdims=True, dtype=float)
+        s = np.sum(np.exp(rest - a_max), axis=ax, keepdims=True, dtype=float)
+        s = np.where(s == 0, s, s / m)
+        out = np.log1p(s) + np.log(m) + a_max
+    if not np.all(np.isfinite(out)):
+        return _scipy_logsumexp(a, axis=axis)
+    out = np.squeeze(out, axis=ax)
+    return out[()] if out.ndim == 0 else out
 
 
 @dataclass
@@ -96,85 +212,6 @@ def _kish(log_w):
 
 #: Most draws (in units of the batch size n) the final pooling stage may add up to.
 POOL_BUDGET = 12
-
-_BINS = {1: (128,), 2: (40, 40), 3: (20, 20, 10), 4: (12, 12, 8, 8)}
-
-
-class _GridProposal:
-    """Piecewise-constant density on a rectilinear grid over the unit cube, mixed with the uniform one.
-
-    Cell edges per dimension follow the weighted marginal quantiles of the points it is fitted to
-    (blended with uniform edges), so cells are small where the posterior mass is (as in VEGAS,
-    Lepage 1978); cell masses come from the weighted joint histogram, smoothed to the neighbours.
-    """
-
-    def __init__(self, u, w, d, defensive=0.15):
-        bins = grid_bins(d)
-        self.bins = bins
-        self.d = d
-        w = np.asarray(w, dtype=float)
-        w = w / w.sum()
-        self.edges = []
-        idx = []
-        fine = 1024
-        probs_fine = np.linspace(0, 1, fine + 1)
-        for j in range(d):
-            nb = bins[j]
-            # weighted marginal CDF on a fine uniform grid (O(n), no sort)
-            hist = np.bincount(np.minimum((u[:, j] * fine).astype(int), fine - 1), weights=w, minlength=fine)
-            cdf = np.concatenate([[0.0], np.cumsum(hist)])
-            cdf /= cdf[-1]
-            probs = np.linspace(0, 1, nb + 1)
-            q = np.interp(probs, cdf, probs_fine)
-            edges = 0.7 * q + 0.3 * probs
-            edges[0], edges[-1] = 0.0, 1.0
-            edges = np.maximum.accumulate(edges)
-            self.edges.append(edges)
-            idx.append(np.clip(np.searchsorted(edges, u[:, j], side="right") - 1, 0, nb - 1))
-        flat = np.ravel_multi_index(tuple(idx), bins)
-        ncell = int(np.prod(bins))
-        m = np.bincount(flat, weights=w, minlength=ncell).reshape(bins)
-        sm = m.copy()
-        for ax in range(d):
-            sm = sm + 0.25 * (np.roll(m, 1, axis=ax) + np.roll(m, -1, axis=ax))
-        sm = sm.ravel()
-        sm = sm / sm.sum()
-        widths = [np.diff(e) for e in self.edges]
-        vol = widths[0]
-        for wd in widths[1:]:
-            vol = np.multiply.outer(vol, wd)
-        self.vol = np.asarray(vol).ravel()
-        self.mass = sm
-        self.cdf = np.cumsum(sm)
-        self.cdf[-1] = 1.0
-        self.defensive = defensive
-
-    def log_density(self, u):
-        idx = [np.clip(np.searchsorted(self.edges[j], u[:, j], side="right") - 1, 0, self.bins[j] - 1)
-               for j in range(self.d)]
-        flat = np.ravel_multi_index(tuple(idx), self.bins)
-        return np.log((1 - self.defensive) * self.mass[flat] / self.vol[flat] + self.defensive)
-
-    def sample(self, rng, n):
-        cells = np.searchsorted(self.cdf, rng.random(n))
-        cells = np.minimum(cells, len(self.cdf) - 1)
-        idx = np.unravel_index(cells, self.bins)
-        u = np.empty((n, self.d))
-        r = rng.random((n, self.d))
-        for j in range(self.d):
-            lo = self.edges[j][idx[j]]
-            hi = self.edges[j][idx[j] + 1]
-            u[:, j] = lo + (hi - lo) * r[:, j]
-        uniform = rng.random(n) < self.defensive
-        if uniform.any():
-            u[uniform] = rng.random((int(uniform.sum()), self.d))
-        return u, self.log_density(u)
-
-
-def grid_bins(d: int) -> tuple:
-    """Cells per dimension of the adaptive proposal grid for d dimensions."""
-    return _BINS.get(d, (6,) * d)
-
 
 def adaptive_importance_sample(model, d, n, rng, ess_floor=2000.0, max_rounds=4, proxy=None,
                                pool=True):
@@ -208,55 +245,88 @@ def adaptive_importance_sample(model, d, n, rng, ess_floor=2000.0, max_rounds=4,
         Keep drawing past ``max_rounds`` while the ESS is short (off for hypotheses whose evidence
         alone is wanted).
     """
-    proposals, counts, us, lls, auxes = [], [], [], [], []
-
-    def draw(proposal, m):
-        if proposal is None:
-            u = rng.random((m, d))
-        else:
-            u, _ = proposal.sample(rng, m)
-        ll, aux = model(u, rng)
-        proposals.append(proposal)
-        counts.append(m)
-        us.append(u)
-        lls.append(ll)
-        auxes.append(aux)
-
-    def pooled():
-        u = us[0] if len(us) == 1 else np.vstack(us)
-        ll = lls[0] if len(lls) == 1 else np.concatenate(lls)
-        total = float(sum(counts))
-        comps = [np.log(c / total) + (np.zeros(len(u)) if q is None else q.log_density(u))
-                 for q, c in zip(proposals, counts)]
-        log_q = comps[0] if len(comps) == 1 else logsumexp(np.stack(comps), axis=0)
-        log_w = np.where(np.isfinite(ll), ll - log_q, -np.inf)
-        return u, log_w
-
+    batches = _Batches(model, d, rng)
     first = None
     if proxy is not None:
         u0 = rng.random((n, d))
         lp = proxy(u0)
         first = _GridProposal(u0, np.exp(lp - np.max(lp)), d)
-    draw(first, n)
-    u, log_w = pooled()
+    batches.draw(first, n)
+    u, log_w = batches.pooled()
     ess = _kish(log_w)
     adapted = proxy is not None
     while ess < ess_floor and np.any(np.isfinite(log_w)):
-        drawn = sum(counts)
-        if len(counts) < max_rounds:
-            m = n
-        elif pool and drawn < POOL_BUDGET * n and ess > 0:
-            # pooled ESS grows about linearly with the draws: size the batch from the shortfall
-            m = int(np.clip(math.ceil(drawn * (ess_floor / ess - 1.0) * 1.1), n // 4, 4 * n))
-            m = max(1, min(m, POOL_BUDGET * n - drawn))
-        else:
+        m = _next_batch_size(batches.counts, n, ess, ess_floor, max_rounds, pool)
+        if m is None:
             break
         w = np.exp(log_w - np.max(log_w))
-        draw(_GridProposal(u, w, d), m)
+        batches.draw(_GridProposal(u, w, d), m)
         adapted = True
-        u, log_w = pooled()
+        u, log_w = batches.pooled()
         ess = _kish(log_w)
+    auxes = batches.auxes
     aux = auxes[0] if len(auxes) == 1 else {k: np.concatenate([a[k] for a in auxes]) for k in auxes[0]}
     finite = np.isfinite(log_w)
     log_z = float(logsumexp(log_w[finite]) - np.log(len(log_w))) if finite.any() else -np.inf
-    return ImportanceResult(u, log_w, aux, log_z, ess, len(counts), adapted)
+    return ImportanceResult(u, log_w, aux, log_z, ess, len(batches.counts), adapted)
+
+
+def _next_batch_size(counts, n, ess, ess_floor, max_rounds, pool):
+    """Size of the next batch, or None to stop: n while rounds remain, then (with ``pool``) a batch
+    sized from the ESS shortfall (the pooled ESS grows about linearly with the draws) until
+    ``POOL_BUDGET`` x n draws are spent."""
+    drawn = sum(counts)
+    if len(counts) < max_rounds:
+        return n
+    if pool and drawn < POOL_BUDGET * n and ess > 0:
+        m = int(np.clip(math.ceil(drawn * (ess_floor / ess - 1.0) * 1.1), n // 4, 4 * n))
+        return max(1, min(m, POOL_BUDGET * n - drawn))
+    return None
+
+
+class _Batches:
+    """The batches drawn so far and their proposals; pooled with the balance-heuristic weights."""
+
+    def __init__(self, model, d, rng):
+        self.model, self.d, self.rng = model, d, rng
+        self.proposals, self.counts, self.us, self.lls, self.auxes = [], [], [], [], []
+        self.logq = []  # logq[k][j]: log density of proposal k at the points of batch j (None: uniform)
+
+    def draw(self, proposal, m):
+        """Draw m points from ``proposal`` (None: the uniform prior) and evaluate the model there.
+
+        Each proposal's density is evaluated once at each batch's points and kept for the pooling.
+
+        Parameters
+        ----------
+        proposal : _GridProposal or None
+            Where to draw from.
+        m : int
+            Number of points.
+        """
+        if proposal is None:
+            u, lq_new = self.rng.random((m, self.d)), None
+        else:
+            u, lq_new = proposal.sample(self.rng, m)
+        ll, aux = self.model(u, self.rng)
+        for q, lqs in zip(self.proposals, self.logq):
+            lqs.append(None if q is None else q.log_density(u))
+        self.logq.append([None if proposal is None else proposal.log_density(uj) for uj in self.us] + [lq_new])
+        self.proposals.append(proposal)
+        self.counts.append(m)
+        self.us.append(u)
+        self.lls.append(ll)
+        self.auxes.append(aux)
+
+    def pooled(self):
+        """(u, log w) of every point drawn, weighted against the deterministic mixture of proposals."""
+        us, lls = self.us, self.lls
+        u = us[0] if len(us) == 1 else np.vstack(us)
+        ll = lls[0] if len(lls) == 1 else np.concatenate(lls)
+        total = float(sum(self.counts))
+        comps = [np.log(c / total) + (np.zeros(len(u)) if q is None else lqs[0] if len(lqs) == 1
+                                      else np.concatenate(lqs))
+                 for q, c, lqs in zip(self.proposals, self.counts, self.logq)]
+        log_q = comps[0] if len(comps) == 1 else logsumexp(np.stack(comps), axis=0)
+        log_w = np.where(np.isfinite(ll), ll - log_q, -np.inf)
+        return u, log_w

@@ -26,19 +26,58 @@ TORRES_SIGMA_LOGR = 0.014
 
 
 def rho_from_mass_radius(mstar, rstar):
-    """Mean density (g/cm^3) of a star of mass ``mstar`` (Msun) and radius ``rstar`` (Rsun)."""
+    """Mean density (g/cm^3) of a star of mass ``mstar`` (Msun) and radius ``rstar`` (Rsun).
+
+    Parameters
+    ----------
+    mstar : float or ndarray
+        Stellar mass, Msun.
+    rstar : float or ndarray
+        Stellar radius, Rsun.
+
+    Returns
+    -------
+    ndarray
+        Mean density, g/cm^3.
+    """
     return RHO_SUN_CGS * np.asarray(mstar, dtype=float) / np.asarray(rstar, dtype=float) ** 3
 
 
 def rho_from_logg_radius(logg, rstar):
-    """Mean density (g/cm^3) from surface gravity log g (cgs) and radius (Rsun): rho = 3g/(4 pi G R)."""
+    """Mean density (g/cm^3) from surface gravity log g (cgs) and radius (Rsun): rho = 3g/(4 pi G R).
+
+    Parameters
+    ----------
+    logg : float or ndarray
+        log10 of the surface gravity in cm/s^2.
+    rstar : float or ndarray
+        Stellar radius, Rsun.
+
+    Returns
+    -------
+    ndarray
+        Mean density, g/cm^3.
+    """
     g_si = 10.0 ** (np.asarray(logg, dtype=float) - 2.0)  # cm/s^2 -> m/s^2
     r_m = np.asarray(rstar, dtype=float) * R_SUN_M
     return 3.0 * g_si / (4.0 * np.pi * G_SI * r_m) * 1e-3
 
 
 def mass_from_logg_radius(logg, rstar):
-    """Mass (Msun) from log g (cgs) and radius (Rsun): M = g R^2 / G (using the nominal GM_sun)."""
+    """Mass (Msun) from log g (cgs) and radius (Rsun): M = g R^2 / G (using the nominal GM_sun).
+
+    Parameters
+    ----------
+    logg : float or ndarray
+        log10 of the surface gravity in cm/s^2.
+    rstar : float or ndarray
+        Stellar radius, Rsun.
+
+    Returns
+    -------
+    ndarray
+        Stellar mass, Msun.
+    """
     g_si = 10.0 ** (np.asarray(logg, dtype=float) - 2.0)
     r_m = np.asarray(rstar, dtype=float) * R_SUN_M
     return g_si * r_m**2 / GM_SUN_SI
@@ -50,6 +89,24 @@ def torres_mass_radius(teff, logg, feh, rng=None, scatter=True):
     log M = a1 + a2 X + a3 X^2 + a4 X^3 + a5 (log g)^2 + a6 (log g)^3 + a7 [Fe/H], X = log Teff - 4.1,
     and the same form for log R with the b coefficients. With ``scatter`` and an ``rng``, the
     calibration's intrinsic scatter (0.027 dex in M, 0.014 dex in R) is added to each sample.
+
+    Parameters
+    ----------
+    teff : float or ndarray
+        Effective temperature, K.
+    logg : float or ndarray
+        log10 of the surface gravity in cm/s^2.
+    feh : float or ndarray
+        Metallicity [Fe/H], dex.
+    rng : numpy.random.Generator, optional
+        Source of the calibration scatter.
+    scatter : bool
+        Add the calibration's intrinsic scatter (needs ``rng``).
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        Mass (Msun) and radius (Rsun).
     """
     x = np.log10(np.asarray(teff, dtype=float)) - 4.1
     lg = np.asarray(logg, dtype=float)
@@ -69,5 +126,15 @@ def mass_from_density_ms(rho):
 
     Uses R proportional to M^0.8 on the lower main sequence, so rho/rho_sun = M^(-1.4) (common practice,
     no source; good to ~20 % for FGK dwarfs). Callers warn when they use it.
+
+    Parameters
+    ----------
+    rho : float or ndarray
+        Mean stellar density, g/cm^3.
+
+    Returns
+    -------
+    ndarray
+        Stellar mass, Msun.
     """
     return (np.asarray(rho, dtype=float) / RHO_SUN_CGS) ** (-1.0 / 1.4)

@@ -53,7 +53,22 @@ def planck_lambda(wavelength_um, temperature_k):
 
 
 def tophat_band(center_um: float, width_um: float, n: int = 65):
-    """A top-hat filter curve: (wavelength_um, response) sampled on ``n`` points."""
+    """A top-hat filter curve: (wavelength_um, response) sampled on ``n`` points.
+
+    Parameters
+    ----------
+    center_um : float
+        Band centre, microns.
+    width_um : float
+        Full width, microns.
+    n : int
+        Number of points.
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        Wavelengths (microns) and response (dimensionless, 1 inside).
+    """
     lo, hi = center_um - 0.5 * width_um, center_um + 0.5 * width_um
     if not (width_um > 0 and lo >= BAND_MIN_UM and hi <= BAND_MAX_UM):
         raise ValueError(f"band {center_um}:{width_um} micron must lie within "
@@ -87,6 +102,22 @@ def band_flux_ratio(t_planet, t_star, wavelength_um, response, photon_counting=T
     ``wavelength_um`` and ``response`` describe the filter (a top-hat or a two-column curve);
     with ``photon_counting`` the weight w = lambda (photon detector), else w = 1 (energy).
     Temperatures broadcast; the band is integrated with the trapezoid rule along a trailing axis.
+
+    Parameters
+    ----------
+    t_planet, t_star : float or ndarray
+        Planet and star brightness temperatures, K.
+    wavelength_um : ndarray
+        Filter wavelengths, microns.
+    response : ndarray
+        Filter response (dimensionless).
+    photon_counting : bool
+        Photon-counting detector weight.
+
+    Returns
+    -------
+    ndarray
+        Surface-brightness ratio (dimensionless).
     """
     lam = np.asarray(wavelength_um, dtype=float)
     s = np.asarray(response, dtype=float) * (lam if photon_counting else 1.0)
@@ -107,7 +138,26 @@ def band_flux_ratio_fast(t_planet, t_star, wavelength_um, response, photon_count
     """As :func:`band_flux_ratio` for many samples: the band integral is evaluated on the unique
     stellar temperatures and, for the planet, on a log-spaced grid of ``n_grid`` temperatures
     spanning the samples, interpolated linearly in (log T, log flux). Relative error below 1e-5
-    for the temperature spans of posterior samples (tested against the direct integral)."""
+    for the temperature spans of posterior samples (tested against the direct integral).
+
+    Parameters
+    ----------
+    t_planet, t_star : ndarray
+        Planet and star brightness temperatures, K.
+    wavelength_um : ndarray
+        Filter wavelengths, microns.
+    response : ndarray
+        Filter response (dimensionless).
+    photon_counting : bool
+        Photon-counting detector weight.
+    n_grid : int
+        Planet temperatures of the interpolation grid.
+
+    Returns
+    -------
+    ndarray
+        Surface-brightness ratio (dimensionless).
+    """
     lam = np.asarray(wavelength_um, dtype=float)
     s = np.asarray(response, dtype=float) * (lam if photon_counting else 1.0)
     tp, ts = np.broadcast_arrays(np.asarray(t_planet, dtype=float),
@@ -125,13 +175,47 @@ def band_flux_ratio_fast(t_planet, t_star, wavelength_um, response, photon_count
 
 
 def thermal_depth(k, t_planet, t_star, wavelength_um, response, photon_counting=True):
-    """Thermal occultation depth (fraction): k^2 times the band flux ratio."""
+    """Thermal occultation depth (fraction): k^2 times the band flux ratio.
+
+    Parameters
+    ----------
+    k : float or ndarray
+        Radius ratio Rp/R*.
+    t_planet, t_star : float or ndarray
+        Planet and star temperatures, K.
+    wavelength_um : ndarray
+        Filter wavelengths, microns.
+    response : ndarray
+        Filter response (dimensionless).
+    photon_counting : bool
+        Photon-counting detector weight.
+
+    Returns
+    -------
+    ndarray
+        Depth (fraction of the stellar flux).
+    """
     return np.asarray(k, dtype=float) ** 2 * band_flux_ratio_fast(t_planet, t_star, wavelength_um,
                                                                 response, photon_counting)
 
 
 def reflected_depth(k, r_over_rstar, geometric_albedo=0.1):
-    """Reflected-light occultation depth (fraction) at full phase: A_g (k / (r/R*))^2."""
+    """Reflected-light occultation depth (fraction) at full phase: A_g (k / (r/R*))^2.
+
+    Parameters
+    ----------
+    k : float or ndarray
+        Radius ratio Rp/R*.
+    r_over_rstar : float or ndarray
+        Star-planet distance at occultation, stellar radii.
+    geometric_albedo : float
+        Geometric albedo (dimensionless).
+
+    Returns
+    -------
+    ndarray
+        Depth (fraction of the stellar flux).
+    """
     return geometric_albedo * (np.asarray(k, dtype=float) / np.asarray(r_over_rstar,
                                                                      dtype=float)) ** 2
 

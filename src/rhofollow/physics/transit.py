@@ -31,6 +31,18 @@ def rho_from_ars(a_rs, period):
     """Mean stellar density (g/cm^3) from a/R* and period (days), Kepler III with Mp << M*.
 
     rho = 3 pi (a/R*)^3 / (G P^2)  (SMO 2003; with the 3/(4 pi) of the mean density included).
+
+    Parameters
+    ----------
+    a_rs : float or ndarray
+        Scaled semi-major axis a/R* (dimensionless).
+    period : float or ndarray
+        Orbital period, days.
+
+    Returns
+    -------
+    ndarray
+        Mean stellar density, g/cm^3.
     """
     a_rs = np.asarray(a_rs, dtype=float)
     period = np.asarray(period, dtype=float)
@@ -38,7 +50,20 @@ def rho_from_ars(a_rs, period):
 
 
 def ars_from_rho(rho, period):
-    """a/R* from the stellar density (g/cm^3) and period (days): the inverse of :func:`rho_from_ars`."""
+    """a/R* from the stellar density (g/cm^3) and period (days): the inverse of :func:`rho_from_ars`.
+
+    Parameters
+    ----------
+    rho : float or ndarray
+        Mean stellar density, g/cm^3.
+    period : float or ndarray
+        Orbital period, days.
+
+    Returns
+    -------
+    ndarray
+        Scaled semi-major axis a/R* (dimensionless).
+    """
     return np.cbrt(np.asarray(rho, dtype=float) * np.asarray(period, dtype=float) ** 2 / _RHO_FACTOR)
 
 
@@ -47,6 +72,22 @@ def circular_durations(a_rs, b, k, period):
 
     sin(pi T14 / P) = sqrt((1+k)^2 - b^2) / (a/R* sin i), b = a/R* cos i; T23 likewise with (1-k).
     T23 is 0 for grazing geometry (b > 1 - k).
+
+    Parameters
+    ----------
+    a_rs : float or ndarray
+        Scaled semi-major axis a/R*.
+    b : float or ndarray
+        Impact parameter, stellar radii.
+    k : float or ndarray
+        Radius ratio Rp/R*.
+    period : float or ndarray
+        Orbital period, days.
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        T14 and T23, days.
     """
     a_rs, b, k, period = (np.asarray(x, dtype=float) for x in (a_rs, b, k, period))
     sin_i = np.sqrt(np.clip(1.0 - (b / a_rs) ** 2, 0.0, 1.0))
@@ -64,6 +105,20 @@ def smo_invert(t14, t23, k, period):
     b^2 = [(1-k)^2 - (S23/S14)(1+k)^2] / (1 - S23/S14),  (a/R*)^2 = [(1+k)^2 - b^2 (1 - S14)] / S14.
 
     Returns (b, a_rs); b is NaN where b^2 < 0 (inconsistent durations).
+
+    Parameters
+    ----------
+    t14, t23 : float or ndarray
+        Total and full durations, days.
+    k : float or ndarray
+        Radius ratio Rp/R*.
+    period : float or ndarray
+        Orbital period, days.
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        Impact parameter b (stellar radii; NaN where inconsistent) and a/R*.
     """
     t14, t23, k, period = (np.asarray(x, dtype=float) for x in (t14, t23, k, period))
     s14 = np.sin(np.pi * t14 / period) ** 2
@@ -82,6 +137,22 @@ def ars_from_t14_b(t14, b, k, period):
 
     From sin^2(pi T14/P) (a^2 - b^2) = (1+k)^2 - b^2 (SMO 2003):
     (a/R*)^2 = b^2 + ((1+k)^2 - b^2) / sin^2(pi T14 / P).
+
+    Parameters
+    ----------
+    t14 : float or ndarray
+        Total duration, days.
+    b : float or ndarray
+        Impact parameter, stellar radii.
+    k : float or ndarray
+        Radius ratio Rp/R*.
+    period : float or ndarray
+        Orbital period, days.
+
+    Returns
+    -------
+    ndarray
+        Circular-orbit a/R* (dimensionless).
     """
     t14, b, k, period = (np.asarray(x, dtype=float) for x in (t14, b, k, period))
     s14 = np.sin(np.pi * t14 / period) ** 2
@@ -93,13 +164,38 @@ def g_factor(e, omega):
 
     omega is the RV-convention argument of periastron (radians): the transit is at true anomaly
     pi/2 - omega, so omega = pi/2 puts the transit at periastron and g > 1.
+
+    Parameters
+    ----------
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+
+    Returns
+    -------
+    ndarray
+        g (dimensionless).
     """
     e = np.asarray(e, dtype=float)
     return (1.0 + e * np.sin(omega)) / np.sqrt(1.0 - e * e)
 
 
 def density_ratio_from_orbit(e, omega):
-    """rho_circ / rho_true = g^3 (Dawson & Johnson 2012, photo-eccentric effect)."""
+    """rho_circ / rho_true = g^3 (Dawson & Johnson 2012, photo-eccentric effect).
+
+    Parameters
+    ----------
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+
+    Returns
+    -------
+    ndarray
+        rho_circ / rho_true (dimensionless).
+    """
     return g_factor(e, omega) ** 3
 
 
@@ -108,13 +204,40 @@ def ecc_min_from_ratio(ratio):
 
     With q = ratio^(2/3): e_min = |q - 1| / (q + 1), reached at omega = 90 deg (ratio > 1) or
     270 deg (ratio < 1); follows from g^2 = (1 + e)/(1 - e) at sin w = +-1.
+
+    Parameters
+    ----------
+    ratio : float or ndarray
+        Density ratio rho_circ / rho_true (> 0, dimensionless).
+
+    Returns
+    -------
+    ndarray
+        Smallest eccentricity (dimensionless, in [0, 1)).
     """
     q = np.asarray(ratio, dtype=float) ** (2.0 / 3.0)
     return np.abs(q - 1.0) / (q + 1.0)
 
 
 def transit_impact_parameter(a_rs, inc, e, omega):
-    """Transit impact parameter b = a/R* cos i (1 - e^2)/(1 + e sin w) (Winn 2010 eq. 7)."""
+    """Transit impact parameter b = a/R* cos i (1 - e^2)/(1 + e sin w) (Winn 2010 eq. 7).
+
+    Parameters
+    ----------
+    a_rs : float or ndarray
+        Scaled semi-major axis a/R*.
+    inc : float or ndarray
+        Inclination, radians.
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+
+    Returns
+    -------
+    ndarray
+        Impact parameter at transit, stellar radii.
+    """
     e = np.asarray(e, dtype=float)
     return a_rs * np.cos(inc) * (1 - e * e) / (1 + e * np.sin(omega))
 
@@ -123,6 +246,22 @@ def inclination_from_b(b, a_rs, e, omega):
     """Inclination (rad) from the transit impact parameter: inverse of :func:`transit_impact_parameter`.
 
     Returns NaN where no inclination gives that b (cos i > 1).
+
+    Parameters
+    ----------
+    b : float or ndarray
+        Transit impact parameter, stellar radii.
+    a_rs : float or ndarray
+        Scaled semi-major axis a/R*.
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+
+    Returns
+    -------
+    ndarray
+        Inclination, radians in [0, pi/2] (NaN where impossible).
     """
     e = np.asarray(e, dtype=float)
     cos_i = np.asarray(b, dtype=float) * (1 + e * np.sin(omega)) / (np.asarray(a_rs) * (1 - e * e))
@@ -136,14 +275,61 @@ def eccentric_durations(a_rs, b, k, period, e, omega):
     T = (P/pi) asin( sqrt((1 +- k)^2 - b^2) / (a/R* sin i) ) * sqrt(1-e^2)/(1 + e sin w),
     with b the transit impact parameter and i from b. Accurate to ~0.1 % against an exact numerical
     solution for e <= 0.6 (REFERENCE comparison table); T23 = 0 for grazing transits.
+
+    Parameters
+    ----------
+    a_rs : float or ndarray
+        Scaled semi-major axis a/R*.
+    b : float or ndarray
+        Transit impact parameter, stellar radii.
+    k : float or ndarray
+        Radius ratio Rp/R*.
+    period : float or ndarray
+        Orbital period, days.
+    e : float or ndarray
+        Eccentricity in [0, 1).
+    omega : float or ndarray
+        Argument of periastron, radians (RV convention).
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        T14 and T23, days.
     """
     a_rs, b, k, period, e = (np.asarray(x, dtype=float) for x in (a_rs, b, k, period, e))
-    fac = (1 - e * e) / (1 + e * np.sin(omega))
+    t14, t23, _ = durations_from_sin(a_rs, b, k, period, e, np.sin(omega))
+    return t14, t23
+
+
+def durations_from_sin(a_rs, b, k, period, e, sin_w, full=True):
+    """:func:`eccentric_durations` from sin(omega) computed once by the caller (float arrays).
+
+    Parameters
+    ----------
+    a_rs, b, k, period, e : ndarray
+        a/R*, impact parameter (stellar radii), Rp/R*, period (days), eccentricity.
+    sin_w : ndarray
+        Sine of the argument of periastron (RV convention).
+    full : bool
+        Also compute T23 (else None is returned for it).
+
+    Returns
+    -------
+    (ndarray, ndarray or None, ndarray)
+        T14 and T23 (days), and (1 - e^2) / (1 + e sin w) (dimensionless).
+    """
+    one_e2 = 1 - e * e
+    e_sin1 = 1 + e * sin_w
+    fac = one_e2 / e_sin1
     cos_i = b / (a_rs * fac)
     sin_i = np.sqrt(np.clip(1 - cos_i**2, 1e-300, 1.0))
-    scale = np.sqrt(1 - e * e) / (1 + e * np.sin(omega))
-    x14 = np.sqrt(np.clip((1 + k) ** 2 - b**2, 0.0, None)) / (a_rs * sin_i)
-    x23 = np.sqrt(np.clip((1 - k) ** 2 - b**2, 0.0, None)) / (a_rs * sin_i)
+    scale = np.sqrt(one_e2) / e_sin1
+    b2 = b**2
+    a_sin_i = a_rs * sin_i
+    x14 = np.sqrt(np.clip((1 + k) ** 2 - b2, 0.0, None)) / a_sin_i
     t14 = period / np.pi * np.arcsin(np.clip(x14, 0.0, 1.0)) * scale
+    if not full:
+        return t14, None, fac
+    x23 = np.sqrt(np.clip((1 - k) ** 2 - b2, 0.0, None)) / a_sin_i
     t23 = period / np.pi * np.arcsin(np.clip(x23, 0.0, 1.0)) * scale
-    return t14, t23
+    return t14, t23, fac

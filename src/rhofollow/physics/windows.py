@@ -67,6 +67,20 @@ def sorted_weighted_quantiles(xs, ws, q):
 
     Same definition as :func:`rhofollow.core.samples.weighted_quantiles` (midpoint rule on the
     weighted empirical CDF, linear in between, clamped at the ends), without the sort.
+
+    Parameters
+    ----------
+    xs : ndarray
+        Sorted sample values (any unit).
+    ws : ndarray
+        Their weights (any positive scale).
+    q : float or array
+        Probabilities in [0, 1].
+
+    Returns
+    -------
+    ndarray
+        Quantiles, unit of ``xs``.
     """
     xs = np.asarray(xs, dtype=float)
     if xs.size == 1:
@@ -115,13 +129,36 @@ class _WeightState:
         return j, t
 
     def levels(self, xs):
-        """Values at QUANTILE_PROBS followed by the 0.05 % and 99.95 % quantiles."""
+        """Values at QUANTILE_PROBS followed by the 0.05 % and 99.95 % quantiles.
+
+        Parameters
+        ----------
+        xs : ndarray
+            Sorted sample values (any unit).
+
+        Returns
+        -------
+        ndarray
+            Quantile values, unit of ``xs``.
+        """
         if xs.size == 1:
             return np.full(self.q_idx.size, xs[0])
         j, t = self.q_idx, self.q_t
         return xs[j - 1] + t * (xs[j] - xs[j - 1])
 
     def shortest(self, xs):
+        """Shortest interval of the sorted values holding the state's probability.
+
+        Parameters
+        ----------
+        xs : ndarray
+            Sorted sample values (any unit).
+
+        Returns
+        -------
+        (float, float)
+            The interval's ends, unit of ``xs``.
+        """
         if self.i.size == 0:
             return float(xs[0]), float(xs[-1])
         k = np.argmin(xs[self.j] - xs[self.i])
@@ -134,6 +171,20 @@ def shortest_interval(xs, ws, prob):
     Exact over the sample set: every sample that can be a left edge (mass below it at most
     1 - prob) is tried; the matching right edge is found by binary search on the cumulative
     weights.
+
+    Parameters
+    ----------
+    xs : ndarray
+        Sorted sample values (any unit).
+    ws : ndarray
+        Their weights (any positive scale).
+    prob : float
+        Probability mass in (0, 1].
+
+    Returns
+    -------
+    (float, float)
+        Interval ends, unit of ``xs``.
     """
     return _WeightState(ws, prob).shortest(np.asarray(xs, dtype=float))
 
@@ -148,6 +199,28 @@ def credible_region(xs, ws, prob, n_bins=200, merge_gap=0.0, min_gain=0.1, _stat
     that gives one piece, or the union is not at least ``min_gain`` (fraction) shorter than the
     shortest single interval, the exact shortest single interval is returned instead (one
     piece). Two-humped distributions thus get two windows.
+
+    Parameters
+    ----------
+    xs : ndarray
+        Sorted sample values (any unit, e.g. days).
+    ws : ndarray
+        Their weights (any positive scale).
+    prob : float
+        Probability mass in (0, 1].
+    n_bins : int
+        Most histogram bins.
+    merge_gap : float
+        Pieces closer than this are joined, unit of ``xs``.
+    min_gain : float
+        Least fractional shortening for keeping several pieces.
+    _state : _WeightState, optional
+        Reused weight state (internal).
+
+    Returns
+    -------
+    list of (float, float)
+        Disjoint intervals, unit of ``xs``.
     """
     xs = np.asarray(xs, dtype=float)
     st = _state if _state is not None else _WeightState(ws, prob)
@@ -183,7 +256,20 @@ def credible_region(xs, ws, prob, n_bins=200, merge_gap=0.0, min_gain=0.1, _stat
 
 
 def widen(region, pad):
-    """Widen each (lo, hi) interval by ``pad`` on both sides and merge the overlaps."""
+    """Widen each (lo, hi) interval by ``pad`` on both sides and merge the overlaps.
+
+    Parameters
+    ----------
+    region : list of (float, float)
+        Intervals (any unit).
+    pad : float
+        Padding, same unit.
+
+    Returns
+    -------
+    list of (float, float)
+        Disjoint intervals, same unit.
+    """
     out = []
     for lo, hi in sorted(region):
         lo, hi = lo - pad, hi + pad
@@ -199,6 +285,22 @@ def candidate_epochs(t_ref, period, start, end, pad=0.0):
 
     Exact bounds: for every n returned, some sample lies within the padded range or the event's
     full sample span overlaps it; all other epochs cannot touch the range.
+
+    Parameters
+    ----------
+    t_ref : ndarray
+        Reference event time per sample, days.
+    period : ndarray
+        Orbital period per sample, days.
+    start, end : float
+        Range, days.
+    pad : float
+        Padding, days.
+
+    Returns
+    -------
+    ndarray of int
+        Epoch numbers.
     """
     t_ref = np.asarray(t_ref, dtype=float)
     period = np.asarray(period, dtype=float)
