@@ -4,7 +4,9 @@ Baseline and rhofollow in the same run: ``run_stages`` serial (one process) and 
 ``distributed.LocalCluster`` of two single-thread worker processes (or on ``--address`` of a real
 cluster), alternated pair by pair (serial, dask, serial, dask, ...) so that drift in the machine's
 load hits both alike. Prints each mode's per-stage median, the ratio serial/dask per stage and in
-total, and checks that the records are byte-identical.
+total, and checks that the records are byte-identical. The stages of a chunk run one after the
+other in the process that holds the chunk, so the per-stage seconds are summed over the processes
+(work, not wall time); ``total`` is the wall time of the call.
 
 Also the CPU seconds of each mode (this process's ``time.process_time`` for serial; the workers'
 CPU seconds, read with psutil on each worker, plus this process's for dask) and CPU/wall: about 1.0

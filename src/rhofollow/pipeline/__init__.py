@@ -189,6 +189,17 @@ def rv_request(stages: Stages, nights, site, opts: PipelineOptions, progress: St
     return req
 
 
+def _first_night(eng, first, stages: Stages, site, opts: PipelineOptions, catalogue) -> dict:
+    """The night JSON of the first dark night (its visibility also stores each target's BJD - JD
+    offset of that night in the science dicts)."""
+    from rhofollow.planning.night import night_visibility, plan_night
+
+    vis0 = night_visibility(eng, first, stages.science)
+    nplan = plan_night(stages.science, vis0, site=site.name, night_start_jd=first.start_jd,
+                       night_end_jd=first.end_jd, overhead_h=stages.overhead_h, model=stages.model)
+    return night_document(nplan, stages, site, first.date, opts.seed, opts.samples, catalogue)
+
+
 def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: PipelineOptions | None = None,
                  progress: StageProgress | None = None, max_nights: int = 400,
                  catalogue=None) -> PipelineResult:
@@ -217,7 +228,7 @@ def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: Pipelin
         End before start, too many nights, no dark time in the range, bad prior or instrument file.
     """
     from rhofollow.planning.campaign import NightVis, plan_campaign
-    from rhofollow.planning.night import night_visibility, plan_night
+    from rhofollow.planning.night import night_visibility
     from rhofollow.planning.tasks import jd_to_iso
     from rhofollow.planning.visibility import VisibilityEngine
 
@@ -242,11 +253,8 @@ def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: Pipelin
     first = grids[0]
     # the first night is planned before the campaign loop: night_visibility stores each target's
     # BJD - JD offset of the night it last saw in the science dicts
-    vis0 = night_visibility(eng, first, stages.science)
+    night_doc = _first_night(eng, first, stages, site, opts, catalogue)
     adv(1)
-    nplan = plan_night(stages.science, vis0, site=site.name, night_start_jd=first.start_jd,
-                       night_end_jd=first.end_jd, overhead_h=stages.overhead_h, model=stages.model)
-    night_doc = night_document(nplan, stages, site, first.date, opts.seed, opts.samples, catalogue)
     nights = []
     for g in grids:
         nights.append(NightVis(str(g.date), night_visibility(eng, g, stages.science), g.start_jd, g.end_jd))
@@ -255,10 +263,7 @@ def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: Pipelin
 
     req = rv_request(stages, nights, site, opts, progress)
     if req is not None:   # the night plan sees the request, with the first night's BJD offsets
-        vis0 = night_visibility(eng, first, stages.science)
-        nplan = plan_night(stages.science, vis0, site=site.name, night_start_jd=first.start_jd,
-                           night_end_jd=first.end_jd, overhead_h=stages.overhead_h, model=stages.model)
-        night_doc = night_document(nplan, stages, site, first.date, opts.seed, opts.samples, catalogue)
+        night_doc = _first_night(eng, first, stages, site, opts, catalogue)
         for g in grids[-1:]:
             night_visibility(eng, g, stages.science)
     t = time.perf_counter()
