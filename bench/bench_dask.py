@@ -4,7 +4,15 @@ Baseline and rhofollow in the same run: ``run_stages`` serial (one process) and 
 ``distributed.LocalCluster`` of two single-thread worker processes (or on ``--address`` of a real
 cluster), alternated pair by pair (serial, dask, serial, dask, ...) so that drift in the machine's
 load hits both alike. Prints each mode's per-stage median, the ratio serial/dask per stage and in
-total, and checks that the records are byte-identical.
+total, and checks that the records are byte-identical. The stages of a chunk run one after the
+other in the process that holds the chunk, so the per-stage seconds are summed over the processes
+(work, not wall time); ``total`` is the wall time of the call.
+
+Also the CPU seconds of each mode (this process's ``time.process_time`` for serial; the workers'
+CPU seconds, read with psutil on each worker, plus this process's for dask) and CPU/wall: about 1.0
+for serial, about the number of workers when the cluster runs in parallel. On a machine shared
+with other work the wall ratio understates the speed-up; CPU/wall and the CPU ratio show whether
+the workers ran at once and how much extra work the cluster added.
 
 A real cluster: start ``dask scheduler`` on one machine and ``dask worker tcp://HOST:8786
 --nthreads 1`` on each worker machine (rhofollow installed on every one), then pass
@@ -16,12 +24,21 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import statistics
 import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 STAGES = ("assess_s", "occultations_s", "rv_s")
+
+
+def _cpu_seconds() -> float:
+    """CPU seconds (user + system) of this process (run on each dask worker)."""
+    import psutil
+
+    t = psutil.Process().cpu_times()
+    return t.user + t.system
 
 
 def _dump(st) -> str:
@@ -47,10 +64,21 @@ def main() -> None:
     span = ("2026-12-10T12:00:00", "2027-01-10T12:00:00")
     base = dict(samples=a.samples, seed=20261202, sims=a.sims)
 
+    def worker_cpu(address):
+        if address is None:
+            return 0.0
+        from distributed import Client
+
+        with Client(address, set_as_default=False) as c:
+            return sum(c.run(_cpu_seconds).values())
+
     def run(address):
+        w0, c0 = worker_cpu(address), time.process_time()
         t = time.perf_counter()
         st = run_stages(targets, site, *span, PipelineOptions(dask_address=address, **base))
-        return dict(st.timings, total_s=time.perf_counter() - t), _dump(st)
+        wall = time.perf_counter() - t
+        cpu = time.process_time() - c0 + worker_cpu(address) - w0
+        return dict(st.timings, total_s=wall, cpu_s=cpu), _dump(st)
 
     cluster = None
     address = a.address
@@ -81,6 +109,13 @@ def main() -> None:
         r = statistics.median(t[key] for t in remote)
         ratio = statistics.median(x[key] / y[key] for x, y in zip(serial, remote))
         print(f"{key[:-2]:<14}{s:>10.2f}{r:>10.2f}{ratio:>12.2f}x")
+    for label, runs in (("serial", serial), ("dask", remote)):
+        cpu = statistics.median(t["cpu_s"] for t in runs)
+        par = statistics.median(t["cpu_s"] / t["total_s"] for t in runs)
+        print(f"{label:<7} CPU {cpu:8.2f} s, CPU/wall {par:.2f}")
+    print(f"CPU serial/dask (work the cluster adds): "
+          f"{statistics.median(x['cpu_s'] / y['cpu_s'] for x, y in zip(serial, remote)):.2f}")
+    print("load average at the end (1, 5, 15 min):", " ".join(f"{x:.1f}" for x in os.getloadavg()))
     print("records byte-identical to serial:", "yes" if same else "NO")
 
 

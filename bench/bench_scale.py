@@ -9,13 +9,16 @@ both modes give identical records.
 
 ``--plan``: the whole ``rhofollow plan`` command on a synthetic catalogue of ``--rows`` rows (written
 to a temporary CSV with the columns of examples/hts_candidates.csv) at the demo site over ``--nights``
-evenings, run under ``/usr/bin/time -v``: prints its wall time and peak resident memory.
+evenings, run under ``/usr/bin/time -v``: prints its wall and CPU time, the time per row and the
+peak resident memory. Several sizes (``--rows 200,1000``) also print the peak memory's growth per
+row between the smallest and the largest and its straight-line extrapolation to 10,000 rows.
 """
 from __future__ import annotations
 
 import argparse
 import hashlib
 import json
+import os
 import resource
 import subprocess
 import sys
@@ -88,7 +91,7 @@ def write_catalogue(path, rows, seed=3):
 
 
 def run_plan(rows, samples, sims, nights, workers=1):
-    """``rhofollow plan`` under /usr/bin/time -v: (wall s, peak MiB, exit status)."""
+    """``rhofollow plan`` under /usr/bin/time -v: (wall s, peak MiB, exit status, CPU s)."""
     import re
     import tempfile
 
@@ -106,7 +109,8 @@ def run_plan(rows, samples, sims, nights, workers=1):
     secs = 0.0
     for part in wall.split(":"):
         secs = secs * 60 + float(part)
-    return secs, peak, p.returncode
+    cpu = sum(float(re.search(rf"{k} time \(seconds\): ([\d.]+)", p.stderr).group(1)) for k in ("User", "System"))
+    return secs, peak, p.returncode, cpu
 
 
 def main():
@@ -115,18 +119,28 @@ def main():
     ap.add_argument("--nights", type=int, default=7, help="--plan: evenings planned (1-27)")
     ap.add_argument("--workers", type=int, default=1, help="--plan: processes")
     ap.add_argument("--full", action="store_true")
-    ap.add_argument("--rows", type=int)
+    ap.add_argument("--rows", help="rows (--plan: one or more, comma-separated)")
     ap.add_argument("--samples", type=int, default=20000)
     ap.add_argument("--sims", type=int, default=200)
     ap.add_argument("--no-rv", action="store_true")
     ap.add_argument("--_mode", type=int, help=argparse.SUPPRESS)
     a = ap.parse_args()
-    rows = a.rows or (10000 if a.full else 60)
+    sizes = [int(x) for x in a.rows.split(",")] if a.rows else [10000 if a.full else 60]
+    rows = sizes[0]
     if a.plan:
-        secs, peak, rc = run_plan(rows, a.samples, a.sims, a.nights, a.workers)
-        print(f"rhofollow plan: {rows} rows x {a.samples} samples, {a.sims} RV simulations, {a.nights} "
-              f"evenings, {a.workers} worker(s): {secs:.1f} s wall, peak memory {peak:.0f} MiB "
-              f"(/usr/bin/time -v), exit status {rc}")
+        peaks = {}
+        for n in sizes:
+            secs, peak, rc, cpu = run_plan(n, a.samples, a.sims, a.nights, a.workers)
+            peaks[n] = peak
+            print(f"rhofollow plan: {n} rows x {a.samples} samples, {a.sims} RV simulations, {a.nights} "
+                  f"evenings, {a.workers} worker(s): {secs:.1f} s wall, {cpu:.1f} s CPU ({secs / n:.2f} s wall "
+                  f"and {cpu / n:.2f} s CPU per row), peak memory {peak:.0f} MiB (/usr/bin/time -v), "
+                  f"exit status {rc}; load average {os.getloadavg()[0]:.1f}", flush=True)
+        if len(peaks) > 1:
+            lo, hi = min(peaks), max(peaks)
+            per_row = (peaks[hi] - peaks[lo]) / (hi - lo)
+            print(f"peak memory grows {per_row * 1024:.0f} KiB per row from {lo} to {hi} rows; straight line "
+                  f"to 10,000 rows: {peaks[hi] + per_row * (10000 - hi):.0f} MiB")
         return
     if a._mode is not None:
         run_mode(rows, a.samples, a.sims, a._mode, not a.no_rv)

@@ -97,21 +97,13 @@ def run(args) -> int:
         for g in grids:
             nights.append(NightVis(str(g.date), night_visibility(eng, g, prep.science), g.start_jd, g.end_jd))
             prog.advance(task)
-    from rhofollow.pipeline import PipelineOptions, _instruments
-    from rhofollow.planning.rvreach import epochs_from_ledger
-    from rhofollow.planning.rvrequest import plan_rv_requests
+    from rhofollow.cli.common import stage_progress
+    from rhofollow.pipeline import PipelineOptions, instruments, rv_request
 
-    spec, _phot = _instruments(site)
+    spec, _phot = instruments(site)   # read without error by prepare already
     hours = parse_hours(args.hours, [spec.name] if spec is not None else [])
-    req = None
-    if spec is not None and any(e.get("rv") for e in prep.science):
-        sims = PipelineOptions().sims
-        with count_progress(len(prep.science), "RV at reachable epochs") as prog:
-            task = prog.add_task("RV reachable", total=len(prep.science))
-            req = plan_rv_requests(prep.stages.assessments, prep.science, nights, spec,
-                                   loss_fraction=site.loss_fraction, seed=args.seed, n_null=sims,
-                                   n_alt=min(400, sims), hours=hours, progress=lambda: prog.advance(task),
-                                   epochs_in_hand=epochs_from_ledger(args.ledger, [e["name"] for e in prep.science]))
+    with stage_progress() as stage:
+        req = rv_request(prep.stages, nights, site, PipelineOptions(seed=args.seed, rv_hours=hours, ledger=args.ledger), stage)
     plan = plan_campaign(prep.science, nights, site=site.name, overhead_h=prep.overhead_h,
                          instruments=prep.instruments, model=prep.model, rv_request=req)
     from rhofollow.pipeline import campaign_document

@@ -100,14 +100,12 @@ def rv_request_over_range(args, eng, site, prep, start, end):
         spectrograph or RV records. The science dicts keep the BJD offsets of the range's last
         night: call :func:`~rhofollow.planning.night.night_visibility` for the night after this.
     """
-    from rhofollow.cli.common import count_progress
-    from rhofollow.pipeline import PipelineOptions, _instruments
+    from rhofollow.cli.common import count_progress, stage_progress
+    from rhofollow.pipeline import PipelineOptions, instruments, rv_request
     from rhofollow.planning.campaign import NightVis
     from rhofollow.planning.night import night_visibility
-    from rhofollow.planning.rvreach import epochs_from_ledger
-    from rhofollow.planning.rvrequest import plan_rv_requests
 
-    spec, _phot = _instruments(site)
+    spec, _phot = instruments(site)
     hours = parse_hours(args.hours, [spec.name] if spec is not None else [])
     if spec is None or not any(e.get("rv") for e in prep.science):
         return None
@@ -118,13 +116,9 @@ def rv_request_over_range(args, eng, site, prep, start, end):
         for g in grids:
             nights.append(NightVis(str(g.date), night_visibility(eng, g, prep.science), g.start_jd, g.end_jd))
             prog.advance(task)
-    sims = PipelineOptions().sims
-    with count_progress(len(prep.science), "RV at reachable epochs") as prog:
-        task = prog.add_task("RV reachable", total=len(prep.science))
-        return plan_rv_requests(prep.stages.assessments, prep.science, nights, spec,
-                                loss_fraction=site.loss_fraction, seed=args.seed, n_null=sims,
-                                n_alt=min(400, sims), hours=hours, progress=lambda: prog.advance(task),
-                                epochs_in_hand=epochs_from_ledger(args.ledger, [e["name"] for e in prep.science]))
+    with stage_progress() as stage:
+        return rv_request(prep.stages, nights, site,
+                          PipelineOptions(seed=args.seed, rv_hours=hours, ledger=args.ledger), stage)
 
 
 def _with_request(doc: dict, req, science: list[dict]) -> dict:

@@ -86,13 +86,31 @@ def _run_part(fn, *args):
 
 
 def chunked(seq, size):
-    """Consecutive slices of ``seq`` of at most ``size`` items."""
+    """Consecutive slices of ``seq`` of at most ``size`` items.
+
+    Parameters
+    ----------
+    seq : a sequence; size : items per slice
+
+    Returns
+    -------
+    iterator of slices
+    """
     for i in range(0, len(seq), size):
         yield seq[i:i + size]
 
 
 def chunk_size(n_items: int, slots: int, cap: int = 64) -> int:
-    """Items per chunk: about four chunks per worker slot (load balance), at most ``cap``."""
+    """Items per chunk: about four chunks per worker slot (load balance), at most ``cap``.
+
+    Parameters
+    ----------
+    n_items : number of work items; slots : worker slots; cap : most items per chunk
+
+    Returns
+    -------
+    int
+    """
     return max(1, min(int(cap), -(-int(n_items) // (4 * max(1, int(slots))))))
 
 
@@ -108,7 +126,7 @@ def _windowed(submit, jobs, window: int):
 
 
 def dispatch(fn, items, *, workers: int = 1, dask_address: str | None = None, chunk: int | None = None,
-             make_job=None, window: int | None = None):
+             make_job=None, window: int | None = None, cap: int = 64):
     """Yield ``fn(*make_job(part))`` for consecutive parts of ``items``, in input order.
 
     Parameters
@@ -117,7 +135,7 @@ def dispatch(fn, items, *, workers: int = 1, dask_address: str | None = None, ch
     items : sequence of work items (targets, assessments)
     workers : processes; 1 runs every part in this process, one item per part (no copies made)
     dask_address : scheduler address of a dask.distributed cluster (overrides ``workers``)
-    chunk : items per part; default :func:`chunk_size` for the number of worker slots
+    chunk : items per part; default :func:`chunk_size` for the number of worker slots, at most ``cap``
     make_job : ``part -> tuple`` of the arguments of ``fn``; default ``(part,)``
     window : parts in flight at once; default twice the number of worker slots (dask: the
         cluster's threads), which bounds the results waiting on the client
@@ -129,7 +147,7 @@ def dispatch(fn, items, *, workers: int = 1, dask_address: str | None = None, ch
 
         with Client(dask_address, set_as_default=False) as client:
             slots = max(1, sum(client.nthreads().values()))
-            size = chunk or chunk_size(len(items), slots)
+            size = chunk or chunk_size(len(items), slots, cap)
             jobs = (make_job(p) for p in chunked(items, size))
             yield from _windowed(lambda job: client.submit(_run_on_dask_worker, fn, *job, pure=False), jobs,
                                  window or 2 * slots)
@@ -139,7 +157,7 @@ def dispatch(fn, items, *, workers: int = 1, dask_address: str | None = None, ch
         for part in chunked(items, chunk or 1):
             yield _run_part(fn, *make_job(part))
         return
-    size = chunk or chunk_size(len(items), workers)
+    size = chunk or chunk_size(len(items), workers, cap)
     jobs = (make_job(p) for p in chunked(items, size))
     pool = ProcessPoolExecutor(max_workers=workers)
     try:
