@@ -39,7 +39,10 @@ def message(text, kind: str | None = None, *, to_stdout: bool = False, style: st
     result (cautions, table notes, report locations).
     """
     from rhofollow.cli.common import console, err_console
+    from rhofollow.core.timescales import first_on_terminal
 
+    if kind == "notice" and not first_on_terminal(str(text)):
+        return   # the offline-tables notice: in every document that needs it, on the terminal once a run
     line = Text()
     if kind:
         line.append(f"{kind}:", style=KIND_STYLES.get(kind, "bold"))
