@@ -59,8 +59,30 @@ def assess_target(t: Target, n_samples: int = DEFAULT_N_SAMPLES, prior: str | Ec
                   hypotheses=HYPOTHESES, extra_loglike=None) -> Assessment:
     """Assess one validated target. Never raises for a bad row: problems land in ``errors``.
 
-    ``extra_loglike(aux) -> array`` (optional) folds further measurements of the target (RVs,
-    occultation timings; see :mod:`rhofollow.stages.update`) into every hypothesis' likelihood.
+    Parameters
+    ----------
+    t : Target
+        The validated catalogue row (units already converted by the reader).
+    n_samples : int
+        Posterior samples of the eccentric explanation.
+    prior : str or EccPrior
+        The eccentricity prior (a registry name such as ``"kipping13"`` or an :class:`EccPrior`).
+    seed : int
+        The run seed; the target's generator is :func:`target_seed` of it and the name.
+    transit_prob : bool
+        Weight (e, omega) by the transit probability (Barnes 2007).
+    ess_floor : float
+        Effective sample size (samples) the sampler adapts towards; below it the row warns.
+    hypotheses : tuple of str
+        The explanations to run (``"eccentric"`` is required).
+    extra_loglike : callable or None
+        ``extra_loglike(aux) -> array`` folds further measurements of the target (RVs,
+        occultation timings; see :mod:`rhofollow.stages.update`) into every hypothesis' likelihood.
+
+    Returns
+    -------
+    Assessment
+        ``ok`` with the record and the samples, or not ok with the row's error (file, row, name).
     """
     rng = target_seed(seed, t.name)
     warnings = list(t.warnings)
@@ -99,7 +121,19 @@ def assess_catalogue(targets, n_samples: int = DEFAULT_N_SAMPLES, prior: str | E
                      progress=None) -> list[Assessment]:
     """Assess every target (serially; see :mod:`rhofollow.core.executor` for pools and clusters).
 
-    ``progress`` is an optional callable invoked once per finished target.
+    Parameters
+    ----------
+    targets : iterable of Target
+        Validated catalogue rows.
+    n_samples, prior, seed, transit_prob, ess_floor
+        As :func:`assess_target` (samples, prior name or object, seed, bool, samples).
+    progress : callable or None
+        Called with no argument once per finished target.
+
+    Returns
+    -------
+    list of Assessment
+        One per target, in input order.
     """
     prior_obj = prior if isinstance(prior, EccPrior) else parse_prior(prior)
     out = []

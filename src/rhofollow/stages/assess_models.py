@@ -46,7 +46,18 @@ LABELS = {"circular": "circular orbit", "eccentric": "eccentric orbit", "blend":
 
 
 def evidence_strength(ln_bayes: float) -> str:
-    """Verbal strength of a Bayes factor, Kass & Raftery 1995 (JASA 90, 773) scale on 2 ln B."""
+    """Verbal strength of a Bayes factor, Kass & Raftery 1995 (JASA 90, 773) scale on 2 ln B.
+
+    Parameters
+    ----------
+    ln_bayes : float
+        Natural log of the Bayes factor (nats).
+
+    Returns
+    -------
+    str
+        "barely worth mentioning", "positive", "strong" or "very strong".
+    """
     two = 2 * ln_bayes
     if two < 2:
         return "barely worth mentioning"

@@ -170,7 +170,22 @@ def data_weight(p: float, p0: float, ess: float) -> float:
     what the data add to the prior, 0.5 when they say nothing, towards 1 when they favour e above
     it, towards 0 when they disfavour it. The one definition used by the record
     (``ecc_data_weight``), the ranking (:func:`rhofollow.report.tables.rank_targets`) and the night
-    and campaign block values (:func:`rhofollow.planning.night.science_from_records`)."""
+    and campaign block values (:func:`rhofollow.planning.night.science_from_records`).
+
+    Parameters
+    ----------
+    p : float
+        Posterior probability of e above the threshold.
+    p0 : float
+        The prior's probability of e above it.
+    ess : float
+        Effective sample size of the posterior (samples; bounds p away from 0 and 1).
+
+    Returns
+    -------
+    float
+        W in [0, 1] (dimensionless).
+    """
     b = _odds_ratio(p, p0, ess)
     return b / (1 + b) if math.isfinite(b) else 1.0
 
@@ -180,7 +195,18 @@ def record_data_weight(record: dict) -> float:
     (:func:`data_weight`), so a record whose posterior was updated (ledger RVs, occultation timings)
     gives the updated W. A record without the prior's value falls back to its ``ecc_data_weight``,
     then (a record written before either key) to its ``p_ecc_gt_0p1``, and one without a posterior
-    to 0.0."""
+    to 0.0.
+
+    Parameters
+    ----------
+    record : dict
+        An assessment record.
+
+    Returns
+    -------
+    float
+        W in [0, 1] (dimensionless).
+    """
     p, p0 = record.get("p_ecc_gt_0p1"), record.get("p_ecc_gt_0p1_prior")
     if p is not None and p0 is not None:
         return data_weight(float(p), float(p0), float(record.get("ess") or 1.0))
@@ -192,7 +218,14 @@ def record_data_weight(record: dict) -> float:
 
 
 def refresh_data_keys(record: dict) -> None:
-    """Recompute ``ecc_odds_ratio`` and ``ecc_data_weight`` after ``p_ecc_gt_0p1`` or ``ess`` changed."""
+    """Recompute ``ecc_odds_ratio`` and ``ecc_data_weight`` after ``p_ecc_gt_0p1`` or ``ess`` changed.
+
+    Parameters
+    ----------
+    record : dict
+        An assessment record, changed in place (left as it is without ``p_ecc_gt_0p1`` and
+        ``p_ecc_gt_0p1_prior``).
+    """
     p, p0 = record.get("p_ecc_gt_0p1"), record.get("p_ecc_gt_0p1_prior")
     if p is None or p0 is None:
         return

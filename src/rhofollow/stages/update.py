@@ -62,10 +62,24 @@ class LedgerUpdate:
 
     @property
     def ess(self) -> float:
+        """Kish effective sample size of the updated samples.
+
+        Returns
+        -------
+        float
+            Effective number of samples.
+        """
         return self.samples.ess
 
     def record(self) -> dict:
-        """JSON record (name, ok, errors, warnings, and the posterior summary)."""
+        """JSON record (name, ok, errors, warnings, and the posterior summary).
+
+        Returns
+        -------
+        dict
+            ``name``, ``ok``, ``errors``, ``warnings``, ``prior_ess`` (samples), the measurement
+            counts, ``source_hash``, ``stored_new_version`` and :func:`posterior_summary`'s keys.
+        """
         return {"name": self.target, "ok": True, "errors": [], "warnings": list(self.warnings),
                 "prior_ess": self.prior_ess, "n_rv": self.n_rv,
                 "n_occ_detections": self.n_detections,
@@ -104,7 +118,28 @@ def rv_log_like(samples: SampleSet, rvs: RVSeries, *, jitter_ms: float = 0.0) ->
 def occultation_log_like(samples: SampleSet, timings: list[OccultationTiming], *,
                          threshold_sigma: float = 3.0, depth_kw: dict | None = None
                          ) -> tuple[np.ndarray, np.ndarray, list[str]]:
-    """Log-likelihoods per sample of the detections and of the non-detections, and warnings."""
+    """Log-likelihoods per sample of the detections and of the non-detections, and warnings.
+
+    Parameters
+    ----------
+    samples : SampleSet
+        Posterior samples (period in days, t0 BJD_TDB, e, omega in radians, a/R*, R* in Rsun,
+        inclination in radians, k, Teff in K).
+    timings : list of OccultationTiming
+        The ledger's occultation timings (mid-times and windows in BJD_TDB, errors in days, depth
+        limits in ppm, bands in microns).
+    threshold_sigma : float
+        Detection threshold of a non-detection (sigmas of its depth limit).
+    depth_kw : dict or None
+        Options of the predicted depth (albedos, redistribution).
+
+    Returns
+    -------
+    ll_det, ll_non : ndarray (S,)
+        Log-likelihood per sample of the detections and of the non-detections.
+    warnings : list of str
+        Conflicting timings, non-detections without a band or without a depth.
+    """
     s = samples
     geom = dict(a_rs=s.a_rs, rstar=s.rstar, inc=s.inc, k=s.k)
     ll_det = np.zeros(s.n)
@@ -144,7 +179,19 @@ def _failure(exc: BaseException) -> str:
 
 
 def posterior_summary(samples: SampleSet) -> dict:
-    """Quantiles of e, e cos omega, e sin omega, P(e < 0.05), N and ESS of a sample set."""
+    """Quantiles of e, e cos omega, e sin omega, P(e < 0.05), N and ESS of a sample set.
+
+    Parameters
+    ----------
+    samples : SampleSet
+        Weighted posterior samples (omega in radians).
+
+    Returns
+    -------
+    dict
+        ``n_samples``, ``ess`` (samples), ``reliable`` (and ``reliability_note``), quantiles of
+        ``ecc``, ``ecosw``, ``esinw`` (dimensionless) and ``p_ecc_below_0p05`` (probability).
+    """
     s = samples
     w = s.weights
     from rhofollow.core.samples import reliability
@@ -172,7 +219,27 @@ def _source_hash(samples: SampleSet, rvs, timings, settings: dict) -> str:
 
 def data_log_like(name: str, rvs, timings, *, jitter_ms: float = 0.0, threshold_sigma: float = 3.0):
     """The ledger data's log-likelihood as a function of the sampler's physical arrays (for
-    :func:`rhofollow.stages.assess.assess_target`'s ``extra_loglike``)."""
+    :func:`rhofollow.stages.assess.assess_target`'s ``extra_loglike``).
+
+    Parameters
+    ----------
+    name : str
+        The target.
+    rvs : RVSeries
+        Its RVs (BJD_TDB days, m/s).
+    timings : list of OccultationTiming
+        Its occultation timings (BJD_TDB, days).
+    jitter_ms : float
+        Stellar jitter added in quadrature (m/s).
+    threshold_sigma : float
+        Detection threshold of a non-detection (sigmas).
+
+    Returns
+    -------
+    callable
+        ``f(aux) -> ndarray``: the summed log-likelihood per sample of the sampler's arrays
+        (:data:`rhofollow.core.samples.SAMPLE_COLUMNS`).
+    """
     from rhofollow.core.samples import SAMPLE_COLUMNS
 
     def f(aux: dict) -> np.ndarray:
@@ -197,6 +264,35 @@ def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float =
 
     With ``store`` the summary is written as a posterior version (the same inputs twice add
     nothing: the version is keyed by a hash of the samples, the data and the settings).
+
+    Parameters
+    ----------
+    ledger : Ledger
+        The campaign ledger.
+    samples : SampleSet
+        The target's posterior (the prior of the update).
+    jitter_ms : float
+        Stellar jitter added in quadrature (m/s).
+    threshold_sigma : float
+        Detection threshold of a non-detection (sigmas).
+    store : bool
+        Write the summary as a posterior version.
+    target : Target or None
+        The catalogue row, needed to draw the posterior afresh.
+    prior : str, EccPrior or None
+        The eccentricity prior of a fresh draw (None: the default).
+    seed : int
+        The run seed of a fresh draw.
+
+    Returns
+    -------
+    LedgerUpdate
+        The updated samples, the log-likelihoods per sample, the summary and the warnings.
+
+    Raises
+    ------
+    LedgerUpdateError
+        The measurements exclude every sample.
     """
     name = samples.name
     rvs = ledger.rv_series(name)
@@ -245,7 +341,21 @@ def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float =
 
 
 def target_from_catalogue_row(name: str, row: dict) -> Target:
-    """Rebuild the catalogue :class:`Target` stored in the ledger (inverse of the ledger's JSON)."""
+    """Rebuild the catalogue :class:`Target` stored in the ledger (inverse of the ledger's JSON).
+
+    Parameters
+    ----------
+    name : str
+        The target.
+    row : dict
+        The ledger's stored row: ``values`` (column -> [value, err_lo, err_hi] in the reader's
+        units, None for NaN), ``row`` and ``source``.
+
+    Returns
+    -------
+    Target
+        The row as the catalogue reader gave it.
+    """
     def f(x):
         return math.nan if x is None else float(x)
     values = {k: Measurement(f(v[0]), f(v[1]), f(v[2])) for k, v in row["values"].items()}
@@ -258,8 +368,30 @@ def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples:
                    ) -> list[dict]:
     """Assess each ledger target from its stored catalogue row, then re-weight with its data.
 
-    Returns one JSON record per target (``name``, ``ok``, ``errors``, ``warnings`` and the
-    summary); targets without a catalogue row are reported, not updated.
+    Targets without a catalogue row are reported, not updated.
+
+    Parameters
+    ----------
+    ledger : Ledger
+        The campaign ledger.
+    names : list of str or None
+        The targets (None: every ledger target).
+    n_samples : int
+        Posterior samples per target.
+    prior : str, EccPrior or None
+        The eccentricity prior (None: the default).
+    seed : int
+        The run seed.
+    jitter_ms : float
+        Stellar jitter added in quadrature (m/s).
+    store : bool
+        Write each summary as a posterior version.
+
+    Returns
+    -------
+    list of dict
+        One JSON record per target in the order of ``names`` (``name``, ``ok``, ``errors``,
+        ``warnings`` and the summary of :meth:`LedgerUpdate.record`).
     """
     from rhofollow.stages.assess import assess_catalogue
 
@@ -308,8 +440,25 @@ def apply_to_assessments(ledger: Ledger, assessments, *, jitter_ms: float = 0.0,
     occultation data in the ledger by the re-weighted samples, and add the update's warnings.
 
     Assessments that failed, or whose target has no measurements in the ledger, are left as they
-    are. A target whose data exclude every sample keeps its samples and gets a warning. Returns
-    the updates by target name.
+    are. A target whose data exclude every sample keeps its samples and gets a warning.
+
+    Parameters
+    ----------
+    ledger : Ledger
+        The campaign ledger.
+    assessments : list of Assessment
+        The planners' assessments (changed in place).
+    jitter_ms : float
+        Stellar jitter added in quadrature (m/s).
+    store : bool
+        Write each summary as a posterior version.
+    seed : int
+        The run seed of a fresh draw.
+
+    Returns
+    -------
+    dict
+        Target name -> :class:`LedgerUpdate`, for the targets that were updated.
     """
     out = {}
     for a in assessments:
