@@ -184,3 +184,44 @@ def test_the_notice_does_not_depend_on_what_ran_before(offline):
         assert notice == ts.TABLES_NOTICE
     assert ts.first_on_terminal(ts.TABLES_NOTICE) and not ts.first_on_terminal(ts.TABLES_NOTICE)
     assert ts.first_on_terminal("some other notice") and ts.first_on_terminal("some other notice")
+
+
+# --- the typed notice (core.types.Notice): kind and target travel with today's text
+
+def test_notice_is_its_text_everywhere_and_keeps_kind_and_target():
+    import copy
+    import pickle
+
+    from rhofollow.core.types import NOTICE_KINDS, Notice
+    from rhofollow.io.jsonout import json_text
+
+    n = Notice("no uncertainty for 'b'; assumed ±0.1", "assumed", "HTS-101")
+    assert n == "no uncertainty for 'b'; assumed ±0.1" and str(n) == n.text and type(str(n)) is str
+    assert json_text({"warnings": [n]}) == json_text({"warnings": [str(n)]})
+    assert "; ".join([n, "x"]) == str(n) + "; x" and "assumed" in n
+    for m in (pickle.loads(pickle.dumps(n)), copy.deepcopy(n)):
+        assert (m, m.kind, m.target, type(m)) == (n, "assumed", "HTS-101", Notice)
+    with pytest.raises(AttributeError):
+        n.kind = "input"
+    with pytest.raises(ValueError, match="unknown notice kind"):
+        Notice("x", "gossip")
+    assert ts.TABLES_NOTICE.kind == "offline_tables" and set(NOTICE_KINDS) >= {"assumed", "occultation"}
+
+
+def test_stage_warnings_are_typed_notices_of_their_target():
+    from rhofollow.core.types import Measurement, Notice, Target
+    from rhofollow.stages.assess import assess_target
+    from rhofollow.stages.occultations import predict_occultations
+
+    vals = {"period_d": Measurement(3.5, 1e-5, 1e-5), "t0_bjd": Measurement(2461000.5),
+            "a_rs": Measurement(9.0), "b": Measurement(0.3, 0.05, 0.05), "rp_rs": Measurement(0.1, 0.002, 0.002),
+            "rho_star_cgs": Measurement(1.4, 0.1, 0.1), "teff_k": Measurement(5800, 80, 80),
+            "ra_deg": Measurement(150.0), "dec_deg": Measurement(-20.0)}
+    a = assess_target(Target("HTS-T1", 1, "cat.csv", vals), n_samples=2000)
+    assert a.ok
+    typed = [w for w in a.warnings if isinstance(w, Notice)]
+    assert {w.target for w in typed} == {"HTS-T1"}
+    assert {"t0_bjd", "a_rs"} <= {k for w in typed if w.kind == "assumed" for k in ("t0_bjd", "a_rs") if k in w}
+    rec = predict_occultations([a], "2027-01-10", "2027-01-20")["targets"][0]
+    occ = [w for w in rec["warnings"] if isinstance(w, Notice) and w.kind == "assumed" and "windows" in w]
+    assert occ and occ[0].target == "HTS-T1"

@@ -27,11 +27,12 @@ from datetime import datetime, timedelta, timezone
 
 import numpy as np
 
+from rhofollow.core.types import Notice
 from rhofollow.errors import RhofollowWarning
 
 __all__ = ["OfflineTablesWarning", "TABLES_NOTICE", "configure_offline", "iers_table_end_jd", "beyond_tables",
-           "notice_if_beyond_tables", "first_on_terminal", "astropy_quietly", "reset_notice", "iso_to_jd", "jd_to_iso", "datetime_to_jd", "jd_to_datetime_utc",
-           "bjd_minus_jd", "bjd_tdb_to_utc"]
+           "notice_if_beyond_tables", "first_on_terminal", "astropy_quietly", "reset_notice", "iso_to_jd",
+           "jd_to_iso", "datetime_to_jd", "jd_to_datetime_utc", "bjd_minus_jd", "bjd_tdb_to_utc"]
 
 _MJD0 = datetime(1858, 11, 17, tzinfo=timezone.utc)   # MJD 0 = JD 2400000.5
 _UNIX_EPOCH_JD = 2440587.5                              # 1970-01-01T00:00:00 UTC
@@ -43,8 +44,9 @@ class OfflineTablesWarning(RhofollowWarning):
 
 #: The notice a document (``notices``) carries when its times lie past the installed Earth-orientation or
 #: leap-second tables; the terminal shows it, or the run's :class:`OfflineTablesWarning`, once per run.
-TABLES_NOTICE = ("some times lie beyond the installed Earth-orientation or leap-second tables "
-                 "(no download attempted); UTC is extrapolated and may be off by a leap second")
+TABLES_NOTICE = Notice("some times lie beyond the installed Earth-orientation or leap-second tables "
+                       "(no download attempted); UTC is extrapolated and may be off by a leap second",
+                       "offline_tables")
 
 _LOCK = threading.Lock()
 # notice_given: the run's OfflineTablesWarning was issued; terminal_shown: the terminal has printed an

@@ -4,7 +4,7 @@ A catalogue row becomes a :class:`Target`: canonical column names (as in DESIGN.
 unit suffixes, e.g. ``period_d``, ``t14_h``, ``rho_star_cgs``) mapped to :class:`Measurement`.
 Values are already converted to the unit the suffix names. Measured radial velocities of one
 target travel as one :class:`RVSeries`, whether they come from an RV file
-(:mod:`rhofollow.io.rvdata`) or from the ledger.
+(:mod:`rhofollow.io.rvdata`) or from the ledger. A stage's warning is a :class:`Notice`.
 """
 from __future__ import annotations
 
@@ -13,7 +13,65 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["Measurement", "Target", "RowIssue", "CatalogueResult", "RVSeries"]
+__all__ = ["Measurement", "Target", "RowIssue", "CatalogueResult", "RVSeries", "Notice", "NOTICE_KINDS"]
+
+#: What a :class:`Notice` is about.
+NOTICE_KINDS = {
+    "assumed": "a value or error the input did not give was assumed",
+    "input": "the input is incomplete or inconsistent (a route skipped, routes that disagree)",
+    "sampling": "the posterior samples are few or noisy",
+    "finding": "the assessment's finding calls for a check",
+    "occultation": "the occultation prediction is partial (missed, grazing, no depth)",
+    "offline_tables": "times lie past the installed Earth-orientation or leap-second tables",
+}
+
+
+class Notice(str):
+    """A stage's warning: its text, with what it is about and the target it concerns.
+
+    A ``str`` subclass, so that every consumer of the warning lists (JSON, CSV cells, the terminal,
+    ``in`` tests on the text) sees exactly today's text; the kind and the target travel with it.
+    Immutable, and pickled with both (process pools, dask).
+
+    Parameters
+    ----------
+    text : str
+        The message, as printed and written.
+    kind : str
+        One of :data:`NOTICE_KINDS`.
+    target : str
+        The target's name ("" for a run-level notice).
+
+    Raises
+    ------
+    ValueError
+        An unknown ``kind``.
+    """
+
+    def __new__(cls, text: str, kind: str, target: str = ""):
+        if kind not in NOTICE_KINDS:
+            raise ValueError(f"unknown notice kind {kind!r}; known: {', '.join(NOTICE_KINDS)}")
+        self = super().__new__(cls, text)
+        object.__setattr__(self, "kind", kind)
+        object.__setattr__(self, "target", str(target))
+        return self
+
+    def __setattr__(self, name, value):
+        raise AttributeError("a Notice is immutable")
+
+    def __reduce__(self):
+        return (Notice, (str(self), self.kind, self.target))
+
+    @property
+    def text(self) -> str:
+        """The message.
+
+        Returns
+        -------
+        str
+            The plain text (what ``str()`` gives).
+        """
+        return str(self)
 
 
 @dataclass(frozen=True)

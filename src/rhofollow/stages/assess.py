@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 from rhofollow.core.defaults import DEFAULT_SAMPLES, DEFAULT_SEED
 from rhofollow.core.samples import SampleSet
 from rhofollow.core.seeds import target_seed  # the per-target generator (re-exported here)
-from rhofollow.core.types import Target
+from rhofollow.core.types import Notice, Target
 from rhofollow.physics.eccentricity import HYPOTHESES
 from rhofollow.physics.priors import DEFAULT_PRIOR, EccPrior, parse_prior
 from rhofollow.stages.assess_inputs import DEFAULT_RADIUS_RATIO, RowProblem, hypothesis_setup, read_row
@@ -106,12 +106,12 @@ def _assess(t, n, prior, rng, transit_prob, ess_floor, warnings, hypotheses, ext
     samples, w = posterior_samples(t, results["eccentric"], inputs, prior, transit_prob, measured)
     ess = samples.ess
     if ess < ess_floor:
-        warnings.append(f"effective sample size {ess:.0f} is below the floor {ess_floor:.0f} even after "
-                        "adapting the proposal; quantiles are noisier than usual")
+        warnings.append(Notice(f"effective sample size {ess:.0f} is below the floor {ess_floor:.0f} even "
+                               "after adapting the proposal; quantiles are noisier than usual", "sampling", t.name))
     dr = density_ratio(inputs.rho_circ_draws, inputs.star, setup, rng)
     cmp = compare(results, chi2, dr, measured)
     if cmp.finding != "fits":
-        warnings.append(cmp.consistency["check"])
+        warnings.append(Notice(cmp.consistency["check"], "finding", t.name))
     record = build_record(t, inputs, samples, w, dr, cmp, prior, transit_prob, measured, warnings)
     return Assessment(t.name, t, True, [], warnings, samples, record)
 

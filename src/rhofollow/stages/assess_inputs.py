@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from rhofollow.core.types import Measurement, Target
+from rhofollow.core.types import Measurement, Notice, Target
 from rhofollow.io.catalogue import PHYSICAL_RANGES
 from rhofollow.physics import stars as st
 from rhofollow.physics.eccentricity import HypothesisSetup, Obs, StarPool, TransitObservables
@@ -55,10 +55,11 @@ def _obs(t: Target, key: str, warnings: list, scale: float = 1.0, required=True)
         frac = DEFAULT_FRACTIONAL_ERRORS.get(key)
         if frac is not None:
             lo = hi = abs(m.value) * frac
-            warnings.append(f"no uncertainty for '{key}'; assumed ±{100 * frac:.3g} %")
+            warnings.append(Notice(f"no uncertainty for '{key}'; assumed ±{100 * frac:.3g} %", "assumed",
+                                   t.name))
         elif DEFAULT_ABSOLUTE_ERRORS.get(key) is not None:
             lo = hi = DEFAULT_ABSOLUTE_ERRORS[key]
-            warnings.append(f"no uncertainty for '{key}'; assumed ±{lo:g}")
+            warnings.append(Notice(f"no uncertainty for '{key}'; assumed ±{lo:g}", "assumed", t.name))
     lo = lo if lo > 0 else hi
     hi = hi if hi > 0 else lo
     return Obs(m.value * scale, lo * scale, hi * scale)
@@ -96,10 +97,11 @@ def _circular_density_routes(t: Target, period: Obs, k: Obs, rng, n, warnings) -
     p = _draw(rng, n, period, lower=0)
     kk = _draw(rng, n, k if k is not None else DEFAULT_RADIUS_RATIO, lower=0, upper=1)
     if t.has("t14_h") and (t.has("t23_h") or t.has("b")) and k is None:
-        warnings.append("t14_h is given without rp_rs or depth_ppm: the duration route needs the radius "
-                        "ratio and is skipped")
+        warnings.append(Notice("t14_h is given without rp_rs or depth_ppm: the duration route needs the "
+                               "radius ratio and is skipped", "input", t.name))
     elif t.has("t14_h") and not (t.has("t23_h") or t.has("b")):
-        warnings.append("t14_h is given without t23_h or b: the duration route is skipped")
+        warnings.append(Notice("t14_h is given without t23_h or b: the duration route is skipped", "input",
+                               t.name))
     if t.has("t14_h") and (t.has("t23_h") or t.has("b")) and k is not None:
         t14 = _draw(rng, n, _obs(t, "t14_h", warnings, HOURS), lower=0)
         if t.has("t23_h"):
@@ -168,15 +170,15 @@ def _star_pool(t: Target, rng, n, warnings) -> tuple[StarPool, str, dict]:
             mstar = other[1]
         else:
             mstar = st.mass_from_density_ms(rho)
-            warnings.append("no stellar mass route; mass estimated from the density with a main-sequence "
-                            "relation (rough, affects K)")
+            warnings.append(Notice("no stellar mass route; mass estimated from the density with a "
+                                   "main-sequence relation (rough, affects K)", "assumed", t.name))
         rstar = np.cbrt(mstar / (rho / st.RHO_SUN_CGS))
     else:
         rho, mstar, rstar = candidates[route]
     return StarPool(rho, mstar, rstar, teff), labels[route], medians
 
 
-def _disagreement(medians: dict[str, Obs], what: str, warnings: list, threshold: float = 3.0):
+def _disagreement(medians: dict[str, Obs], what: str, warnings: list, name: str, threshold: float = 3.0):
     keys = list(medians)
     for i in range(len(keys)):
         for j in range(i + 1, len(keys)):
@@ -184,8 +186,9 @@ def _disagreement(medians: dict[str, Obs], what: str, warnings: list, threshold:
             s = math.hypot(0.5 * (a.lo + a.hi), 0.5 * (b.lo + b.hi))
             z = abs(a.value - b.value) / s if s > 0 else 0.0
             if z > threshold:
-                warnings.append(f"{what} routes disagree: {keys[i]} gives {math.exp(a.value):.3g}, "
-                                f"{keys[j]} gives {math.exp(b.value):.3g} g/cm^3 ({z:.1f} sigma)")
+                warnings.append(Notice(f"{what} routes disagree: {keys[i]} gives {math.exp(a.value):.3g}, "
+                                       f"{keys[j]} gives {math.exp(b.value):.3g} g/cm^3 ({z:.1f} sigma)",
+                                       "input", name))
 
 
 
@@ -229,7 +232,8 @@ def _epoch(t: Target, warnings: list) -> tuple[Obs, Obs]:
         period = Obs(period.value, 0.0, 0.0)
     t0m = t.get("t0_bjd")
     if t0m is None or not t0m.has_error:
-        warnings.append("no uncertainty for 't0_bjd'; the epoch is treated as exact")
+        warnings.append(Notice("no uncertainty for 't0_bjd'; the epoch is treated as exact", "assumed",
+                               t.name))
         t0 = Obs(t.value("t0_bjd"), 0.0, 0.0)
     else:
         t0 = Obs(t0m.value, t0m.err_lo or t0m.err_hi, t0m.err_hi or t0m.err_lo)
@@ -269,17 +273,17 @@ def read_row(t: Target, n: int, rng, warnings: list) -> RowInputs:
     b_circ = routes.pop("_b", None)
     if not routes:
         raise RowProblem("no transit-geometry route: give a_rs; or t14_h with t23_h or b; or rho_circ_cgs")
-    _disagreement({r: _ln_summary(v[0]) for r, v in routes.items()}, "circular-density", warnings)
+    _disagreement({r: _ln_summary(v[0]) for r, v in routes.items()}, "circular-density", warnings, t.name)
     star, star_label, star_medians = _star_pool(t, rng, n, warnings)
-    _disagreement(star_medians, "stellar-density", warnings)
+    _disagreement(star_medians, "stellar-density", warnings, t.name)
 
     contam = t.value("contam_frac", 0.0)
     contam = 0.0 if not math.isfinite(contam) else contam
     if k_assumed:
         k = DEFAULT_RADIUS_RATIO
-        warnings.append(f"no radius ratio (rp_rs or depth_ppm): Rp/R* = {k.value:g} +- {k.lo:g} assumed; "
-                        "the density route does not need it, but the occultation depth and durations and "
-                        "the planet radius behind K are rough")
+        warnings.append(Notice(f"no radius ratio (rp_rs or depth_ppm): Rp/R* = {k.value:g} +- {k.lo:g} "
+                               "assumed; the density route does not need it, but the occultation depth and "
+                               "durations and the planet radius behind K are rough", "assumed", t.name))
     route, obs = _transit_observables(t, routes, period, t0, k, 1 / (1 - contam), b_circ, warnings)
     rho_circ_draws, rho_circ_label = routes.get("durations") or routes.get("a_rs") or routes.get("rho_circ")
     return RowInputs(obs, star, star_label, route, rho_circ_draws, rho_circ_label, k_assumed)

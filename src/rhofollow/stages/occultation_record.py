@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from rhofollow.core.samples import QUANTILE_LEVELS, SampleSet, quantile_dict, reliability
+from rhofollow.core.types import Notice
 from rhofollow.physics.kepler import transit_to_occultation_time
 from rhofollow.physics.occultation import (eclipse_durations, light_travel_delay, occultation_impact_parameter,
                                            occultation_occurs, separation_at_occultation)
@@ -26,7 +27,7 @@ __all__ = ["target_record"]
 _DAY_H = 24.0
 
 
-def _epoch_error_warnings(s: SampleSet, target) -> list[str]:
+def _epoch_error_warnings(s: SampleSet, target) -> list[Notice]:
     msgs = []
     for col, key in (("t0", "t0_bjd"), ("period", "period_d")):
         m = target.get(key) if target is not None else None
@@ -35,8 +36,8 @@ def _epoch_error_warnings(s: SampleSet, target) -> list[str]:
         else:
             missing = float(np.ptp(getattr(s, col))) == 0.0
         if missing:
-            msgs.append(f"{key} has no uncertainty: treated as exact (error zero), so the windows "
-                        "hold only the orbit uncertainty")
+            msgs.append(Notice(f"{key} has no uncertainty: treated as exact (error zero), so the windows "
+                               "hold only the orbit uncertainty", "assumed", s.name))
     return msgs
 
 
@@ -48,6 +49,7 @@ def _empty_q():
 class _Occulting:
     """The samples that occult, with their normalised weights and timing (days)."""
 
+    name: str            # the target
     i: np.ndarray        # indices into the SampleSet
     wi: np.ndarray       # weights, sum 1
     e: np.ndarray
@@ -71,9 +73,10 @@ def _timing(s: SampleSet, occ: np.ndarray, warn: list) -> _Occulting:
     ltt = light_travel_delay(a_rs, s.rstar[i], inc, e, om)
     lt_ok = np.isfinite(ltt)
     if not lt_ok.all():
-        warn.append("stellar radius unknown for some samples: light-travel delay left out there")
+        warn.append(Notice("stellar radius unknown for some samples: light-travel delay left out there",
+                           "occultation", s.name))
         ltt = np.where(lt_ok, ltt, 0.0)
-    return _Occulting(i, wi, e, om, per, a_rs, inc, k, dt, ltt, s.t0[i] + dt + ltt)
+    return _Occulting(s.name, i, wi, e, om, per, a_rs, inc, k, dt, ltt, s.t0[i] + dt + ltt)
 
 
 def _durations(o: _Occulting, opts, rec: dict, warn: list) -> None:
@@ -87,8 +90,8 @@ def _durations(o: _Occulting, opts, rec: dict, warn: list) -> None:
     ok14 = np.isfinite(t14)
     bad_frac = 1.0 - wsub[ok14].sum() / wsub.sum()
     if 0.001 <= bad_frac < 1.0:
-        warn.append(f"{100 * bad_frac:.1f}% of the occulting samples have orbits that graze the "
-                    "star at periastron: no duration for them")
+        warn.append(Notice(f"{100 * bad_frac:.1f}% of the occulting samples have orbits that graze the "
+                           "star at periastron: no duration for them", "occultation", o.name))
     rec["occ_phase"] = quantile_dict((o.dt + o.ltt) / o.per, o.wi)
     rec["occ_offset_d"] = quantile_dict(o.dt + o.ltt, o.wi)
     rec["occ_duration_h"] = quantile_dict(t14[ok14], wsub[ok14], _DAY_H)
@@ -105,7 +108,7 @@ def _depth(s: SampleSet, o: _Occulting, opts, lam, resp, warn: list) -> dict:
         depth = occultation_depth(o.k, teff, r_occ, lam, resp, opts.bond_albedo,
                                   opts.redistribution, opts.geometric_albedo)
         return quantile_dict(depth, o.wi, 1e6)
-    warn.append("stellar Teff unknown: occultation depth not computed")
+    warn.append(Notice("stellar Teff unknown: occultation depth not computed", "occultation", s.name))
     return _empty_q()
 
 
@@ -153,22 +156,24 @@ def target_record(s: SampleSet, target, opts, start_bjd: float, end_bjd: float, 
     if not rec["reliable"]:
         rec["reliability_note"] = why
     if not p_occ > 0.0:
-        warn.append("no posterior sample gives an occultation (the planet always passes outside "
-                    "the stellar disc): no events listed")
+        warn.append(Notice("no posterior sample gives an occultation (the planet always passes outside "
+                           "the stellar disc): no events listed", "occultation", s.name))
         rec.update(occ_phase=_empty_q(), occ_duration_h=_empty_q(), occ_full_duration_h=_empty_q(),
                    b_occ=_empty_q(), depth_ppm=_empty_q(), events=[])
         return rec, warn
     if p_occ < 0.99:
-        warn.append(f"the occultation is missed in {100 * (1 - p_occ):.1f}% of the posterior "
-                    "(grazing or passing outside the disc); timing and depth are for the rest")
+        warn.append(Notice(f"the occultation is missed in {100 * (1 - p_occ):.1f}% of the posterior "
+                           "(grazing or passing outside the disc); timing and depth are for the rest",
+                           "occultation", s.name))
     o = _timing(s, occ, warn)
     _durations(o, opts, rec, warn)
     rec["b_occ"] = quantile_dict(occultation_impact_parameter(o.a_rs, o.inc, o.e, o.om), o.wi)
     if rec["occ_duration_h"]["q50"] is None:
         # Every occulting orbit grazes the star at periastron (for example a posterior piled up at
         # e ~ 0.99 on a short period): no duration, so no window can be drawn around the events.
-        warn.append("no occulting sample has an occultation duration (every such orbit grazes the "
-                    "star at periastron): duration, depth and windows not available")
+        warn.append(Notice("no occulting sample has an occultation duration (every such orbit grazes the "
+                           "star at periastron): duration, depth and windows not available", "occultation",
+                           s.name))
         rec.update(depth_ppm=_empty_q(), events=[])
         return rec, warn
     rec["light_travel_s"] = float(np.sum(o.wi * o.ltt) * 86400.0)
