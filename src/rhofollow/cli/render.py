@@ -50,7 +50,10 @@ def message(text, kind: str | None = None, *, to_stdout: bool = False, style: st
         rich style of the text.
     """
     from rhofollow.cli.common import console, err_console
+    from rhofollow.core.timescales import first_on_terminal
 
+    if kind == "notice" and not first_on_terminal(str(text)):
+        return   # the offline-tables notice: in every document that needs it, on the terminal once a run
     line = Text()
     if kind:
         line.append(f"{kind}:", style=KIND_STYLES.get(kind, "bold"))

@@ -4,7 +4,7 @@ A catalogue row becomes a :class:`Target`: canonical column names (as in DESIGN.
 unit suffixes, e.g. ``period_d``, ``t14_h``, ``rho_star_cgs``) mapped to :class:`Measurement`.
 Values are already converted to the unit the suffix names. Measured radial velocities of one
 target travel as one :class:`RVSeries`, whether they come from an RV file
-(:mod:`rhofollow.io.rvdata`) or from the ledger.
+(:mod:`rhofollow.io.rvdata`) or from the ledger. A stage's warning is a :class:`Notice`.
 """
 from __future__ import annotations
 
@@ -13,7 +13,65 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["Measurement", "Target", "RowIssue", "CatalogueResult", "RVSeries"]
+__all__ = ["Measurement", "Target", "RowIssue", "CatalogueResult", "RVSeries", "Notice", "NOTICE_KINDS"]
+
+#: What a :class:`Notice` is about.
+NOTICE_KINDS = {
+    "assumed": "a value or error the input did not give was assumed",
+    "input": "the input is incomplete or inconsistent (a route skipped, routes that disagree)",
+    "sampling": "the posterior samples are few or noisy",
+    "finding": "the assessment's finding calls for a check",
+    "occultation": "the occultation prediction is partial (missed, grazing, no depth)",
+    "offline_tables": "times lie past the installed Earth-orientation or leap-second tables",
+}
+
+
+class Notice(str):
+    """A stage's warning: its text, with what it is about and the target it concerns.
+
+    A ``str`` subclass, so that every consumer of the warning lists (JSON, CSV cells, the terminal,
+    ``in`` tests on the text) sees exactly today's text; the kind and the target travel with it.
+    Immutable, and pickled with both (process pools, dask).
+
+    Parameters
+    ----------
+    text : str
+        The message, as printed and written.
+    kind : str
+        One of :data:`NOTICE_KINDS`.
+    target : str
+        The target's name ("" for a run-level notice).
+
+    Raises
+    ------
+    ValueError
+        An unknown ``kind``.
+    """
+
+    def __new__(cls, text: str, kind: str, target: str = ""):
+        if kind not in NOTICE_KINDS:
+            raise ValueError(f"unknown notice kind {kind!r}; known: {', '.join(NOTICE_KINDS)}")
+        self = super().__new__(cls, text)
+        object.__setattr__(self, "kind", kind)
+        object.__setattr__(self, "target", str(target))
+        return self
+
+    def __setattr__(self, name, value):
+        raise AttributeError("a Notice is immutable")
+
+    def __reduce__(self):
+        return (Notice, (str(self), self.kind, self.target))
+
+    @property
+    def text(self) -> str:
+        """The message.
+
+        Returns
+        -------
+        str
+            The plain text (what ``str()`` gives).
+        """
+        return str(self)
 
 
 @dataclass(frozen=True)
@@ -26,12 +84,24 @@ class Measurement:
 
     @property
     def has_error(self) -> bool:
-        """True when either side of the error is non-zero."""
+        """Whether the measurement has an error.
+
+        Returns
+        -------
+        bool
+            True when either side of the error is non-zero.
+        """
         return self.err_lo > 0 or self.err_hi > 0
 
     @property
     def err(self) -> float:
-        """Symmetrised 1-sigma error (mean of the two sides)."""
+        """Symmetrised 1-sigma error.
+
+        Returns
+        -------
+        float
+            Mean of the two sides, in the value's unit.
+        """
         return 0.5 * (self.err_lo + self.err_hi)
 
 
@@ -50,15 +120,50 @@ class Target:
     warnings: list[str] = field(default_factory=list)
 
     def has(self, *keys: str) -> bool:
-        """True when every named column has a finite value."""
+        """Whether the row has every named column.
+
+        Parameters
+        ----------
+        *keys : str
+            Canonical column names.
+
+        Returns
+        -------
+        bool
+            True when every named column has a finite value.
+        """
         return all(k in self.values and math.isfinite(self.values[k].value) for k in keys)
 
     def get(self, key: str) -> Measurement | None:
-        """The measurement of a column, or None."""
+        """The measurement of a column.
+
+        Parameters
+        ----------
+        key : str
+            Canonical column name.
+
+        Returns
+        -------
+        Measurement or None
+            In the unit the column's suffix names; None when the row lacks the column.
+        """
         return self.values.get(key)
 
     def value(self, key: str, default: float = math.nan) -> float:
-        """The value of a column in the unit its suffix names (``default`` when absent)."""
+        """The value of a column in the unit its suffix names.
+
+        Parameters
+        ----------
+        key : str
+            Canonical column name.
+        default : float
+            Returned when the row lacks the column.
+
+        Returns
+        -------
+        float
+            The value (possibly NaN for an empty cell).
+        """
         m = self.values.get(key)
         return m.value if m is not None else default
 
@@ -92,22 +197,46 @@ class CatalogueResult:
 
     @property
     def errors(self) -> list[RowIssue]:
-        """Issues that skipped a row (or rejected the file)."""
+        """Issues that skipped a row (or rejected the file).
+
+        Returns
+        -------
+        list of RowIssue
+            Those of severity "error".
+        """
         return [i for i in self.issues if i.severity == "error"]
 
     @property
     def n_failed(self) -> int:
-        """Number of data rows skipped."""
+        """Number of data rows skipped.
+
+        Returns
+        -------
+        int
+            Distinct data rows among the errors (file- and column-level errors not counted).
+        """
         return len({i.row for i in self.errors if i.row > 0})  # row 0 = file/column level
 
     @property
     def warnings(self) -> list[RowIssue]:
-        """Issues of rows that were kept."""
+        """Issues of rows that were kept.
+
+        Returns
+        -------
+        list of RowIssue
+            Those of severity "warning".
+        """
         return [i for i in self.issues if i.severity == "warning"]
 
     @property
     def ok(self) -> bool:
-        """True when no issue is an error."""
+        """Whether the catalogue read without error.
+
+        Returns
+        -------
+        bool
+            True when no issue is an error.
+        """
         return not self.errors
 
 
@@ -118,6 +247,7 @@ class RVSeries:
     Attributes
     ----------
     target : str
+        The target's name.
     bjd_tdb : ndarray (N,)
         Mid-exposure times, BJD_TDB (days).
     rv_ms, rv_err_ms : ndarray (N,)
@@ -140,15 +270,33 @@ class RVSeries:
 
     @property
     def n(self) -> int:
-        """Number of RVs."""
+        """Number of RVs.
+
+        Returns
+        -------
+        int
+            N.
+        """
         return len(self.bjd_tdb)
 
     @property
     def instruments(self) -> list[str]:
-        """Instrument names in order of first appearance."""
+        """Instrument names in order of first appearance.
+
+        Returns
+        -------
+        list of str
+            Each name once.
+        """
         return list(dict.fromkeys(self.instrument.tolist()))
 
     def groups(self) -> np.ndarray:
-        """Integer instrument index per RV, in order of first appearance (for per-instrument offsets)."""
+        """Integer instrument index per RV, in order of first appearance (for per-instrument offsets).
+
+        Returns
+        -------
+        ndarray (N,) of int
+            Index into :attr:`instruments`.
+        """
         names = self.instruments
         return np.array([names.index(i) for i in self.instrument], dtype=int)

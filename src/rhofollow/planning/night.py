@@ -21,6 +21,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from rhofollow.core.timescales import bjd_minus_jd  # noqa: F401  (its home; importable from here)
 from rhofollow.planning.scheduler import Schedule, schedule
 from rhofollow.planning.tasks import ValueModel, VisGrid, ecc_evidence, jd_to_iso, occultation_tasks, rv_task
 
@@ -264,27 +265,6 @@ def science_from_records(assessments, occ_records: list[dict] | None, rv_records
         e["ra_deg"], e["dec_deg"] = ra, dec
         entries.append(e)
     return entries, skipped
-
-
-def bjd_minus_jd(ra_deg, dec_deg, jd_utc: float, location) -> np.ndarray:
-    """BJD_TDB - JD_UTC (days) for targets at one UTC time seen from ``location``.
-
-    The barycentric light-travel correction (astropy ``Time.light_travel_time``) plus TDB - UTC.
-    Over one night it changes by under a second, so one value per target and night is used.
-    """
-    import astropy.units as u
-    from astropy.coordinates import SkyCoord
-    from astropy.time import Time
-
-    from rhofollow.core.timescales import astropy_quietly, configure_offline
-
-    configure_offline()
-    ra = np.atleast_1d(np.asarray(ra_deg, dtype=float))
-    dec = np.atleast_1d(np.asarray(dec_deg, dtype=float))
-    with astropy_quietly():
-        t = Time(np.full(ra.shape, float(jd_utc)), format="jd", scale="utc", location=location)
-        ltt = t.light_travel_time(SkyCoord(ra * u.deg, dec * u.deg), kind="barycentric")
-        return (t.tdb.jd - t.utc.jd) + ltt.to_value(u.day)
 
 
 def night_visibility(engine, night, entries: list[dict], location=None) -> VisGrid:

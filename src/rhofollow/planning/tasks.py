@@ -24,10 +24,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from datetime import datetime, timezone
 
 import numpy as np
 
+from rhofollow.core.timescales import iso_to_jd, jd_to_iso  # noqa: F401  (their home; importable from here)
 from rhofollow.planning.funding import funding_refusal, mid_time_cdf, whole_catch_probability
 from rhofollow.planning.scheduler import FixedTask, FlexibleTask
 from rhofollow.planning.values import ValueModel, airmass_factor, ecc_evidence, phase_weight, record_number
@@ -37,26 +37,6 @@ from rhofollow.planning.visgrid import VisGrid
 # importable from here, where the planners and tests have always imported them.
 __all__ = ["VisGrid", "ValueModel", "iso_to_jd", "jd_to_iso", "airmass_factor", "phase_weight",
            "ecc_evidence", "occultation_tasks", "rv_task", "visible_windows", "Skip"]
-
-_MJD0 = datetime(1858, 11, 17, tzinfo=timezone.utc)
-
-
-def iso_to_jd(s) -> float:
-    """ISO-8601 UTC string (or datetime, or float JD passed through) -> Julian Date (UTC scale)."""
-    if isinstance(s, (int, float, np.floating)):
-        return float(s)
-    dt = s if isinstance(s, datetime) else datetime.fromisoformat(str(s).strip().replace("Z", "+00:00"))
-    if dt.tzinfo is None:
-        dt = dt.replace(tzinfo=timezone.utc)
-    return (dt - _MJD0).total_seconds() / 86400.0 + 2400000.5
-
-
-def jd_to_iso(jd: float) -> str:
-    """Julian Date (UTC scale) -> ISO-8601 string ``YYYY-MM-DDTHH:MM:SSZ`` (rounded to the second)."""
-    from datetime import timedelta
-
-    dt = _MJD0 + timedelta(seconds=round((float(jd) - 2400000.5) * 86400.0))
-    return dt.strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
 def _failure(exc: BaseException) -> str:

@@ -55,8 +55,19 @@ ENVELOPE_KEYS = ("command", "catalogue", "seed", "n_rows", "n_rows_failed", "n_r
 
 
 def issue_dict(issue) -> dict:
-    """A catalogue :class:`~rhofollow.core.types.RowIssue` as ``{file, row, column, reason, name}``
-    (``row`` is the 1-based data row, 0 for the header or the whole file)."""
+    """A catalogue row problem as the JSON envelope lists it.
+
+    Parameters
+    ----------
+    issue : RowIssue
+        A problem the catalogue reader found (:class:`~rhofollow.core.types.RowIssue`).
+
+    Returns
+    -------
+    dict
+        ``{file, row, column, reason, name}``; ``row`` is the 1-based data row, 0 for the header
+        or the whole file; a missing column or name is "".
+    """
     return {"file": str(issue.source), "row": int(issue.row), "column": issue.column or "",
             "reason": issue.reason, "name": issue.name or ""}
 
@@ -66,6 +77,17 @@ def target_record(rec: dict) -> dict:
 
     ``ok`` becomes false whenever ``errors`` is not empty, and a record marked not ok without a reason
     gets one, so that ``ok == (errors == [])`` holds for every target of every command.
+
+    Parameters
+    ----------
+    rec : dict
+        A stage's record of one target, with at least ``name``.
+
+    Returns
+    -------
+    dict
+        The contract keys first (errors and warnings as strings, repeated warnings once), then every
+        other key of ``rec`` unchanged.
     """
     out = dict(rec)
     errors = [str(e) for e in (rec.get("errors") or [])]
@@ -85,6 +107,20 @@ def merge_stage_records(names, *stages, extra_warnings: dict | None = None) -> l
     (first occurrence kept). ``stages`` are lists of dicts with ``name``/``ok``/``errors``/``warnings``;
     a stage that has no record for a name does not count. ``extra_warnings`` maps a name to more
     warnings (e.g. a target that never rises at the site).
+
+    Parameters
+    ----------
+    names : iterable of str
+        The targets, in output order.
+    *stages : list of dict or None
+        Each stage's records.
+    extra_warnings : dict or None
+        Target name -> list of further warnings.
+
+    Returns
+    -------
+    list of dict
+        ``{"name", "ok", "errors", "warnings"}`` per name, in the order of ``names``.
     """
     by_stage = [{r["name"]: r for r in recs or []} for recs in stages]
     out = []
@@ -115,7 +151,18 @@ def _catalogue_parts(catalogue):
 
 
 def exit_status(doc: dict) -> int:
-    """The exit status of an envelope: 1 when any row or target failed, else 0."""
+    """The exit status of an envelope: 1 when any row or target failed, else 0.
+
+    Parameters
+    ----------
+    doc : dict
+        An envelope with ``n_row_errors`` and ``n_targets_failed``.
+
+    Returns
+    -------
+    int
+        :data:`EXIT_FAILED` or :data:`EXIT_OK`.
+    """
     return EXIT_FAILED if doc["n_row_errors"] or doc["n_targets_failed"] else EXIT_OK
 
 
@@ -125,16 +172,38 @@ def envelope(command: str, *, catalogue=None, seed=None, targets=(), skipped=(),
 
     Parameters
     ----------
-    command : the command name (``"assess"``, ``"night"``, ``"log update"``, ...)
-    catalogue : :class:`~rhofollow.core.types.CatalogueResult` (gives the path, ``n_rows`` and
-        the row problems), a path, or None for a command that reads no catalogue
-    seed : the run seed (None for commands without random draws)
-    targets : per-target dicts with at least ``name``; ``ok``/``errors``/``warnings`` are normalised
-        by :func:`target_record`, every other key is kept
-    skipped : ``{"name", "reason"}`` items left out; entries naming a failed target are dropped
-        (the failure is in that target's ``errors``)
-    payload : the command's own keys, added after the envelope keys (must not reuse them)
-    row_errors, n_rows : override what ``catalogue`` gives (row errors as dicts)
+    command : str
+        The command name (``"assess"``, ``"night"``, ``"log update"``, ...).
+    catalogue : CatalogueResult, path or None
+        :class:`~rhofollow.core.types.CatalogueResult` (gives the path, ``n_rows`` and the row
+        problems), a path, or None for a command that reads no catalogue.
+    seed : int or None
+        The run seed (None for commands without random draws).
+    targets : iterable of dict
+        Per-target dicts with at least ``name``; ``ok``/``errors``/``warnings`` are normalised by
+        :func:`target_record`, every other key is kept.
+    skipped : iterable of dict
+        ``{"name", "reason"}`` items left out; entries naming a failed target are dropped (the
+        failure is in that target's ``errors``).
+    payload : dict or None
+        The command's own keys, added after the envelope keys (must not reuse them).
+    caution : str
+        The caution text the document carries.
+    row_errors : list of dict or None
+        Row errors overriding what ``catalogue`` gives.
+    n_rows : int or None
+        Number of data rows overriding what ``catalogue`` gives.
+
+    Returns
+    -------
+    dict
+        The envelope keys (:data:`ENVELOPE_KEYS`, in order; counts equal their lists' lengths) and
+        then the payload.
+
+    Raises
+    ------
+    ValueError
+        A payload key is an envelope key.
     """
     path, rows, errs, warns = _catalogue_parts(catalogue)
     if row_errors is not None:

@@ -2,13 +2,8 @@
 occultation timings and non-detections, and store the new posterior version.
 
 The density-based samples (from :mod:`rhofollow.stages.assess`) are the prior; each measurement adds a
-log-likelihood per sample:
-
-* RVs: :func:`rhofollow.physics.rvupdate.rv_log_likelihood` (per-instrument offsets and K > 0
-  marginalised analytically, jitter in quadrature);
-* a measured occultation mid-time: :func:`rhofollow.physics.occultation_timing.timing_log_like`;
-* a non-detection over a window: :func:`rhofollow.physics.occultation_timing.non_detection_log_like`
-  with each sample's predicted depth in the observation's band.
+log-likelihood per sample (:mod:`rhofollow.stages.update_likelihood`, whose names stay importable
+from here): RVs, measured occultation mid-times, and non-detections over a window.
 """
 from __future__ import annotations
 
@@ -19,21 +14,18 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from rhofollow.io.ledger import Ledger, OccultationTiming
-from rhofollow.core.types import Measurement, RVSeries, Target
-from rhofollow.physics import occultation_timing as ot
+from rhofollow.io.ledger import Ledger
+from rhofollow.core.types import Measurement, Target
 from rhofollow.core.samples import SampleSet, quantile_dict
 from rhofollow.core.defaults import DEFAULT_SAMPLES, DEFAULT_SEED
 from rhofollow.errors import LedgerError
+from rhofollow.stages.update_likelihood import (CONFLICT_SIGMA, DEFAULT_BAND_UM, data_log_like,  # noqa: F401
+                                                occultation_log_like, rv_log_like)
 
 __all__ = ["LedgerUpdate", "LedgerUpdateError", "DEFAULT_BAND_UM", "rv_log_like",
            "occultation_log_like", "posterior_summary", "update_from_ledger", "data_log_like",
            "target_from_catalogue_row", "update_targets", "apply_to_assessments", "MIN_ESS_WARNING", "CONFLICT_SIGMA"]
 
-#: Band assumed for a non-detection recorded without one (microns); each use is a warning.
-DEFAULT_BAND_UM = 4.5
-#: A measured occultation time further than this (in its own sigmas) from every sample warns.
-CONFLICT_SIGMA = 5.0
 #: Below this effective sample size an update warns that more samples are needed.
 MIN_ESS_WARNING = 200.0
 #: Below this effective sample size after re-weighting, the posterior is drawn afresh with the data.
@@ -62,80 +54,29 @@ class LedgerUpdate:
 
     @property
     def ess(self) -> float:
+        """Kish effective sample size of the updated samples.
+
+        Returns
+        -------
+        float
+            Effective number of samples.
+        """
         return self.samples.ess
 
     def record(self) -> dict:
-        """JSON record (name, ok, errors, warnings, and the posterior summary)."""
+        """JSON record (name, ok, errors, warnings, and the posterior summary).
+
+        Returns
+        -------
+        dict
+            ``name``, ``ok``, ``errors``, ``warnings``, ``prior_ess`` (samples), the measurement
+            counts, ``source_hash``, ``stored_new_version`` and :func:`posterior_summary`'s keys.
+        """
         return {"name": self.target, "ok": True, "errors": [], "warnings": list(self.warnings),
                 "prior_ess": self.prior_ess, "n_rv": self.n_rv,
                 "n_occ_detections": self.n_detections,
                 "n_occ_non_detections": self.n_non_detections, "source_hash": self.source_hash,
                 "stored_new_version": self.stored, **self.summary}
-
-
-def rv_log_like(samples: SampleSet, rvs: RVSeries, *, jitter_ms: float = 0.0) -> np.ndarray:
-    """RV log-likelihood per sample (zeros without RVs).
-
-    Parameters
-    ----------
-    samples : SampleSet
-        Posterior samples (period in days, t0 BJD_TDB, e, omega in radians).
-    rvs : RVSeries
-        The target's RVs (BJD_TDB days, m/s), e.g. :meth:`Ledger.rv_series`.
-    jitter_ms : float
-        Stellar jitter added in quadrature (m/s).
-
-    Returns
-    -------
-    ndarray (S,)
-        One log-likelihood per sample; instruments get offsets indexed in name order.
-    """
-    if not rvs.n:
-        return np.zeros(samples.n)
-    from rhofollow.physics.rvupdate import rv_log_likelihood
-
-    names = rvs.instrument.tolist()
-    insts = sorted(set(names))
-    groups = np.array([insts.index(i) for i in names])
-    return rv_log_likelihood(rvs.bjd_tdb, rvs.rv_ms, rvs.rv_err_ms, groups, samples.period,
-                             samples.t0, samples.e, samples.omega, jitter_ms=jitter_ms)
-
-
-def occultation_log_like(samples: SampleSet, timings: list[OccultationTiming], *,
-                         threshold_sigma: float = 3.0, depth_kw: dict | None = None
-                         ) -> tuple[np.ndarray, np.ndarray, list[str]]:
-    """Log-likelihoods per sample of the detections and of the non-detections, and warnings."""
-    s = samples
-    geom = dict(a_rs=s.a_rs, rstar=s.rstar, inc=s.inc, k=s.k)
-    ll_det = np.zeros(s.n)
-    ll_non = np.zeros(s.n)
-    warnings: list[str] = []
-    for o in timings:
-        if o.kind == "detection":
-            ll = ot.timing_log_like(s.t0, s.period, s.e, s.omega, o.mid_bjd_tdb, o.mid_err_d,
-                                    **geom)
-            best = np.max(np.where(s.weights > 0, ll, -np.inf))
-            if best < -0.5 * CONFLICT_SIGMA**2:
-                warnings.append(f"no posterior sample predicts the occultation at "
-                                f"{o.mid_bjd_tdb} BJD_TDB within {CONFLICT_SIGMA:.0f} sigma; the "
-                                "timing conflicts with the posterior (check the ephemeris)")
-            ll_det += ll
-            continue
-        band = o.band_um
-        if band is None:
-            band = DEFAULT_BAND_UM
-            warnings.append(f"non-detection {o.window_start_bjd_tdb}-{o.window_end_bjd_tdb} has no "
-                            f"band; its depth was predicted at {DEFAULT_BAND_UM} micron")
-        depth = ot.predicted_depth_ppm(s.k, s.a_rs, s.e, s.omega, s.teff, band,
-                                       **(depth_kw or {}))
-        if not np.any(np.isfinite(depth)):
-            warnings.append(f"non-detection {o.window_start_bjd_tdb}-{o.window_end_bjd_tdb} "
-                            "ignored: the stellar Teff is unknown, so no depth can be predicted")
-            continue
-        ll_non += ot.non_detection_log_like(s.t0, s.period, s.e, s.omega, o.window_start_bjd_tdb,
-                                            o.window_end_bjd_tdb, depth, o.depth_limit_ppm,
-                                            threshold_sigma=threshold_sigma, **geom)
-    return ll_det, ll_non, warnings
 
 
 def _failure(exc: BaseException) -> str:
@@ -144,7 +85,19 @@ def _failure(exc: BaseException) -> str:
 
 
 def posterior_summary(samples: SampleSet) -> dict:
-    """Quantiles of e, e cos omega, e sin omega, P(e < 0.05), N and ESS of a sample set."""
+    """Quantiles of e, e cos omega, e sin omega, P(e < 0.05), N and ESS of a sample set.
+
+    Parameters
+    ----------
+    samples : SampleSet
+        Weighted posterior samples (omega in radians).
+
+    Returns
+    -------
+    dict
+        ``n_samples``, ``ess`` (samples), ``reliable`` (and ``reliability_note``), quantiles of
+        ``ecc``, ``ecosw``, ``esinw`` (dimensionless) and ``p_ecc_below_0p05`` (probability).
+    """
     s = samples
     w = s.weights
     from rhofollow.core.samples import reliability
@@ -170,19 +123,20 @@ def _source_hash(samples: SampleSet, rvs, timings, settings: dict) -> str:
     return h.hexdigest()
 
 
-def data_log_like(name: str, rvs, timings, *, jitter_ms: float = 0.0, threshold_sigma: float = 3.0):
-    """The ledger data's log-likelihood as a function of the sampler's physical arrays (for
-    :func:`rhofollow.stages.assess.assess_target`'s ``extra_loglike``)."""
-    from rhofollow.core.samples import SAMPLE_COLUMNS
+def _drawn_afresh(target: Target, n: int, reweighted: SampleSet, loglike, prior, seed: int,
+                  warnings: list) -> SampleSet:
+    """The posterior drawn afresh with the data in the sampler's likelihood, when that gives more
+    effective samples than re-weighting did (``reweighted``); else ``reweighted``."""
+    from rhofollow.stages.assess import assess_target
 
-    def f(aux: dict) -> np.ndarray:
-        m = len(aux["e"])
-        s = SampleSet(name=name, weights=np.ones(m), **{c: aux[c] for c in SAMPLE_COLUMNS})
-        ll = rv_log_like(s, rvs, jitter_ms=jitter_ms)
-        det, non, _ = occultation_log_like(s, timings, threshold_sigma=threshold_sigma)
-        return ll + det + non
-
-    return f
+    kw = {} if prior is None else {"prior": prior}
+    fresh = assess_target(target, n_samples=n, seed=seed, hypotheses=("eccentric",), extra_loglike=loglike, **kw)
+    if fresh.ok and fresh.samples is not None and fresh.samples.ess > reweighted.ess:
+        warnings.append(f"re-weighting left {reweighted.ess:.0f} effective samples; the posterior was drawn "
+                        f"afresh with the data in the likelihood (effective sample size "
+                        f"{fresh.samples.ess:.0f})")
+        return fresh.samples
+    return reweighted
 
 
 def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float = 0.0,
@@ -197,6 +151,35 @@ def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float =
 
     With ``store`` the summary is written as a posterior version (the same inputs twice add
     nothing: the version is keyed by a hash of the samples, the data and the settings).
+
+    Parameters
+    ----------
+    ledger : Ledger
+        The campaign ledger.
+    samples : SampleSet
+        The target's posterior (the prior of the update).
+    jitter_ms : float
+        Stellar jitter added in quadrature (m/s).
+    threshold_sigma : float
+        Detection threshold of a non-detection (sigmas).
+    store : bool
+        Write the summary as a posterior version.
+    target : Target or None
+        The catalogue row, needed to draw the posterior afresh.
+    prior : str, EccPrior or None
+        The eccentricity prior of a fresh draw (None: the default).
+    seed : int
+        The run seed of a fresh draw.
+
+    Returns
+    -------
+    LedgerUpdate
+        The updated samples, the log-likelihoods per sample, the summary and the warnings.
+
+    Raises
+    ------
+    LedgerUpdateError
+        The measurements exclude every sample.
     """
     name = samples.name
     rvs = ledger.rv_series(name)
@@ -210,17 +193,8 @@ def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float =
                                 "sample; check the data or draw more samples")
     new = samples.reweighted(total)
     if new.ess < RESAMPLE_ESS and target is not None:
-        from rhofollow.stages.assess import assess_target
-
-        kw = {} if prior is None else {"prior": prior}
-        fresh = assess_target(target, n_samples=samples.n, seed=seed, hypotheses=("eccentric",),
-                              extra_loglike=data_log_like(name, rvs, timings, jitter_ms=jitter_ms,
-                                                          threshold_sigma=threshold_sigma), **kw)
-        if fresh.ok and fresh.samples is not None and fresh.samples.ess > new.ess:
-            warnings.append(f"re-weighting left {new.ess:.0f} effective samples; the posterior was drawn "
-                            f"afresh with the data in the likelihood (effective sample size "
-                            f"{fresh.samples.ess:.0f})")
-            new = fresh.samples
+        loglike = data_log_like(name, rvs, timings, jitter_ms=jitter_ms, threshold_sigma=threshold_sigma)
+        new = _drawn_afresh(target, samples.n, new, loglike, prior, seed, warnings)
     if new.ess < MIN_ESS_WARNING:
         warnings.append(f"effective sample size fell to {new.ess:.0f} of {new.n}; the updated "
                         "posterior is noisy (draw more samples)")
@@ -245,7 +219,21 @@ def update_from_ledger(ledger: Ledger, samples: SampleSet, *, jitter_ms: float =
 
 
 def target_from_catalogue_row(name: str, row: dict) -> Target:
-    """Rebuild the catalogue :class:`Target` stored in the ledger (inverse of the ledger's JSON)."""
+    """Rebuild the catalogue :class:`Target` stored in the ledger (inverse of the ledger's JSON).
+
+    Parameters
+    ----------
+    name : str
+        The target.
+    row : dict
+        The ledger's stored row: ``values`` (column -> [value, err_lo, err_hi] in the reader's
+        units, None for NaN), ``row`` and ``source``.
+
+    Returns
+    -------
+    Target
+        The row as the catalogue reader gave it.
+    """
     def f(x):
         return math.nan if x is None else float(x)
     values = {k: Measurement(f(v[0]), f(v[1]), f(v[2])) for k, v in row["values"].items()}
@@ -258,8 +246,30 @@ def update_targets(ledger: Ledger, names: list[str] | None = None, *, n_samples:
                    ) -> list[dict]:
     """Assess each ledger target from its stored catalogue row, then re-weight with its data.
 
-    Returns one JSON record per target (``name``, ``ok``, ``errors``, ``warnings`` and the
-    summary); targets without a catalogue row are reported, not updated.
+    Targets without a catalogue row are reported, not updated.
+
+    Parameters
+    ----------
+    ledger : Ledger
+        The campaign ledger.
+    names : list of str or None
+        The targets (None: every ledger target).
+    n_samples : int
+        Posterior samples per target.
+    prior : str, EccPrior or None
+        The eccentricity prior (None: the default).
+    seed : int
+        The run seed.
+    jitter_ms : float
+        Stellar jitter added in quadrature (m/s).
+    store : bool
+        Write each summary as a posterior version.
+
+    Returns
+    -------
+    list of dict
+        One JSON record per target in the order of ``names`` (``name``, ``ok``, ``errors``,
+        ``warnings`` and the summary of :meth:`LedgerUpdate.record`).
     """
     from rhofollow.stages.assess import assess_catalogue
 
@@ -308,8 +318,25 @@ def apply_to_assessments(ledger: Ledger, assessments, *, jitter_ms: float = 0.0,
     occultation data in the ledger by the re-weighted samples, and add the update's warnings.
 
     Assessments that failed, or whose target has no measurements in the ledger, are left as they
-    are. A target whose data exclude every sample keeps its samples and gets a warning. Returns
-    the updates by target name.
+    are. A target whose data exclude every sample keeps its samples and gets a warning.
+
+    Parameters
+    ----------
+    ledger : Ledger
+        The campaign ledger.
+    assessments : list of Assessment
+        The planners' assessments (changed in place).
+    jitter_ms : float
+        Stellar jitter added in quadrature (m/s).
+    store : bool
+        Write each summary as a posterior version.
+    seed : int
+        The run seed of a fresh draw.
+
+    Returns
+    -------
+    dict
+        Target name -> :class:`LedgerUpdate`, for the targets that were updated.
     """
     out = {}
     for a in assessments:

@@ -29,6 +29,7 @@ import numpy as np
 
 from rhofollow.core.timescales import astropy_quietly, notice_if_beyond_tables
 from rhofollow.planning.visibility.frame import SiteFrame, radec_to_unit, unit_vectors  # noqa: F401 (re-exported)
+from rhofollow.core.timescales import datetime_to_jd, jd_to_datetime_utc  # noqa: F401  (their home)
 
 __all__ = ["NightGrid", "NightEphemeris", "SiteFrame", "SUNSET_ALTITUDE_DEG", "datetime_to_jd",
            "jd_to_datetime_utc", "interp_rows", "unit_vectors", "radec_to_unit", "compute_nights",
@@ -38,46 +39,10 @@ __all__ = ["NightGrid", "NightEphemeris", "SiteFrame", "SUNSET_ALTITUDE_DEG", "d
 #: REFERENCE.md section 12.
 SUNSET_ALTITUDE_DEG = -50.0 / 60.0
 
-_UNIX_EPOCH_JD = 2440587.5
 _SEARCH_STEP_MIN = 5.0  # bracketing grid for the Sun events
 _EDGE_MARGIN = 1.0 / 86400.0   # night boundaries are moved 1 s into the dark side
 _C_AU_PER_DAY = 299792.458 * 86400.0 / 149597870.700   # speed of light (exact) in au/day
 _BISECTIONS = 16        # 5 min / 2^16 < 0.01 s
-
-
-def datetime_to_jd(d: _dt.datetime) -> float:
-    """JD (UTC scale, days) of a timezone-aware datetime.
-
-    Parameters
-    ----------
-    d : datetime.datetime
-        Aware datetime (any time zone).
-
-    Returns
-    -------
-    float
-        Julian date, UTC scale, days.
-    """
-    if d.tzinfo is None:
-        raise ValueError("datetime must be timezone-aware")
-    return d.timestamp() / 86400.0 + _UNIX_EPOCH_JD
-
-
-def jd_to_datetime_utc(jd: float) -> _dt.datetime:
-    """Aware UTC datetime of a JD (UTC scale, days), rounded to the microsecond.
-
-    Parameters
-    ----------
-    jd : float
-        Julian date, UTC scale, days.
-
-    Returns
-    -------
-    datetime.datetime
-        The same instant, tzinfo UTC.
-    """
-    return (_dt.datetime(1970, 1, 1, tzinfo=_dt.timezone.utc)
-            + _dt.timedelta(microseconds=round((float(jd) - _UNIX_EPOCH_JD) * 86400e6)))
 
 
 @dataclass(frozen=True)
