@@ -226,3 +226,57 @@ def test_bad_moon_limit_gives_one_message(tmp_path):
     msg = str(ei.value)
     assert "min_moon_separation_deg" in msg and "-30" in msg and "0.0 to 180.0" in msg
     assert "min_moon_separation_new_deg" not in msg
+
+
+# One table renderer for every proposal table (io.safety.text_table). LaTeX's ten special characters
+# are those of the LaTeX manual's "special characters" list (common practice, no source).
+_LATEX_SPECIALS = set("\\&%$#_{}~^")
+
+
+def _unescape_latex(cell: str) -> str:
+    for esc, ch in ((r"\textbackslash{}", "\\"), (r"\textasciitilde{}", "~"), (r"\textasciicircum{}", "^")):
+        cell = cell.replace(esc, ch)
+    for ch in "&%$#_{}":
+        cell = cell.replace("\\" + ch, ch)
+    return cell
+
+
+from hypothesis import given, settings, strategies as st  # noqa: E402
+
+from rhofollow.io.safety import latex_text, text_table  # noqa: E402
+
+_cells = st.text(alphabet=st.characters(codec="utf-8", exclude_categories=("Cs", "Cc")), max_size=12)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.lists(_cells, min_size=3, max_size=3), min_size=1, max_size=4))
+def test_text_table_keeps_every_cell_in_every_format(rows):
+    head = ["Target", "a & b", "100% _x_"]
+    total = ["Total", "1", "2"]
+    # CSV: the cells read back exactly (after the formula quote is undone)
+    back = list(csv.reader(io.StringIO(text_table(head, rows, "csv", total))))
+    assert back[0] == head and [[csv_unquote(c) for c in r] for r in back[1:]] == rows + [total]
+    # LaTeX: every row has the header's number of cells and no unescaped special character
+    tex = text_table(head, rows, "latex", total).splitlines()
+    body = [ln for ln in tex if ln.endswith(r" \\")]
+    assert len(body) == len(rows) + 2
+    for ln, want in zip(body, [head] + rows + [total]):
+        cells = ln[:-3].split(" & ")
+        assert [_unescape_latex(c) for c in cells] == list(want)
+    # Markdown: one line per row, the cell separators intact
+    md = text_table(head, rows, "md", total).splitlines()
+    assert len(md) == len(rows) + 3 and all(ln.count(" | ") >= 2 for ln in md if not ln.startswith("|---"))
+
+
+def test_latex_text_escapes_the_ten_specials():
+    text = latex_text("A_b&c%d$e#f{g}h~i^j\\k")
+    rest = text
+    for esc in (r"\textbackslash{}", r"\textasciitilde{}", r"\textasciicircum{}", r"\&", r"\%", r"\$", r"\#",
+                r"\_", r"\{", r"\}"):
+        rest = rest.replace(esc, "")
+    assert not (set(rest) & _LATEX_SPECIALS) and _unescape_latex(text) == "A_b&c%d$e#f{g}h~i^j\\k"
+
+
+def test_text_table_refuses_an_unknown_format():
+    with pytest.raises(ValueError, match="unknown table format"):
+        text_table(["a"], [["b"]], "html")

@@ -186,6 +186,9 @@ def test_campaign_prints_the_csv_table(tmp_path, capsys):
     tex = printed[printed.index(r"\begin{tabular}"):printed.index(r"\end{tabular}") + len(r"\end{tabular}")] + "\n"
     assert tex == proposal_table(prop, "latex")
     assert_table_is_the_json(parse(tex, "latex"), prop["targets"], prop["total"])
+    # then the hours per instrument (occultation windows included), in the same format
+    second = printed[printed.index(r"\end{tabular}") + len(r"\end{tabular}"):]
+    assert r"\begin{tabular}" in second and "Occultation windows" in second
 
 
 def test_plan_writes_the_table_into_the_report(tmp_path, capsys):

@@ -34,9 +34,9 @@ def register(subparsers):
     p.add_argument("--end", metavar="YYYY-MM-DD", required=True, help="local date of the last evening")
     p.add_argument("--ics", metavar="PATH", help="write the windows and visits as an iCalendar file")
     p.add_argument("--table", choices=["md", "latex", "csv"],
-                   help="print the RV request per target (hours, visits, exposure, phases, months, density "
-                   "mismatch, P(e > 0.1), power, total with overheads) in this format instead of the "
-                   "terminal table")
+                   help="print, instead of the terminal table, the RV request per target (hours, visits, "
+                   "exposure, phases, months, density mismatch, P(e > 0.1), power, total with overheads) "
+                   "and then the hours per instrument (occultation windows included), in this format")
     add_hours_option(p)
     add_json_option(p)
     add_plan_options(p)
@@ -74,7 +74,7 @@ def campaign_table(doc: dict, plan, site_name: str, start, end, n_nights: int, w
 def run(args) -> int:
     from rhofollow.cli.common import count_progress
 
-    from rhofollow.planning.campaign import NightVis, plan_campaign, to_ical
+    from rhofollow.planning.campaign import NightVis, hours_table, plan_campaign, to_ical
     from rhofollow.planning.night import CAUTION, night_visibility
     from rhofollow.planning.tasks import jd_to_iso
     from rhofollow.planning.visibility import VisibilityEngine
@@ -117,8 +117,11 @@ def run(args) -> int:
 
     con = console()
     if args.table:
-        con.print(proposal_table(full["proposal"], args.table), end="", highlight=False, markup=False,
-                  soft_wrap=True)
+        # the RV request, then the hours per instrument (occultation windows included); the caution
+        # goes to stderr so that stdout is the tables alone, ready to paste
+        text = proposal_table(full["proposal"], args.table) + "\n" + hours_table(plan, args.table)
+        con.print(text, end="", highlight=False, markup=False, soft_wrap=True)
+        message(CAUTION, "caution")
     else:
         fitted = campaign_table(doc, plan, site.name, start, end, len(nights), con.width)
         con.print(fitted.table)

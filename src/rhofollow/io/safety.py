@@ -14,6 +14,11 @@ File names
     :func:`file_stem` turns a target name into a bounded, unique file-name stem: a readable slug
     plus the first 8 hex digits of the SHA-256 of the exact name, so ``a/b``, ``a-b`` and
     ``a?b`` give three different files and a 300-character name still fits in 255 bytes.
+
+Tables
+    :func:`text_table` renders one table as Markdown, a LaTeX ``tabular`` or CSV with the escaping
+    of each format (:func:`md_text`, :func:`latex_text`, :func:`csv_text`); every table a proposal
+    takes (the RV request, the hours per instrument) goes through it.
 """
 from __future__ import annotations
 
@@ -23,7 +28,8 @@ import io
 import math
 import re
 
-__all__ = ["FORMULA_TRIGGERS", "csv_cell", "csv_unquote", "csv_text", "file_stem", "MAX_STEM_BYTES", "md_text"]
+__all__ = ["FORMULA_TRIGGERS", "csv_cell", "csv_unquote", "csv_text", "file_stem", "MAX_STEM_BYTES", "md_text",
+           "latex_text", "text_table", "TABLE_FORMATS"]
 
 #: First characters that make a spreadsheet treat a cell as a formula (plus tab and CR).
 FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
@@ -162,3 +168,74 @@ def md_text(text) -> str:
     s = html.escape(str(text), quote=False)
     s = re.sub(r"[\r\n\t\v\f]+", " ", s)
     return _MD_SPECIAL.sub(r"\\\1", s)
+
+
+_LATEX_SPECIAL = {"\\": r"\textbackslash{}", "&": r"\&", "%": r"\%", "$": r"\$", "#": r"\#", "_": r"\_",
+                  "{": r"\{", "}": r"\}", "~": r"\textasciitilde{}", "^": r"\textasciicircum{}"}
+
+
+def latex_text(text) -> str:
+    """Text safe inside a LaTeX tabular cell: the ten special characters escaped, line breaks as spaces.
+
+    Parameters
+    ----------
+    text : object
+        The text (converted with ``str``).
+
+    Returns
+    -------
+    str
+        One line of LaTeX text that typesets as the original characters.
+    """
+    s = re.sub(r"[\r\n\t\v\f]+", " ", str(text))
+    return "".join(_LATEX_SPECIAL.get(ch, ch) for ch in s)
+
+
+#: Table formats of :func:`text_table` and the file suffix of each.
+TABLE_FORMATS = {"md": "md", "latex": "tex", "csv": "csv"}
+
+
+def text_table(header: list[str], rows: list[list], fmt: str, total: list | None = None) -> str:
+    """One table as Markdown, a LaTeX ``tabular`` environment or CSV, every cell escaped for the format.
+
+    The first column is left-aligned and the others right-aligned (Markdown, LaTeX); a total row,
+    when given, comes last (between rules in LaTeX).
+
+    Parameters
+    ----------
+    header : list of str
+        The column names.
+    rows : list of list
+        The body rows, text cells (numbers already formatted) or numbers.
+    fmt : {"md", "latex", "csv"}
+        The format.
+    total : list, optional
+        The total row.
+
+    Returns
+    -------
+    str
+        The table text, ending with a newline.
+
+    Raises
+    ------
+    ValueError
+        For an unknown format.
+    """
+    if fmt not in TABLE_FORMATS:
+        raise ValueError(f"unknown table format {fmt!r}; choose one of {', '.join(TABLE_FORMATS)}")
+    body = list(rows) + ([list(total)] if total is not None else [])
+    if fmt == "csv":
+        return csv_text(header, body)
+    if fmt == "md":
+        lines = ["| " + " | ".join(md_text(h) for h in header) + " |",
+                 "|" + "|".join(["---"] + ["---:"] * (len(header) - 1)) + "|"]
+        lines += ["| " + " | ".join(md_text(c) for c in r) + " |" for r in body]
+        return "\n".join(lines) + "\n"
+    lines = [r"\begin{tabular}{l" + "r" * (len(header) - 1) + "}", r"\hline",
+             " & ".join(latex_text(h) for h in header) + r" \\", r"\hline"]
+    lines += [" & ".join(latex_text(c) for c in r) + r" \\" for r in rows]
+    if total is not None:
+        lines += [r"\hline", " & ".join(latex_text(c) for c in total) + r" \\"]
+    lines += [r"\hline", r"\end{tabular}"]
+    return "\n".join(lines) + "\n"

@@ -8,14 +8,13 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
+from rhofollow.io.safety import TABLE_FORMATS, text_table
 from rhofollow.stages.records import CAUTION
 
 if TYPE_CHECKING:
     from rhofollow.planning.campaign import CampaignPlan
 
 __all__ = ["TABLE_FORMATS", "hours_table", "to_ical"]
-
-TABLE_FORMATS = ("md", "latex", "csv")
 
 
 def hours_table(plan: CampaignPlan, fmt: str = "md") -> str:
@@ -35,8 +34,6 @@ def hours_table(plan: CampaignPlan, fmt: str = "md") -> str:
         The table text, ending in a newline: counts, hours (h, two decimals) per instrument and in
         total, RV exposure per visit (s).
     """
-    if fmt not in TABLE_FORMATS:
-        raise ValueError(f"unknown table format {fmt!r}; choose one of {', '.join(TABLE_FORMATS)}")
     insts = list(dict.fromkeys(plan.instruments.values()))
     head = (["Target", "Occultation windows", "RV visits"] + [f"{i} (h)" for i in insts]
             + ["RV exposure (s)", "Total (h)"])
@@ -48,32 +45,10 @@ def hours_table(plan: CampaignPlan, fmt: str = "md") -> str:
                     + [f"{h:.2f}" for h in hs] + [f"{ex:.0f}" if ex else "", f"{sum(hs):.2f}"])
     tot = plan.hours_total
     hs = [tot.get(i, 0.0) for i in insts]
-    rows.append(["Total", str(sum(len(t["occultation_windows"]) for t in plan.targets)),
-                 str(sum(len(t["rv_visits"]) for t in plan.targets))]
-                + [f"{h:.2f}" for h in hs] + ["", f"{sum(hs):.2f}"])
-    if fmt == "csv":
-        from rhofollow.io.safety import csv_text
-
-        return csv_text(head, rows)
-    if fmt == "md":
-        from rhofollow.io.safety import md_text
-
-        lines = ["| " + " | ".join(md_text(h) for h in head) + " |",
-                 "|" + "|".join(["---"] + ["---:"] * (len(head) - 1)) + "|"]
-        lines += ["| " + " | ".join(md_text(c) for c in r) + " |" for r in rows]
-        return "\n".join(lines) + "\n"
-
-    def esc(s):
-        s = s.replace("\\", "\0")
-        for ch in "&%_#${}":
-            s = s.replace(ch, "\\" + ch)
-        return s.replace("\0", r"\textbackslash{}")
-
-    lines = [r"\begin{tabular}{l" + "r" * (len(head) - 1) + "}", r"\hline",
-             " & ".join(esc(h) for h in head) + r" \\", r"\hline"]
-    lines += [" & ".join(esc(c) for c in r) + r" \\" for r in rows[:-1]]
-    lines += [r"\hline", " & ".join(esc(c) for c in rows[-1]) + r" \\", r"\hline", r"\end{tabular}"]
-    return "\n".join(lines) + "\n"
+    total = (["Total", str(sum(len(t["occultation_windows"]) for t in plan.targets)),
+              str(sum(len(t["rv_visits"]) for t in plan.targets))]
+             + [f"{h:.2f}" for h in hs] + ["", f"{sum(hs):.2f}"])
+    return text_table(head, rows, fmt, total)
 
 
 def to_ical(plan: CampaignPlan) -> bytes:

@@ -15,11 +15,10 @@ expected confirmations: the total with overheads.
 """
 from __future__ import annotations
 
+from rhofollow.io.safety import TABLE_FORMATS  # the formats and their file suffixes (io.safety.text_table)
+
 __all__ = ["TABLE_FORMATS", "COLUMNS", "proposal_document", "campaign_proposal", "proposal_rows",
            "proposal_table", "table_file_name"]
-
-#: Formats of :func:`proposal_table`, and the file suffix of each.
-TABLE_FORMATS = {"md": "md", "latex": "tex", "csv": "csv"}
 
 #: (header, key of the entry's numbers, decimals); decimals None: text.
 COLUMNS = (
@@ -118,16 +117,6 @@ def proposal_rows(prop: dict) -> tuple[list[str], list[list[str]], list[str]]:
     return head, rows, [_cell(total.get(key), nd) for _, key, nd in COLUMNS]
 
 
-def _latex(text: str) -> str:
-    """Text safe inside a LaTeX tabular cell (the ten special characters escaped)."""
-    out = []
-    special = {"\\": r"\textbackslash{}", "&": r"\&", "%": r"\%", "$": r"\$", "#": r"\#", "_": r"\_",
-               "{": r"\{", "}": r"\}", "~": r"\textasciitilde{}", "^": r"\textasciicircum{}"}
-    for ch in text:
-        out.append(special.get(ch, ch))
-    return "".join(out)
-
-
 def proposal_table(prop: dict, fmt: str = "md") -> str:
     """The proposal table (see :func:`proposal_rows`) as text.
 
@@ -141,26 +130,10 @@ def proposal_table(prop: dict, fmt: str = "md") -> str:
     -------
     str, ending with a newline. Without a requested target only the header and a zero total.
     """
-    if fmt not in TABLE_FORMATS:
-        raise ValueError(f"unknown table format {fmt!r}; choose one of {', '.join(TABLE_FORMATS)}")
+    from rhofollow.io.safety import text_table
+
     head, rows, total = proposal_rows(prop)
-    if fmt == "csv":
-        from rhofollow.io.safety import csv_text
-
-        return csv_text(head, rows + [total])
-    if fmt == "md":
-        from rhofollow.io.safety import md_text
-
-        lines = ["| " + " | ".join(md_text(h) for h in head) + " |",
-                 "|" + "|".join(["---"] + ["---:"] * (len(head) - 1)) + "|"]
-        lines += ["| " + " | ".join(md_text(c) for c in r) + " |" for r in rows + [total]]
-        return "\n".join(lines) + "\n"
-    cols = "l" + "r" * (len(head) - 1)
-    lines = [r"\begin{tabular}{" + cols + "}", r"\hline", " & ".join(_latex(h) for h in head) + r" \\",
-             r"\hline"]
-    lines += [" & ".join(_latex(c) for c in r) + r" \\" for r in rows]
-    lines += [r"\hline", " & ".join(_latex(c) for c in total) + r" \\", r"\hline", r"\end{tabular}"]
-    return "\n".join(lines) + "\n"
+    return text_table(head, rows, fmt, total)
 
 
 def table_file_name(fmt: str) -> str:
