@@ -86,7 +86,7 @@ def campaign_table(doc: dict, plan, site_name: str, start, end, n_nights: int, w
 
 
 def run(args) -> int:
-    """Run ``campaign`` with the parsed options ``args``: print the table, write JSON and iCalendar.
+    """Run ``campaign``: print the table, write JSON and iCalendar (UserError on bad input).
 
     Parameters
     ----------
@@ -95,10 +95,7 @@ def run(args) -> int:
     Returns
     -------
     int, exit status (0 all went well, 1 some targets failed)
-
-    Raises
-    ------
-    UserError : bad dates, site file or ``--samples``, or no dark time at the site in the range"""
+    """
     from rhofollow.cli.common import count_progress
 
     from rhofollow.planning.campaign import NightVis, plan_campaign, to_ical
