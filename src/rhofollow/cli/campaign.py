@@ -44,7 +44,21 @@ def register(subparsers):
 
 
 def campaign_table(doc: dict, plan, site_name: str, start, end, n_nights: int, width: int = 80) -> FittedTable:
-    """Per target: windows, RV visits and hours per instrument, with the columns that fit ``width``."""
+    """Per target: windows, RV visits and hours per instrument, with the columns that fit ``width``.
+
+    Parameters
+    ----------
+    doc : dict, :meth:`rhofollow.planning.campaign.CampaignPlan.to_dict` (``targets``, ``hours_total``)
+    plan : :class:`rhofollow.planning.campaign.CampaignPlan`, gives the instruments (column order)
+    site_name : str, site name for the title
+    start, end : datetime.date, local dates of the first and last evening
+    n_nights : int, nights with dark time in the range
+    width : int, terminal width, characters
+
+    Returns
+    -------
+    FittedTable, the table (RV exposure in seconds, hours per instrument in hours, with overheads)
+    """
     insts = list(dict.fromkeys(plan.instruments.values()))
     cols = ([Col("target", justify="left"), Col("occ.\nwindows"), Col("RV visits\nplaced"),
              Col("RV visits\nneeded"), Col("RV exp.\ns", drop=2, what="RV exposure")]
@@ -72,6 +86,16 @@ def campaign_table(doc: dict, plan, site_name: str, start, end, n_nights: int, w
 
 
 def run(args) -> int:
+    """Run ``campaign``: print the table, write JSON and iCalendar (UserError on bad input).
+
+    Parameters
+    ----------
+    args : :class:`argparse.Namespace` of the command's options
+
+    Returns
+    -------
+    int, exit status (0 all went well, 1 some targets failed)
+    """
     from rhofollow.cli.common import count_progress
 
     from rhofollow.planning.campaign import NightVis, hours_table, plan_campaign, to_ical

@@ -54,7 +54,23 @@ def _utc(iso: str) -> str:
 
 
 def night_table(doc: dict, eng, night, site, date, instruments: dict, width: int = 80) -> FittedTable:
-    """The night's blocks in time order, with the columns that fit ``width``."""
+    """The night's blocks in time order, with the columns that fit ``width``.
+
+    Parameters
+    ----------
+    doc : dict, the night plan's JSON (``blocks`` with ``start_jd``/``end_jd`` in JD (UTC),
+        ``start_utc``/``end_utc`` ISO strings, ``value``, ``airmass_max``)
+    eng : :class:`~rhofollow.planning.visibility.VisibilityEngine`, for local times
+    night : :class:`~rhofollow.planning.visibility.ephemeris.NightGrid`, the night's limits (JD, UTC)
+    site : :class:`~rhofollow.planning.site.Site`, name and twilight for the title
+    date : datetime.date, local date of the evening
+    instruments : dict, ``{"occultation": name, "rv": name}`` shown per block
+    width : int, terminal width, characters
+
+    Returns
+    -------
+    FittedTable, times as local and UTC HH:MM
+    """
     from rhofollow.planning.tasks import jd_to_iso
 
     tz = eng.local_time(night.start_jd).tzname()
@@ -164,6 +180,10 @@ def run(args) -> int:
     -------
     int
         Exit status (0 all went well, 1 some targets failed, 2 bad input).
+
+    Raises
+    ------
+    UserError : bad ``--date``, ``--end``, site file or ``--samples``, or no dark time that night
     """
     import datetime as dt
 

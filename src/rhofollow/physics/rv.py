@@ -52,7 +52,15 @@ def semi_amplitude(mp_mearth, mstar_msun, period_d, e=0.0, inc_rad=np.pi / 2):
 def true_anomaly_at(phase, e, omega):
     """True anomaly (radians) at orbital phase ``phase`` = (t - t0) / P measured from mid-transit.
 
-    All arguments broadcast against each other.
+    Parameters
+    ----------
+    phase : float or ndarray, orbital phase (t - t0) / P, dimensionless (0 = mid-transit)
+    e : float or ndarray, eccentricity in [0, 1)
+    omega : float or ndarray, star's argument of periastron, radians (RV convention)
+
+    Returns
+    -------
+    ndarray, true anomaly f in radians; all arguments broadcast against each other.
     """
     e = np.asarray(e, dtype=float)
     mean_anom = _TWO_PI * np.asarray(phase, dtype=float) + mean_anomaly_at_transit(e, omega)
@@ -62,8 +70,16 @@ def true_anomaly_at(phase, e, omega):
 def rv_shape(phase, e, omega):
     """Unit-amplitude RV curve cos(f + omega) + e cos(omega) at phase = (t - t0)/P from transit.
 
-    Multiply by K and add gamma to get v*(t). Broadcasts over all arguments, so a (G, 1) grid
-    of (e, omega) against (1, N) phases gives (G, N) templates.
+    Parameters
+    ----------
+    phase : float or ndarray, orbital phase (t - t0) / P, dimensionless (0 = mid-transit)
+    e : float or ndarray, eccentricity in [0, 1)
+    omega : float or ndarray, star's argument of periastron, radians (RV convention)
+
+    Returns
+    -------
+    ndarray, dimensionless (multiply by K in m/s and add gamma to get v*(t)). Broadcasts, so a
+    (G, 1) grid of (e, omega) against (1, N) phases gives (G, N) templates.
     """
     omega = np.asarray(omega, dtype=float)
     f = true_anomaly_at(phase, e, omega)
@@ -74,6 +90,14 @@ def circular_shape(phase):
     """Unit-amplitude circular-orbit RV curve: cos(2 pi phase + pi/2) = -sin(2 pi phase).
 
     The star recedes fastest a quarter period before transit and approaches after it.
+
+    Parameters
+    ----------
+    phase : float or ndarray, orbital phase (t - t0) / P, dimensionless (0 = mid-transit)
+
+    Returns
+    -------
+    ndarray, dimensionless curve (multiply by K in m/s), same shape as ``phase``.
     """
     return -np.sin(_TWO_PI * np.asarray(phase, dtype=float))
 
@@ -88,7 +112,9 @@ def rv_curve(t, period_d, t0, e, omega, k_ms, gamma_ms=0.0):
     e, omega : eccentricity and argument of periastron (radians, RV convention)
     k_ms, gamma_ms : semi-amplitude and systemic velocity, m/s
 
-    All arguments broadcast (for example samples (S, 1) against times (1, N)).
+    Returns
+    -------
+    ndarray, m/s; all arguments broadcast (for example samples (S, 1) against times (1, N)).
     """
     phase = (np.asarray(t, dtype=float) - np.asarray(t0, dtype=float)) / np.asarray(period_d, dtype=float)
     return np.asarray(gamma_ms, float) + np.asarray(k_ms, float) * rv_shape(phase, e, omega)

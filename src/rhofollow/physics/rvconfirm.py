@@ -1,18 +1,14 @@
 """How many RV epochs detect K, and how many confirm that the orbit is eccentric.
 
-With the period and mid-transit time fixed by the transit, the circular model
-v = gamma + K c(phase) and, at a fixed (e, omega), the eccentric model v = gamma + K s_{e,omega}(phase)
-are linear in K and the offsets. Both are profiled analytically (weighted least squares after
-projecting out per-instrument offsets), and the eccentric model is maximised over an (e, omega)
-grid. The likelihood-ratio statistic is Delta chi^2 = chi^2_circ - min_grid chi^2_ecc (Gaussian
-errors; Neyman-Pearson likelihood-ratio test, Wilks 1938, Ann. Math. Stat. 9, 60). Its false-alarm
-threshold is taken from simulations under the circular null (the asymptotic chi^2 with 2 degrees
-of freedom is only reached at large K/sigma, because the grid search adds a look-elsewhere effect).
-
-Everything is vectorised over simulated data sets, grid points and epochs; the only Python loops
-are over a handful of phase batches and over the bisection in N.
-
-Units: phases are (t - t0)/P from mid-transit (cycles), velocities m/s, angles radians.
+With P and T0 fixed by the transit, the circular model v = gamma + K c(phase) and, at a fixed
+(e, omega), the eccentric model v = gamma + K s_{e,omega}(phase) are linear in K and the offsets;
+both are profiled analytically (weighted least squares after projecting out per-instrument
+offsets) and the eccentric one is maximised over an (e, omega) grid. The likelihood-ratio
+statistic Delta chi^2 = chi^2_circ - min_grid chi^2_ecc (Gaussian errors; Wilks 1938, Ann. Math.
+Stat. 9, 60) gets its false-alarm threshold from simulations under the circular null (the
+asymptotic chi^2_2 holds only at large K/sigma: the grid search adds a look-elsewhere effect).
+Vectorised over data sets, grid points and epochs; Python loops only over phase batches and the
+bisection in N. Units: phases (t - t0)/P from mid-transit (cycles), velocities m/s, angles radians.
 """
 from __future__ import annotations
 
@@ -34,8 +30,8 @@ N_LADDER = (5, 6, 7, 8, 9, 10, 12, 14, 16, 18, 20, 23, 26, 30, 35, 40, 46, 53, 6
 class EccGrid:
     """An (e, omega) grid for the profiled eccentric model (flattened arrays ``e``, ``omega``).
 
-    Eccentricities are spaced as e_max (i / n_e)^1.5 for i = 1..n_e (denser near circular, where
-    the test decides), arguments of periastron uniformly on [0, 2 pi).
+    e = e_max (i / n_e)^1.5 for i = 1..n_e (denser near circular, where the test decides), omega
+    uniform on [0, 2 pi) radians.
     """
 
     def __init__(self, n_e: int = 14, n_omega: int = 24, e_max: float = 0.9):
@@ -47,16 +43,35 @@ class EccGrid:
 
     @property
     def size(self) -> int:
+        """Number of grid points G = n_e x n_omega (int)."""
         return self.e.size
 
     def templates(self, phases):
-        """Unit-amplitude eccentric RV templates, shape (..., G, N) for phases (..., N)."""
+        """Unit-amplitude eccentric RV templates (dimensionless; multiply by K in m/s).
+
+        Parameters
+        ----------
+        phases : ndarray (..., N), orbital phases (t - t0) / P from mid-transit, cycles
+
+        Returns
+        -------
+        ndarray (..., G, N)
+        """
         ph = np.asarray(phases, float)[..., None, :]
         return rv_shape(ph, self.e[:, None], self.omega[:, None])
 
 
 def ecc_grid(n_e: int = 14, n_omega: int = 24, e_max: float = 0.9) -> EccGrid:
-    """Default (e, omega) grid; see :class:`EccGrid`."""
+    """Default (e, omega) grid; see :class:`EccGrid`.
+
+    Parameters
+    ----------
+    n_e, n_omega, e_max : int, int, float; eccentricity count, omega count, largest eccentricity
+
+    Returns
+    -------
+    EccGrid, e dimensionless and omega in radians, flattened to G = n_e x n_omega points
+    """
     return EccGrid(n_e, n_omega, e_max)
 
 
@@ -104,8 +119,14 @@ def profiled_chi2(y, templates, w=None, groups=None):
 def lrt_statistic(y, phases, grid: EccGrid, w=None, groups=None, ecc_templates=None):
     """Likelihood-ratio statistic eccentric vs circular, per data set.
 
-    Returns ``(delta_chi2, best)``: Delta chi^2 = chi^2_circ - min over the grid of chi^2_ecc
-    (>= 0, shape (..., D)) and the index of the best grid point.
+    Parameters
+    ----------
+    y, phases : ndarray (..., D, N) data sets (m/s) and (..., N) phases (cycles from transit)
+    grid, w, groups, ecc_templates : EccGrid, as in :func:`profiled_chi2`, precomputed templates
+
+    Returns
+    -------
+    tuple ``(delta_chi2, best)``: chi^2_circ - min_grid chi^2_ecc (>= 0, (..., D)), best grid index
     """
     circ = circular_shape(phases)[..., None, :]
     chi_c = profiled_chi2(y, circ, w, groups)[..., 0]
@@ -132,19 +153,15 @@ def simulate_lrt(e, omega, k, sigma, n_epochs, *, weights=None, seed=0, n_alt=40
     Parameters
     ----------
     e, omega, k : ndarray (S,), posterior samples (eccentricity, omega [rad], K [m/s])
-    sigma : float, per-epoch RV error including jitter (m/s)
-    n_epochs : int
-    weights : ndarray (S,) or None
+    sigma : float, per-epoch RV error including jitter (m/s); n_epochs : int
+    weights : ndarray (S,) or None; grid : EccGrid or None (default :func:`ecc_grid`)
     seed : int or Generator; the same seed gives the same answer (common random numbers across N)
-    n_alt, n_null : simulated data sets drawn from the posterior and under the circular null
-    n_batches : number of independent epoch sets (phases uniform over the orbit, the feasible
-        epochs when no schedule is known yet); data sets are split evenly among them
-    phases : optional ndarray (N,) of fixed orbital phases (for example a schedule's visits)
+    n_alt, n_null, n_batches : int, data sets from the posterior / circular null; uniform epoch sets
+    phases : optional ndarray (N,) of fixed orbital phases, cycles (for example a schedule's visits)
 
     Returns
     -------
-    dict with ``threshold`` (the (1 - fap) points are taken later), ``d_alt`` (n_alt,),
-    ``d_null`` (n_null,) arrays of Delta chi^2.
+    dict with ``d_alt`` (n_alt,) and ``d_null`` (n_null,) arrays of Delta chi^2 (dimensionless)
     """
     rng = np.random.default_rng(seed)
     grid = grid or ecc_grid()
@@ -172,8 +189,13 @@ def simulate_lrt(e, omega, k, sigma, n_epochs, *, weights=None, seed=0, n_alt=40
 def power_at(e, omega, k, sigma, n_epochs, fap=0.01, **kw):
     """Power of the LRT at ``n_epochs`` and false-alarm probability ``fap`` (simulated).
 
-    Returns ``(power, threshold)``: the fraction of posterior-drawn data sets whose Delta chi^2
-    exceeds the (1 - fap) quantile of the simulated circular-null distribution.
+    Parameters
+    ----------
+    e, omega, k, sigma, n_epochs, **kw : as :func:`simulate_lrt` (radians, m/s); fap : float in (0, 1)
+
+    Returns
+    -------
+    tuple ``(power, threshold)``: fraction of posterior data sets above the null's (1 - fap) quantile
     """
     sim = simulate_lrt(e, omega, k, sigma, n_epochs, **kw)
     thr = float(np.quantile(sim["d_null"], 1.0 - fap))
@@ -183,13 +205,17 @@ def power_at(e, omega, k, sigma, n_epochs, fap=0.01, **kw):
 def epochs_to_confirm(e, omega, k, sigma, *, fap=0.01, power=0.8, ladder=N_LADDER, start=None, **kw):
     """Smallest N on ``ladder`` whose simulated LRT power reaches ``power`` at ``fap``.
 
-    Galloping search from ``start`` (for example the Fisher estimate; default the middle of the
-    ladder) followed by bisection; power rises with N and the same seed is used at every N, so the
-    simulated curves share their random numbers. Keyword arguments go to :func:`simulate_lrt`.
+    Galloping search from ``start`` (default mid-ladder) then bisection; one seed serves every N.
 
-    Returns a dict: ``n`` (int, or None when the largest N on the ladder falls short), ``power``
-    (at that N, or at the largest N), ``threshold`` (Delta chi^2 at the false-alarm level), and
-    ``evaluations`` (N -> simulated power).
+    Parameters
+    ----------
+    e, omega, k, sigma, **kw : as :func:`simulate_lrt` (omega radians, k and sigma m/s)
+    fap, power : float in (0, 1); ladder : sequence of int; start : int or None, first N tried
+
+    Returns
+    -------
+    dict: ``n`` (int, or None when the ladder's largest N falls short), ``power`` (at that N or the
+    largest), ``threshold`` (Delta chi^2 at ``fap``), ``evaluations`` (N -> simulated power)
     """
     cache: dict[int, tuple[float, float]] = {}
 
@@ -230,8 +256,16 @@ def epochs_to_confirm(e, omega, k, sigma, *, fap=0.01, power=0.8, ladder=N_LADDE
 
 
 def epochs_to_detect_k_simple(k, sigma, q=5.0):
-    """N = 2 (q sigma / K)^2: epochs for a q-sigma amplitude with phases spread over the orbit
-    (sigma_K = sigma sqrt(2/N); derived, common practice)."""
+    """N = 2 (q sigma / K)^2: epochs for a q-sigma amplitude with phases spread over the orbit.
+
+    Parameters
+    ----------
+    k, sigma : float or ndarray, semi-amplitude and per-epoch RV error, m/s; q : float, significance
+
+    Returns
+    -------
+    ndarray, epochs (float); from sigma_K = sigma sqrt(2/N) (derived, common practice)
+    """
     return 2.0 * (q * np.asarray(sigma, float) / np.asarray(k, float)) ** 2
 
 
@@ -252,10 +286,17 @@ def _smallest_n(power_fn, target, n_min, n_max):
 def epochs_to_detect_k(k, sigma, weights=None, fap=0.01, power=0.8, n_min=3, n_max=10000):
     """Epochs to detect the circular-orbit signal of amplitude K (analytic, averaged over K).
 
-    With P and T0 known the amplitude test has one degree of freedom; for phases spread uniformly
-    the per-epoch non-centrality is K^2 / (2 sigma^2) (mean of sin^2 is 1/2). Power at N epochs is
-    the posterior average of P[chi'^2_1(N K^2 / 2 sigma^2) > chi^2_{1, 1-fap}] (non-central chi^2,
-    scipy.stats.ncx2). Returns the smallest N >= n_min reaching ``power``, or None.
+    One degree of freedom (P, T0 known); uniform phases give per-epoch non-centrality K^2/(2 sigma^2),
+    so power at N is the posterior mean of P[chi'^2_1(N K^2 / 2 sigma^2) > chi^2_{1, 1-fap}].
+
+    Parameters
+    ----------
+    k, sigma, weights : ndarray (S,) K samples (m/s), float RV error (m/s), (S,) weights or None
+    fap, power : float in (0, 1); n_min, n_max : int, range of N searched
+
+    Returns
+    -------
+    int or None, the smallest N in [n_min, n_max] reaching ``power``
     """
     k = np.atleast_1d(np.asarray(k, float))
     w = np.ones(k.size) / k.size if weights is None else np.asarray(weights, float) / np.sum(weights)
@@ -267,34 +308,35 @@ def epochs_to_detect_k(k, sigma, weights=None, fap=0.01, power=0.8, n_min=3, n_m
 def ncx2_sf_1dof(x, lam):
     """P[chi'^2_1(lam) > x], the survival function of the non-central chi^2 with one degree of freedom.
 
-    Closed form: chi'^2_1(lam) is (Z + sqrt(lam))^2 with Z standard normal, so the survival is
-    Phi(sqrt(lam) - sqrt(x)) + Phi(-sqrt(lam) - sqrt(x)) (Johnson, Kotz & Balakrishnan 1995,
-    Continuous Univariate Distributions vol. 2, ch. 29; equals scipy.stats.ncx2.sf(x, 1, lam)
-    to rounding, about 50 times faster on 20,000 samples).
+    Phi(sqrt(lam) - sqrt(x)) + Phi(-sqrt(lam) - sqrt(x)) (Johnson, Kotz & Balakrishnan 1995, vol. 2,
+    ch. 29); equals scipy.stats.ncx2.sf(x, 1, lam) to rounding, ~50x faster on 20,000 samples.
+
+    Parameters
+    ----------
+    x, lam : float or ndarray, threshold and non-centrality (dimensionless, >= 0)
+
+    Returns
+    -------
+    ndarray, probability in [0, 1]
     """
     a = np.sqrt(np.asarray(x, float))
     b = np.sqrt(np.asarray(lam, float))
     return special.ndtr(b - a) + special.ndtr(-b - a)
 
 
-#: Fisher phase averages: (largest e, phases) -- 64 midpoints where the curve is smooth enough,
-#: the previous 256 above (see :func:`fisher_noncentrality`).
+#: Fisher phase averages (largest e, phases): 64 midpoints where smooth, 256 above (see below).
 FISHER_PHASES = ((0.6, 64), (1.0, 256))
 
 
 def fisher_noncentrality(e, omega, k, sigma, n_phase: int | None = None, step: float = 1e-4):
     """Per-epoch Fisher non-centrality of the eccentricity test, per posterior sample.
 
-    Parameters theta = (gamma, K, h = e cos omega, q = e sin omega); the Fisher matrix per epoch is
-    the phase average of grad m grad m^T / sigma^2 (uniform phases). The (h, q) block after
-    marginalising gamma and K (Schur complement) gives lambda_1 = (h, q) F_s (h, q)^T, the expected
-    Delta chi^2 per epoch of the linearised test of h = q = 0.
-
-    The phase average is the midpoint rule on ``n_phase`` points. For a smooth periodic integrand
-    it converges geometrically (the trapezoid rule on periodic functions, Trefethen & Weideman
-    2014, SIAM Review 56, 385), at a rate set by the eccentricity: by default
-    (:data:`FISHER_PHASES`) samples with e <= 0.6 use 64 phases (relative error below 1e-5
-    against 1,024) and the others 256 as before, a quarter of the Kepler solves for most posteriors.
+    Parameters theta = (gamma, K, h = e cos omega, q = e sin omega); the per-epoch Fisher matrix is
+    the uniform-phase average of grad m grad m^T / sigma^2, and its (h, q) Schur complement F_s gives
+    lambda_1 = (h, q) F_s (h, q)^T, the expected Delta chi^2 per epoch of the linearised test.
+    The average is the midpoint rule on ``n_phase`` points, geometric for smooth periodic integrands
+    (Trefethen & Weideman 2014, SIAM Review 56, 385) at an e-dependent rate: by default
+    (:data:`FISHER_PHASES`) e <= 0.6 uses 64 phases (relative error < 1e-5 against 1,024), others 256.
     """
     e = np.atleast_1d(np.asarray(e, float))
     om = np.atleast_1d(np.asarray(omega, float))
@@ -318,12 +360,10 @@ def _fisher_lambda(e, om, k, sigma, n_phase, step):
 
 def fisher_lambda_at_phases(e, om, k, ph, sigma=1.0, step=1e-4, ridge=0.0):
     """Per-visit Fisher non-centrality of the eccentricity test, the Fisher matrix averaged over the
-    phases ``ph`` (1-d), per sample (1-d ``e``, ``om`` [rad], ``k`` [m/s]), at RV error ``sigma``.
-
-    Parameters (gamma, K, e cos w, e sin w); the (e cos w, e sin w) block is profiled over (gamma, K)
-    by its Schur complement and evaluated at the sample's own (e cos w, e sin w). Derivatives by
-    central differences of size ``step``; ``ridge`` regularises the (gamma, K) block (one phase
-    only makes them degenerate).
+    phases ``ph`` (1-d), per sample (1-d ``e``, ``om`` [rad], ``k`` [m/s]), at RV error ``sigma`` (m/s).
+    Parameters (gamma, K, e cos w, e sin w); the (e cos w, e sin w) block, profiled over (gamma, K) by
+    its Schur complement, is taken at the sample's own values. Central differences of size ``step``;
+    ``ridge`` regularises the (gamma, K) block (one phase alone makes it degenerate).
     """
     h, q = e * np.cos(om), e * np.sin(om)
 
@@ -347,10 +387,17 @@ def fisher_epochs_to_confirm(e, omega, k, sigma, weights=None, fap=0.01, power=0
                              n_max=10000, max_samples=2000, seed=0):
     """Fast Fisher-matrix estimate of the epochs to confirm e > 0.
 
-    Power at N is the posterior average of P[chi'^2_2(N lambda_1) > chi^2_{2, 1-fap}] with
-    lambda_1 from :func:`fisher_noncentrality` (asymptotic, Wilks 1938; no look-elsewhere
-    correction for the (e, omega) search, so it is optimistic when K/sigma is small).
-    Returns the smallest N or None.
+    Power at N: posterior mean of P[chi'^2_2(N lambda_1) > chi^2_{2, 1-fap}], lambda_1 from
+    :func:`fisher_noncentrality` (Wilks 1938; no look-elsewhere term, optimistic at small K/sigma).
+
+    Parameters
+    ----------
+    e, omega, k, sigma, weights : samples (S,) (omega rad, K m/s), RV error (m/s), weights or None
+    fap, power, n_min, n_max : as :func:`epochs_to_detect_k`; max_samples, seed : resampled thinning
+
+    Returns
+    -------
+    int or None, the smallest N in [n_min, n_max] reaching ``power``
     """
     e = np.atleast_1d(np.asarray(e, float))
     if e.size > max_samples:
@@ -369,12 +416,17 @@ def informative_phases(e, omega, k, weights=None, n_phase: int = 200, n_best: in
                        max_samples: int = 2000, seed=0):
     """Orbital phases where eccentric and circular predictions differ most across the posterior.
 
-    For each sample the eccentric curve K s(phase) is compared with its best circular
-    approximation (least-squares projection onto {1, circular curve} over the orbit); the
-    predictive spread is the weighted RMS of that difference over the posterior. Returns
-    ``(phases, spread_ms, best)`` where ``best`` lists up to ``n_best`` local maxima of the
-    spread as dicts ``{"phase": ..., "spread_ms": ...}``, largest first; phase 0 = mid-transit,
-    0.5 = half a period later.
+    Spread: posterior-weighted RMS of K s(phase) minus its least-squares fit by {1, circular curve}.
+
+    Parameters
+    ----------
+    e, omega, k, weights : samples (S,) (omega radians, K m/s) and their weights or None
+    n_phase, n_best : int, phase grid size and maxima kept; max_samples, seed : resampled thinning
+
+    Returns
+    -------
+    tuple ``(phases, spread_ms, best)``: phases (cycles, 0 = mid-transit), spread (m/s), and up to
+    ``n_best`` local maxima as dicts ``{"phase": ..., "spread_ms": ...}``, largest first
     """
     e = np.atleast_1d(np.asarray(e, float))
     omega, k = np.atleast_1d(np.asarray(omega, float)), np.atleast_1d(np.asarray(k, float))

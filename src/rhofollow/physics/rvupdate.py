@@ -58,7 +58,7 @@ def rv_log_likelihood(t, y, err, groups, period, t0, e, omega, k_ms=None, jitter
 
     Returns
     -------
-    ndarray (S,)
+    ndarray (S,), natural-log likelihood (dimensionless), up to one constant common to all samples
     """
     s_all = len(np.atleast_1d(e))
     out = np.empty(s_all)
@@ -83,6 +83,18 @@ def conditional_k(t, y, err, groups, period, t0, e, omega, jitter_ms, rng: np.ra
 
     Given the sample's orbit, K is Gaussian with mean K_hat and variance 1/a, truncated at 0;
     drawn by the inverse CDF (seeded).
+
+    Parameters
+    ----------
+    t, y, err : ndarray (N,), BJD_TDB (days), RV and error (m/s)
+    groups : ndarray (N,) of int, instrument index (one marginalised offset per instrument)
+    period, t0, e, omega : ndarray (S,), samples (days, BJD_TDB, -, radians)
+    jitter_ms : float, stellar jitter added in quadrature, m/s
+    rng : numpy.random.Generator, source of the draws
+
+    Returns
+    -------
+    ndarray (S,), semi-amplitude K >= 0, m/s
     """
     w, yp, sp = _perp_terms(t, y, err, groups, period, t0, e, omega, jitter_ms)
     aa = np.sum(w * sp * sp, axis=1)
@@ -97,9 +109,23 @@ def lrt_on_data(t, y, err, groups, period, t0, jitter_ms=0.0, *, grid: EccGrid |
                 n_null=2000, seed=0):
     """Eccentric-vs-circular likelihood-ratio test on measured RVs.
 
-    Returns a dict: ``delta_chi2`` (observed), ``p_value`` (fraction of circular-null simulations
-    at least as large, with +1 smoothing: (1 + n_exceed) / (1 + n_null)), ``e_best``,
-    ``omega_best`` (grid maximum), ``k_circ`` (circular best-fit K, m/s).
+    Parameters
+    ----------
+    t, y, err : ndarray (N,), BJD_TDB (days), RV and error (m/s)
+    groups : ndarray (N,) of int, instrument index (one profiled offset per instrument)
+    period : float, orbital period, days
+    t0 : float, mid-transit epoch, BJD_TDB (days)
+    jitter_ms : float, stellar jitter added in quadrature, m/s
+    grid : EccGrid, optional, (e, omega) grid of the eccentric model (default :func:`ecc_grid`)
+    n_null : int, number of circular-null simulations
+    seed : int, seed of the null simulations
+
+    Returns
+    -------
+    dict
+        ``delta_chi2`` (observed, dimensionless), ``p_value`` (fraction of circular-null
+        simulations at least as large, +1 smoothed: (1 + n_exceed) / (1 + n_null)), ``e_best``,
+        ``omega_best`` (grid maximum, radians), ``k_circ`` (circular best-fit K, m/s).
     """
     grid = grid or ecc_grid()
     w = 1.0 / (np.asarray(err, float) ** 2 + jitter_ms**2)

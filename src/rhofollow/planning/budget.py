@@ -51,9 +51,19 @@ class Option(tuple):
 
 
 def target_options(curve: list[dict], visit_h: float, p_eccentric: float) -> list[Option]:
-    """Options of one target from its power curve (``[{"n", "power"}]``) and visit cost (h).
+    """Options of one target from its power curve and visit cost.
 
     Only options whose value rises with n are kept (more visits at no gain are never chosen).
+
+    Parameters
+    ----------
+    curve : list of dict ``{"n", "power"}``, visits and simulated power (0-1), in increasing n
+    visit_h : float, telescope time of one visit (exposure + overhead), hours
+    p_eccentric : float, posterior probability of the eccentric explanation (0-1)
+
+    Returns
+    -------
+    list of Option ``(n, hours, value)``: visits, cost in hours (n x visit_h), expected confirmations
     """
     out, best = [], 0.0
     for pt in curve:
@@ -133,7 +143,17 @@ def solve_budget(items: list[dict], budgets: dict[str, float]) -> dict[str, dict
 
 
 def brute_force_budget(items: list[dict], budget_h: float) -> float:
-    """Best expected confirmations by enumerating every combination (one spectrograph; tests only)."""
+    """Best expected confirmations by enumerating every combination (one spectrograph; tests only).
+
+    Parameters
+    ----------
+    items : list of dict ``{"options": [Option, ...], ...}`` as for :func:`solve_budget`
+    budget_h : float, telescope-time budget of the spectrograph, hours
+
+    Returns
+    -------
+    float, the largest total value (expected confirmed eccentric orbits) within ``budget_h``
+    """
     import itertools
 
     best = 0.0
@@ -147,9 +167,18 @@ def brute_force_budget(items: list[dict], budget_h: float) -> float:
 def threshold_requests(items: list[dict], power: float, min_gain_per_hour: float = MIN_GAIN_PER_HOUR):
     """Requests without a budget: each target at the visits reaching ``power``, when worth it.
 
-    ``items`` as for :func:`solve_budget` plus ``"visits_to_power"`` (int or None) and
-    ``"visit_h"``. Returns name -> ``{"visits", "hours", "value", "gain_per_hour", "requested",
-    "reason"}``.
+    Parameters
+    ----------
+    items : list of dict, as for :func:`solve_budget` plus ``"visits_to_power"`` (int or None),
+        ``"visit_h"`` (hours per visit) and optionally ``"value_at_power"`` (expected confirmations)
+    power : float, wanted power of the eccentricity test (0-1)
+    min_gain_per_hour : float, expected confirmations per telescope hour below which a target is
+        not requested
+
+    Returns
+    -------
+    dict, name -> ``{"visits", "hours", "value", "gain_per_hour", "requested", "reason"}`` (hours
+    in hours, gain in expected confirmations per hour; visits, hours and value 0 when not requested)
     """
     out = {}
     for it in items:

@@ -45,9 +45,19 @@ _MAX_PHASES = 400       # reachable phases used in the Fisher exposure choice
 
 
 def visit_overheads(exposure_s: float, inst) -> dict:
-    """Itemised cost of one RV visit (seconds and hours): ``exposure_s``, ``instrument_overhead_s``
-    (the spectrograph's pointing, acquisition and read-out), ``site_slew_setup_s`` (0: covered by the
-    instrument overhead) and ``visit_h`` = their sum / 3600."""
+    """Itemised cost of one RV visit: exposure plus the spectrograph's own overhead.
+
+    Parameters
+    ----------
+    exposure_s : float, exposure time of the visit, seconds
+    inst : :class:`rhofollow.io.instruments.Spectrograph`, its ``overhead_s`` (pointing,
+        acquisition and read-out, seconds) is used
+
+    Returns
+    -------
+    dict: ``exposure_s`` (s, rounded to 0.1), ``instrument_overhead_s`` (s), ``site_slew_setup_s``
+    (0 s: covered by the instrument overhead) and ``visit_h`` = (exposure + overhead) / 3600 (hours)
+    """
     o = float(inst.overhead_s)
     return {"exposure_s": round(float(exposure_s), 1), "instrument_overhead_s": o, "site_slew_setup_s": 0.0,
             "visit_h": (float(exposure_s) + o) / 3600.0}
@@ -60,6 +70,20 @@ def night_phases(night, name: str, visit_h: float, t0_bjd: float, period_d: floa
     The candidates are those the campaign would consider: the starts of
     :func:`rhofollow.planning.tasks.rv_task` inside the night's limits (every grid point of the
     visit observable).
+
+    Parameters
+    ----------
+    night : :class:`rhofollow.planning.campaign.NightVis`, the night's visibility and limits (JD)
+    name : str, target name
+    visit_h : float, duration of one visit, hours
+    t0_bjd : float, mid-transit epoch, BJD_TDB (days)
+    period_d : float, orbital period, days
+    bjd_minus_jd : float, BJD_TDB - JD_UTC during the night, days
+    step_h : float, step of the candidate start grid, hours
+
+    Returns
+    -------
+    ndarray, orbital phases (t - t0) / P mod 1 (cycles, 0 = mid-transit); empty when none
     """
     rec = {"name": name, "n_epochs_confirm_ecc": 1, "visit_h": visit_h, "best_phases": []}
     from rhofollow.planning.tasks import ValueModel
@@ -75,7 +99,20 @@ def night_phases(night, name: str, visit_h: float, t0_bjd: float, period_d: floa
 
 
 def epoch_pool(nights, entry: dict, visit_h: float, step_h: float = 1.0 / 6.0) -> rvreach.EpochPool:
-    """The reachable epochs of one science entry (``name, t0_bjd, period_d, bjd_minus_jd``)."""
+    """The reachable epochs of one science entry over the nights of the range.
+
+    Parameters
+    ----------
+    nights : list of :class:`rhofollow.planning.campaign.NightVis`
+    entry : dict, science entry with ``name``, ``t0_bjd`` (BJD_TDB), ``period_d`` (days) and
+        optionally ``bjd_minus_jd`` (BJD_TDB - JD_UTC, days, default 0)
+    visit_h : float, duration of one visit, hours
+    step_h : float, step of the candidate start grid, hours (default 10 minutes)
+
+    Returns
+    -------
+    :class:`rhofollow.physics.rvreach.EpochPool`, phases (cycles) per night (empty nights dropped)
+    """
     return rvreach.EpochPool([night_phases(n, entry["name"], visit_h, entry["t0_bjd"], entry["period_d"],
                                            entry.get("bjd_minus_jd", 0.0), step_h) for n in nights])
 

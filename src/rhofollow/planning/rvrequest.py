@@ -20,7 +20,17 @@ __all__ = ["plan_rv_requests", "p_eccentric_of"]
 
 
 def p_eccentric_of(assessment, fallback: float) -> float:
-    """P(eccentric explanation) of an assessment (``p_explanation["eccentric"]``), else ``fallback``."""
+    """P(eccentric explanation) of an assessment (``p_explanation["eccentric"]``), else ``fallback``.
+
+    Parameters
+    ----------
+    assessment : object with a ``record`` dict (an assessment), or None
+    fallback : float, probability used when the record has none or it is not a number (0-1)
+
+    Returns
+    -------
+    float, probability (0-1)
+    """
     rec = getattr(assessment, "record", None) or {}
     p = (rec.get("p_explanation") or {}).get("eccentric")
     try:

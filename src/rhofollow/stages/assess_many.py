@@ -20,7 +20,20 @@ def assess_parallel(targets, *, n_samples, prior, seed, transit_prob=True, worke
                     progress=None, dask_address=None):
     """Assess ``targets`` with ``workers`` processes (1 = in this process) or on a dask cluster.
 
-    Results come back in input order. ``progress(k)`` is called with the number of targets finished.
+    Parameters
+    ----------
+    targets : sequence of validated catalogue targets (:class:`rhofollow.core.types.Target`)
+    n_samples : int, posterior samples per target
+    prior : str or EccPrior, eccentricity prior (a string is parsed once)
+    seed : int, run seed; each target's stream depends on (seed, name) only
+    transit_prob : bool, weight the eccentricity prior by the transit probability (1 + e sin w) / (1 - e^2)
+    workers : int, processes (1 = in this process); chunk : int or None, targets per part
+    progress : optional callable ``progress(k)``, called with the number of targets just finished
+    dask_address : str or None, scheduler address of a dask.distributed cluster (overrides ``workers``)
+
+    Returns
+    -------
+    list of Assessment, in input order
     """
     out = []
     for part in assess_stream(targets, n_samples=n_samples, prior=prior, seed=seed,
@@ -38,6 +51,15 @@ def assess_stream(targets, *, n_samples, prior, seed, transit_prob=True, workers
 
     The caller reduces each chunk (records, written samples) and lets its samples go, so memory
     stays bounded by the chunk size times the window (:func:`dispatch`) whatever the catalogue size.
+
+    Parameters
+    ----------
+    targets, n_samples, prior, seed, transit_prob, workers, chunk, dask_address :
+        as for :func:`assess_parallel`
+
+    Yields
+    ------
+    list of Assessment, one chunk at a time, in input order
     """
     if isinstance(prior, str):
         from rhofollow.physics.priors import parse_prior

@@ -38,6 +38,23 @@ def planet_mass_and_k(s: SampleSet, rng: np.random.Generator, relation: str = "a
 
     Planet radius from Rp/R* and R*; a known ``mp_mearth`` (with ``mp_mearth_err``) in ``s.meta``
     replaces the mass-radius relation. K uses each sample's e, inclination, M* and P.
+
+    Parameters
+    ----------
+    s : SampleSet, posterior samples of one target (Rp/R*, R* in R_sun, M* in M_sun, P in days,
+        e, inclination in radians)
+    rng : numpy.random.Generator, source of the mass draws
+    relation : str, mass-radius relation (:data:`rhofollow.physics.massradius.RELATIONS`)
+
+    Returns
+    -------
+    tuple ``(mp, k, used)``: ndarray (S,) planet mass in Earth masses, ndarray (S,) K in m/s,
+    ndarray (S,) of str relation name per sample (``"known"`` for a measured mass)
+
+    Raises
+    ------
+    ValueError
+        Unknown ``relation``.
     """
     rp = s.k * s.rstar * (R_SUN_M / R_EARTH_M)
     known = s.meta.get("mp_mearth")
@@ -63,8 +80,14 @@ def _star_numbers(s: SampleSet):
 def rv_record(s: SampleSet, instrument: Spectrograph, rv_data: RVData | None = None, *, fap=0.01,
               power=0.8, seed=DEFAULT_SEED, relation="auto", k_mode="marginal", n_alt=400, n_null=2000,
               grid: rvconfirm.EccGrid | None = None) -> dict:
-    """The RV record of one target (see module docstring for the keys). Raises ValueError on a
-    target that cannot be planned (for example no V magnitude)."""
+    """The RV record of one target (keys in the module docstring; K m/s, exposure s, visits h).
+
+    ``s`` SampleSet (``meta``: ``vmag``, optional ``jitter_ms`` m/s); ``instrument`` Spectrograph;
+    ``rv_data`` RVData (BJD_TDB, m/s) or None; ``fap``, ``power`` in (0, 1); ``k_mode`` in
+    :data:`K_MODES`; ``n_alt``, ``n_null`` simulated data sets; ``grid`` EccGrid or None. Raises
+    ValueError when the target cannot be planned (no weighted sample, no V magnitude, unknown
+    ``k_mode`` or mass-radius relation); returns the record dict (omega_updated_deg in degrees).
+    """
     if k_mode not in K_MODES:
         raise ValueError(f"unknown K mode {k_mode!r}; choose one of {', '.join(K_MODES)}")
     rec: dict = {"name": s.name, "ok": True, "errors": [], "warnings": [], "instrument": instrument.name}
@@ -183,7 +206,17 @@ def plan_rv(assessments, instrument: Spectrograph, rv_data: dict[str, RVData] | 
     seed : run seed; each target's draws depend on (seed, name) only
     relation : mass-radius relation (see :mod:`rhofollow.physics.massradius`)
     k_mode : how the RV update treats K (see :mod:`rhofollow.physics.rvupdate`)
+    n_alt, n_null : int, simulated data sets (posterior / circular null) per epoch count
     progress : optional callable, invoked once per finished target
+
+    Returns
+    -------
+    list of dict, one record per assessment in input order (units as in :func:`rv_record`)
+
+    Raises
+    ------
+    ValueError
+        ``fap`` or ``power`` outside (0, 1).
     """
     if not 0 < fap < 1 or not 0 < power < 1:
         raise ValueError(f"fap and power must lie in (0, 1), got fap={fap}, power={power}")
