@@ -80,13 +80,39 @@ def _star_numbers(s: SampleSet):
 def rv_record(s: SampleSet, instrument: Spectrograph, rv_data: RVData | None = None, *, fap=0.01,
               power=0.8, seed=DEFAULT_SEED, relation="auto", k_mode="marginal", n_alt=400, n_null=2000,
               grid: rvconfirm.EccGrid | None = None) -> dict:
-    """The RV record of one target (keys in the module docstring; K m/s, exposure s, visits h).
+    """The RV record of one target at uniformly spread phases (keys in the module docstring).
 
-    ``s`` SampleSet (``meta``: ``vmag``, optional ``jitter_ms`` m/s); ``instrument`` Spectrograph;
-    ``rv_data`` RVData (BJD_TDB, m/s) or None; ``fap``, ``power`` in (0, 1); ``k_mode`` in
-    :data:`K_MODES`; ``n_alt``, ``n_null`` simulated data sets; ``grid`` EccGrid or None. Raises
-    ValueError when the target cannot be planned (no weighted sample, no V magnitude, unknown
-    ``k_mode`` or mass-radius relation); returns the record dict (omega_updated_deg in degrees).
+    Parameters
+    ----------
+    s : SampleSet
+        The target's posterior (``meta``: ``vmag``, optional ``jitter_ms`` in m/s).
+    instrument : Spectrograph
+        The spectrograph (precision model, exposure limits in s, overhead in s).
+    rv_data : RVData or None
+        Measured RVs (BJD_TDB, m/s) to test e > 0 on and re-weight with.
+    fap, power : float
+        False-alarm probability and power of the eccentric-vs-circular test, in (0, 1).
+    seed : int
+        Run seed (each step draws from :func:`_rng` of the target).
+    relation : str
+        Mass-radius relation name, or "auto".
+    k_mode : str
+        One of :data:`K_MODES`.
+    n_alt, n_null : int
+        Simulated data sets under the posterior and under the circular null.
+    grid : EccGrid or None
+        The (e, omega) grid of the test.
+
+    Returns
+    -------
+    dict
+        K (m/s) and mass (Earth masses) quantiles, jitter (m/s), exposure (s), precision (m/s), visit
+        length (h), epochs and hours to detect K and to confirm e > 0, the informative phases.
+
+    Raises
+    ------
+    ValueError
+        No weighted sample, no V magnitude, an unknown ``k_mode`` or mass-radius relation.
     """
     if k_mode not in K_MODES:
         raise ValueError(f"unknown K mode {k_mode!r}; choose one of {', '.join(K_MODES)}")
@@ -97,6 +123,20 @@ def rv_record(s: SampleSet, instrument: Spectrograph, rv_data: RVData | None = N
     rec["reliable"], why = reliability(rec["ess"])
     if not rec["reliable"]:
         rec["reliability_note"] = why
+    k = _mass_and_k(rec, s, seed, relation)
+    vmag = s.meta.get("vmag")
+    if vmag is None or not np.isfinite(vmag):
+        raise ValueError("no V magnitude (catalogue column 'vmag'): the RV precision cannot be computed")
+    _jitter(rec, s)
+    texp, sigma = _exposure(rec, s, k, vmag, instrument, fap, power, seed)
+    _confirmation(rec, s, k, sigma, texp, instrument, fap, power, seed, n_alt, n_null, grid)
+    if rv_data is not None:
+        rec.update(_update(s, k, rv_data, rec["jitter_ms"], fap, seed, k_mode, grid, n_null))
+    return rec
+
+
+def _mass_and_k(rec: dict, s: SampleSet, seed, relation) -> np.ndarray:
+    """Planet mass and K draws into ``rec`` (quantiles, relation shares); returns K (m/s) per sample."""
     w = s.weights
     mp, k, used = planet_mass_and_k(s, _rng(seed, s.name, "mass"), relation)
     rec["k_ms"] = quantile_dict(k, w)
@@ -107,10 +147,11 @@ def rv_record(s: SampleSet, instrument: Spectrograph, rv_data: RVData | None = N
     if "giant" in share and share["giant"] > 0.5:
         rec["warnings"].append("planet radius is in the giant regime where radius barely constrains "
                                "mass: K comes from a broad 0.1-13 Jupiter-mass prior")
+    return k
 
-    vmag = s.meta.get("vmag")
-    if vmag is None or not np.isfinite(vmag):
-        raise ValueError("no V magnitude (catalogue column 'vmag'): the RV precision cannot be computed")
+
+def _jitter(rec: dict, s: SampleSet) -> None:
+    """Stellar jitter (m/s) into ``rec``: the catalogue's, or the default for the star's Teff and log g."""
     jit = s.meta.get("jitter_ms")
     if jit is not None and np.isfinite(jit):
         rec["jitter_ms"], rec["jitter_source"] = float(jit), "catalogue"
@@ -118,10 +159,15 @@ def rv_record(s: SampleSet, instrument: Spectrograph, rv_data: RVData | None = N
         teff, logg = _star_numbers(s)
         rec["jitter_ms"] = float(rvnoise.stellar_jitter(teff, logg))
         rec["jitter_source"] = f"default for Teff {teff:.0f} K, log g {logg:.2f}"
-    inst = instrument
-    # exposure per visit: fewest hours to the power on the Fisher estimate, within the instrument's
-    # exposure limits (physics/rvreach.py); a large K gets a short exposure
-    pick = rvreach.choose_exposure_uniform(s.e, s.omega, k, w, vmag, rec["jitter_ms"], inst, fap=fap,
+
+
+def _exposure(rec: dict, s: SampleSet, k, vmag, inst: Spectrograph, fap, power, seed) -> tuple[float, float]:
+    """Exposure per visit (s) and per-epoch precision (m/s) into ``rec``; returns both.
+
+    The fewest hours to the power on the Fisher estimate, within the instrument's exposure limits
+    (physics/rvexposure.py): a large K gets a short exposure.
+    """
+    pick = rvreach.choose_exposure_uniform(s.e, s.omega, k, s.weights, vmag, rec["jitter_ms"], inst, fap=fap,
                                            power=power, seed=_rng(seed, s.name, "exposure"))
     texp = pick["exposure_s"]
     sigma = float(rvnoise.epoch_precision(vmag, texp, inst.precision_ref_ms, inst.vmag_ref,
@@ -130,11 +176,16 @@ def rv_record(s: SampleSet, instrument: Spectrograph, rv_data: RVData | None = N
     rec["exposure_s"] = round(texp, 1)
     rec["sigma_rv_ms"] = sigma
     rec["visit_h"] = float(rvnoise.hours_needed(1, texp, inst.overhead_s))
+    return texp, sigma
 
+
+def _confirmation(rec: dict, s: SampleSet, k, sigma, texp, inst: Spectrograph, fap, power, seed, n_alt,
+                  n_null, grid) -> None:
+    """Epochs and hours to detect K and to confirm e > 0 (uniform phases), and the informative phases."""
+    w = s.weights
     n_k = rvconfirm.epochs_to_detect_k(k, sigma, w, fap, power)
     rec["n_epochs_detect_k"] = n_k
     rec["hours_detect_k"] = None if n_k is None else float(rvnoise.hours_needed(n_k, texp, inst.overhead_s))
-
     n_f = rvconfirm.fisher_epochs_to_confirm(s.e, s.omega, k, sigma, w, fap, power,
                                              seed=_rng(seed, s.name, "fisher"))
     sim = rvconfirm.epochs_to_confirm(s.e, s.omega, k, sigma, fap=fap, power=power, start=n_f,
@@ -153,10 +204,6 @@ def rv_record(s: SampleSet, instrument: Spectrograph, rv_data: RVData | None = N
     _, _, best = rvconfirm.informative_phases(s.e, s.omega, k, w, seed=_rng(seed, s.name, "phases"))
     rec["best_phases"] = [b["phase"] for b in best]
     rec["best_phases_spread_ms"] = [b["spread_ms"] for b in best]
-
-    if rv_data is not None:
-        rec.update(_update(s, k, rv_data, rec["jitter_ms"], fap, seed, k_mode, grid, n_null))
-    return rec
 
 
 def _update(s: SampleSet, k, data: RVData, jitter, fap, seed, k_mode, grid, n_null) -> dict:
