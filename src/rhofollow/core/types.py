@@ -13,7 +13,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["Measurement", "Target", "RowIssue", "CatalogueResult", "RVSeries", "Notice", "NOTICE_KINDS"]
+__all__ = ["Measurement", "Target", "RowIssue", "IssueCollector", "CatalogueResult", "RVSeries", "Notice",
+           "NOTICE_KINDS"]
 
 #: What a :class:`Notice` is about.
 NOTICE_KINDS = {
@@ -184,6 +185,46 @@ class RowIssue:
         col = f", column '{self.column}'" if self.column else ""
         who = f" ({self.name})" if self.name else ""
         return f"{where}{col}{who}: {self.reason}"
+
+
+class IssueCollector:
+    """Collects the problems of one source; :meth:`raise_if_any` rejects it with all of them.
+
+    A reader subclasses it with its own ``error`` class (called as ``error(source, issues)``), so
+    every reader collects and reports row problems the same way.
+
+    Parameters
+    ----------
+    source : str
+        The file (or entry) the problems belong to.
+    """
+
+    error: type = ValueError
+
+    def __init__(self, source: str):
+        self.source = source
+        self.issues: list[RowIssue] = []
+
+    def add(self, row: int, column: str, reason: str, name: str = "") -> None:
+        """Record a problem at a 1-based data row (0: the file or its header) and column.
+
+        Parameters
+        ----------
+        row : int
+            Data row, from 1 (0: the file or its header).
+        column : str
+            The column's name ("" for the whole row or file).
+        reason : str
+            What is wrong, one sentence.
+        name : str
+            The target the row names ("" when none).
+        """
+        self.issues.append(RowIssue(self.source, row, column, reason, name=name))
+
+    def raise_if_any(self) -> None:
+        """Raise ``error(source, issues)`` with every problem recorded so far (nothing when none)."""
+        if self.issues:
+            raise self.error(self.source, self.issues)
 
 
 @dataclass

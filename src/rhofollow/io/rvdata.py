@@ -47,7 +47,7 @@ from pathlib import Path
 
 import numpy as np
 
-from rhofollow.core.types import RowIssue, RVSeries
+from rhofollow.core.types import IssueCollector, RowIssue, RVSeries
 from rhofollow.errors import InputError
 from rhofollow.io.safety import csv_unquote
 
@@ -73,33 +73,10 @@ class RVDataError(InputError, ValueError):
         super().__init__(shown + (f"; and {more} more" if more > 0 else ""), file=self.source)
 
 
-class _Issues:
+class _Issues(IssueCollector):
     """Collects the problems of one file; :meth:`raise_if_any` rejects the file with all of them."""
 
-    def __init__(self, source: str):
-        self.source = source
-        self.issues: list[RowIssue] = []
-
-    def add(self, row: int, column: str, reason: str, name: str = "") -> None:
-        """Record a problem at a 1-based data row (0: the file or its header) and column.
-
-        Parameters
-        ----------
-        row : int
-            Data row, from 1 (0: the file or its header).
-        column : str
-            The column's name ("" for the whole row or file).
-        reason : str
-            What is wrong, one sentence.
-        name : str
-            The target named by the row's ``target`` column ("" when none).
-        """
-        self.issues.append(RowIssue(self.source, row, column, reason, name=name))
-
-    def raise_if_any(self) -> None:
-        """Raise :class:`RVDataError` with every problem recorded so far."""
-        if self.issues:
-            raise RVDataError(self.source, self.issues)
+    error = RVDataError
 
 
 # ------------------------------------------------------------------------------- file reading

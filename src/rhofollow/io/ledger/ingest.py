@@ -13,7 +13,7 @@ import json
 import math
 from pathlib import Path
 
-from rhofollow.core.types import RowIssue, RVSeries
+from rhofollow.core.types import IssueCollector, RVSeries
 from rhofollow.io.ledger.records import (OBSERVATION_KINDS, OBSERVATION_OUTCOMES, TIMING_KINDS,
                                          IngestError)
 from rhofollow.io.ledger.schema import KEYS, row_key
@@ -51,33 +51,10 @@ def sha256(data: bytes) -> str:
     return hashlib.sha256(data).hexdigest()
 
 
-class RowErrors:
+class RowErrors(IssueCollector):
     """Collects the problems of one source; :meth:`raise_if_any` rejects it with all of them."""
 
-    def __init__(self, source: str):
-        self.source = source
-        self.issues: list[RowIssue] = []
-
-    def add(self, row: int, column: str, reason: str, name: str = ""):
-        """Record a problem at a 1-based data row (0: the file or its header) and column.
-
-        Parameters
-        ----------
-        row : int
-            Data row, from 1 (0: the file or its header).
-        column : str
-            The column's name ("" for the whole row or file).
-        reason : str
-            What is wrong, one sentence.
-        name : str
-            The target the row names ("" when none).
-        """
-        self.issues.append(RowIssue(self.source, row, column, reason, name=name))
-
-    def raise_if_any(self):
-        """Raise :class:`IngestError` with every problem recorded so far."""
-        if self.issues:
-            raise IngestError(self.source, self.issues)
+    error = IngestError
 
 
 class Rows(list):
