@@ -195,10 +195,10 @@ def _rv_inputs(args, site):
     hours = None
     if getattr(args, "hours", None):
         from rhofollow.cli.options import parse_hours
-        from rhofollow.pipeline import _instruments
+        from rhofollow.pipeline import instruments
 
         try:
-            spec, _phot = _instruments(site)
+            spec, _phot = instruments(site)
         except PipelineError as exc:
             raise UserError(str(exc)) from None
         hours = parse_hours(args.hours, [spec.name] if spec is not None else [])
