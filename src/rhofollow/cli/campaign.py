@@ -98,8 +98,8 @@ def run(args) -> int:
     """
     from rhofollow.cli.common import count_progress
 
-    from rhofollow.planning.campaign import NightVis, hours_table, plan_campaign, to_ical
-    from rhofollow.planning.night import CAUTION, night_visibility
+    from rhofollow.planning.campaign import hours_table, plan_campaign, range_nights, to_ical
+    from rhofollow.planning.night import CAUTION
     from rhofollow.planning.tasks import jd_to_iso
     from rhofollow.planning.visibility import VisibilityEngine
 
@@ -115,12 +115,9 @@ def run(args) -> int:
     if prep.stages is None:
         return nothing_to_plan("campaign", args, prep, {"start": str(start), "end": str(end),
                                                         "timezone": site.timezone, "hours_total": {}})
-    nights = []
     with count_progress(len(grids), "visibility") as prog:
         task = prog.add_task("visibility", total=len(grids))
-        for g in grids:
-            nights.append(NightVis(str(g.date), night_visibility(eng, g, prep.science), g.start_jd, g.end_jd))
-            prog.advance(task)
+        nights = range_nights(eng, grids, prep.science, lambda: prog.advance(task))
     from rhofollow.cli.common import stage_progress
     from rhofollow.pipeline import PipelineOptions, instruments, rv_request
 

@@ -118,20 +118,16 @@ def rv_request_over_range(args, eng, site, prep, start, end):
     """
     from rhofollow.cli.common import count_progress, stage_progress
     from rhofollow.pipeline import PipelineOptions, instruments, rv_request
-    from rhofollow.planning.campaign import NightVis
-    from rhofollow.planning.night import night_visibility
+    from rhofollow.planning.campaign import range_nights
 
     spec, _phot = instruments(site)
     hours = parse_hours(args.hours, [spec.name] if spec is not None else [])
     if spec is None or not any(e.get("rv") for e in prep.science):
         return None
     grids = [g for g in eng.nights(start, end) if g.kind != "no_night"]
-    nights = []
     with count_progress(len(grids), "visibility") as prog:
         task = prog.add_task("visibility", total=len(grids))
-        for g in grids:
-            nights.append(NightVis(str(g.date), night_visibility(eng, g, prep.science), g.start_jd, g.end_jd))
-            prog.advance(task)
+        nights = range_nights(eng, grids, prep.science, lambda: prog.advance(task))
     with stage_progress() as stage:
         return rv_request(prep.stages, nights, site,
                           PipelineOptions(seed=args.seed, rv_hours=hours, ledger=args.ledger), stage)

@@ -148,8 +148,8 @@ def update_table(records: list[dict], fap: float, width: int = 80) -> FittedTabl
 
 def _reachable(args, assessments, records, inst) -> str:
     """Rewrite the records with the time-to-confirm at the site's reachable epochs; returns a label."""
-    from rhofollow.planning.campaign import NightVis
-    from rhofollow.planning.night import night_visibility, science_from_records
+    from rhofollow.planning.campaign import range_nights
+    from rhofollow.planning.night import science_from_records
     from rhofollow.planning.rvreach import reachable_rv
     from rhofollow.planning.visibility import VisibilityEngine
     from rhofollow.cli.options import load_site_arg, night_range
@@ -164,7 +164,7 @@ def _reachable(args, assessments, records, inst) -> str:
     if not grids:
         raise UserError(f"no dark time at {site.name} between {start} and {end}")
     sci, _ = science_from_records(assessments, [], records)
-    nights = [NightVis(str(g.date), night_visibility(eng, g, sci), g.start_jd, g.end_jd) for g in grids]
+    nights = range_nights(eng, grids, sci)
     reachable_rv(assessments, sci, nights, inst, loss_fraction=site.loss_fraction, fap=args.fap,
                  power=args.power, seed=args.seed, n_alt=min(400, args.sims), n_null=args.sims,
                  relation=args.relation)

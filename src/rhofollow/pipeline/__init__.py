@@ -228,7 +228,7 @@ def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: Pipelin
     PipelineError
         End before start, too many nights, no dark time in the range, bad prior or instrument file.
     """
-    from rhofollow.planning.campaign import NightVis, plan_campaign
+    from rhofollow.planning.campaign import plan_campaign, range_nights
     from rhofollow.planning.night import night_visibility
     from rhofollow.planning.tasks import jd_to_iso
     from rhofollow.planning.visibility import VisibilityEngine
@@ -256,10 +256,7 @@ def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: Pipelin
     # BJD - JD offset of the night it last saw in the science dicts
     night_doc = _first_night(eng, first, stages, site, opts, catalogue)
     adv(1)
-    nights = []
-    for g in grids:
-        nights.append(NightVis(str(g.date), night_visibility(eng, g, stages.science), g.start_jd, g.end_jd))
-        adv(1)
+    nights = range_nights(eng, grids, stages.science, lambda: adv(1))
     timings["visibility_s"] = time.perf_counter() - t
 
     req = rv_request(stages, nights, site, opts, progress)

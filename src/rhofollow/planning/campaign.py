@@ -40,7 +40,7 @@ from rhofollow.planning.scheduler import FixedTask, FlexibleTask, Schedule, sche
 from rhofollow.planning.tasks import VisGrid, jd_to_iso, occultation_tasks, rv_task
 from rhofollow.planning.values import ValueModel, phase_weight
 
-__all__ = ["NightVis", "CampaignPlan", "plan_campaign", "scheduler_summary", "hours_table", "to_ical",
+__all__ = ["NightVis", "range_nights", "CampaignPlan", "plan_campaign", "scheduler_summary", "hours_table", "to_ical",
            "TABLE_FORMATS", "TIME_LIMIT_S", "MIP_REL_GAP"]
 
 # hours_table, to_ical and TABLE_FORMATS live in .campaign_export; importable from here as before.
@@ -60,6 +60,36 @@ class NightVis:
     vis: VisGrid
     start_jd: float
     end_jd: float
+
+
+def range_nights(engine, grids, science: list[dict], advance=None) -> list[NightVis]:
+    """The visibility of every night of a date range, in order, for the science targets.
+
+    Parameters
+    ----------
+    engine : :class:`~rhofollow.planning.visibility.VisibilityEngine`
+        The site's visibility engine.
+    grids : list of night grids
+        The nights (``engine.nights(start, end)`` without the nights that have no dark time).
+    science : list of dict
+        The science records; :func:`~rhofollow.planning.night.night_visibility` stores each
+        target's BJD - JD offset (days) of the night it saw last in them.
+    advance : callable, optional
+        Called with no argument after each night (a progress bar).
+
+    Returns
+    -------
+    list of NightVis
+        One per night: local evening date, visibility grid, night limits (JD UTC).
+    """
+    from rhofollow.planning.night import night_visibility
+
+    nights = []
+    for g in grids:
+        nights.append(NightVis(str(g.date), night_visibility(engine, g, science), g.start_jd, g.end_jd))
+        if advance is not None:
+            advance()
+    return nights
 
 
 @dataclass
