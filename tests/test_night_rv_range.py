@@ -1,6 +1,7 @@
 """``night`` counts the RV visits to confirm at the epochs the site reaches over the campaign's range,
 as ``campaign`` does: the same request (visits, hours, power) and the same visit length for the same
-target, range and seed; the night's RV blocks last one requested visit."""
+target, range and seed; the night's RV blocks last one requested visit.
+Consistency of the tool's own outputs with each other, not physics values: common practice, no source."""
 from __future__ import annotations
 
 import json

@@ -1,6 +1,7 @@
 """``--table md|latex|csv``: the RV request per target for a proposal. Every number of the table is
 the JSON's number (the results records for ``plan``, the ``proposal`` block and the per-target
-records for ``campaign``), in every format; LaTeX and Markdown cells are escaped."""
+records for ``campaign``), in every format; LaTeX and Markdown cells are escaped.
+Consistency of the tool's own outputs with each other, not physics values: common practice, no source."""
 from __future__ import annotations
 
 import csv

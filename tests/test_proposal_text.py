@@ -1,4 +1,5 @@
-"""The proposal paragraph per requested RV target: its numbers are the records' numbers."""
+"""The proposal paragraph per requested RV target: its numbers are the records' numbers.
+Consistency of the tool's own outputs with each other, not physics values: common practice, no source."""
 from __future__ import annotations
 
 import re

@@ -1,4 +1,5 @@
-"""`rv --site --start --end` and `campaign` give the same visits and hours for the same target."""
+"""`rv --site --start --end` and `campaign` give the same visits and hours for the same target.
+Consistency of the tool's own outputs with each other, not physics values: common practice, no source."""
 from __future__ import annotations
 
 import json
