@@ -18,8 +18,9 @@ import numpy as np
 
 from rhofollow.physics.constants import DAY_S, G_SI, GM_EARTH_SI, GM_SUN_SI
 from rhofollow.physics.kepler import mean_anomaly_at_transit, true_anomaly
+from rhofollow.physics.kepler_solver import solve_kepler
 
-__all__ = ["semi_amplitude", "true_anomaly_at", "rv_shape", "rv_curve",
+__all__ = ["semi_amplitude", "true_anomaly_at", "rv_shape", "rv_shape_gradient", "rv_curve",
            "circular_shape"]
 
 _TWO_PI = 2.0 * np.pi
@@ -84,6 +85,56 @@ def rv_shape(phase, e, omega):
     omega = np.asarray(omega, dtype=float)
     f = true_anomaly_at(phase, e, omega)
     return np.cos(f + omega) + np.asarray(e, dtype=float) * np.cos(omega)
+
+
+def rv_shape_gradient(phase, e, omega):
+    """The unit RV curve and its exact derivatives in h = e cos(omega) and q = e sin(omega).
+
+    At a fixed phase from mid-transit the mean anomaly is M = 2 pi phase + M_t(e, omega), with M_t
+    the mean anomaly at transit (true anomaly f_t = pi/2 - omega). With Kepler's equation in the form
+    M(f, e), whose partials are dM/df = (1 - e^2)^(3/2) / (1 + e cos f)^2 and
+    dM/de = -sin f (2 + e cos f) sqrt(1 - e^2) / (1 + e cos f)^2 (Murray & Dermott 1999, *Solar
+    System Dynamics*, sec. 2.4, df/dM and df/de at fixed M), the true anomaly moves by
+    df/de = (dM/de(f_t) - dM/de(f)) / dM/df(f) and df/domega = -dM/df(f_t) / dM/df(f), and
+    s = cos(f + omega) + e cos(omega) follows by the chain rule; (h, q) from (e, omega) by
+    de/dh = cos w, de/dq = sin w, dw/dh = -sin w / e, dw/dq = cos w / e, with the 1/e factors
+    cancelled analytically so that e = 0 is regular. One Kepler solve per point, against five
+    for central differences; equal to them to their truncation error (tests/test_rv_gradient.py).
+
+    Parameters
+    ----------
+    phase : ndarray, orbital phase (t - t0) / P (0 = mid-transit), broadcast against e and omega
+    e : ndarray, eccentricity in [0, 0.999]
+    omega : ndarray, star's argument of periastron, radians (RV convention)
+
+    Returns
+    -------
+    tuple of ndarray ``(s, ds_dh, ds_dq)``: the dimensionless curve and its partial derivatives,
+    all of the broadcast shape.
+    """
+    e = np.asarray(e, dtype=float)
+    omega = np.asarray(omega, dtype=float)
+    cw, sw = np.cos(omega), np.sin(omega)
+    mean_anom = _TWO_PI * np.asarray(phase, dtype=float) + mean_anomaly_at_transit(e, omega)
+    big_e = solve_kepler(mean_anom, e)
+    # cos f and sin f from tan(E/2) and tan(f/2) = sqrt((1+e)/(1-e)) tan(E/2) (numpy's tangent is
+    # vectorised, its sine and cosine of large arrays are not)
+    tau = np.sqrt((1.0 + e) / (1.0 - e)) * np.tan(0.5 * big_e)
+    tau2 = tau * tau
+    cf = (1.0 - tau2) / (1.0 + tau2)
+    sf = 2.0 * tau / (1.0 + tau2)
+    c_sum = cf * cw - sf * sw                 # cos(f + omega)
+    s_sum = sf * cw + cf * sw                 # sin(f + omega)
+    shape = c_sum + e * cw
+    rt = np.sqrt(1.0 - e * e)
+    den, den_t = 1.0 + e * cf, 1.0 + e * sw   # cos f_t = sin omega, sin f_t = cos omega
+    ratio = (den / den_t) ** 2                # dM/df(f_t) / dM/df(f)
+    df_de = (sf * (2.0 + e * cf) - cw * (2.0 + e * sw) * ratio) / (rt * rt)
+    # (1 + df/domega) / e, without the cancellation of 1 - ratio at small e
+    one_plus_df_dw_over_e = (sw - cf) * (2.0 + e * (sw + cf)) / (den_t * den_t)
+    ds_de = -s_sum * df_de + cw
+    ds_dw_over_e = -s_sum * one_plus_df_dw_over_e - sw
+    return shape, ds_de * cw - ds_dw_over_e * sw, ds_de * sw + ds_dw_over_e * cw
 
 
 def circular_shape(phase):

@@ -15,7 +15,7 @@ from __future__ import annotations
 import numpy as np
 from scipy import special, stats
 
-from rhofollow.physics.rv import circular_shape, rv_shape
+from rhofollow.physics.rv import circular_shape, rv_shape, rv_shape_gradient
 
 __all__ = ["EccGrid", "ecc_grid", "profiled_chi2", "lrt_statistic", "simulate_lrt", "power_at",
            "epochs_to_confirm", "epochs_to_detect_k_simple", "epochs_to_detect_k",
@@ -328,7 +328,7 @@ def ncx2_sf_1dof(x, lam):
 FISHER_PHASES = ((0.6, 64), (1.0, 256))
 
 
-def fisher_noncentrality(e, omega, k, sigma, n_phase: int | None = None, step: float = 1e-4):
+def fisher_noncentrality(e, omega, k, sigma, n_phase: int | None = None):
     """Per-epoch Fisher non-centrality of the eccentricity test, per posterior sample.
 
     Parameters theta = (gamma, K, h = e cos omega, q = e sin omega); the per-epoch Fisher matrix is
@@ -343,44 +343,43 @@ def fisher_noncentrality(e, omega, k, sigma, n_phase: int | None = None, step: f
     k = np.atleast_1d(np.asarray(k, float))
     e, om, k = np.broadcast_arrays(e, om, k)
     if n_phase is not None:
-        return _fisher_lambda(e, om, k, sigma, int(n_phase), step)
+        return _fisher_lambda(e, om, k, sigma, int(n_phase))
     out = np.empty(e.shape)
     band = np.searchsorted([lim for lim, _ in FISHER_PHASES[:-1]], e, side="left")
     for i, (_, n) in enumerate(FISHER_PHASES):
         sel = band == i
         if sel.any():
-            out[sel] = _fisher_lambda(e[sel], om[sel], k[sel], sigma, n, step)
+            out[sel] = _fisher_lambda(e[sel], om[sel], k[sel], sigma, n)
     return out
 
 
-def _fisher_lambda(e, om, k, sigma, n_phase, step):
+def _fisher_lambda(e, om, k, sigma, n_phase):
     """:func:`fisher_noncentrality` on ``n_phase`` midpoint phases (1-d arrays of one length)."""
-    return fisher_lambda_at_phases(e, om, k, (np.arange(n_phase) + 0.5) / n_phase, sigma, step)
+    return fisher_lambda_at_phases(e, om, k, (np.arange(n_phase) + 0.5) / n_phase, sigma)
 
 
-def fisher_lambda_at_phases(e, om, k, ph, sigma=1.0, step=1e-4, ridge=0.0):
+def fisher_lambda_at_phases(e, om, k, ph, sigma=1.0, ridge=0.0):
     """Per-visit Fisher non-centrality of the eccentricity test, the Fisher matrix averaged over the
     phases ``ph`` (1-d), per sample (1-d ``e``, ``om`` [rad], ``k`` [m/s]), at RV error ``sigma`` (m/s).
     Parameters (gamma, K, e cos w, e sin w); the (e cos w, e sin w) block, profiled over (gamma, K) by
-    its Schur complement, is taken at the sample's own values. Central differences of size ``step``;
-    ``ridge`` regularises the (gamma, K) block (one phase alone makes it degenerate).
+    its Schur complement, is taken at the sample's own values. Exact derivatives of the curve
+    (:func:`rhofollow.physics.rv.rv_shape_gradient`); ``ridge`` regularises the (gamma, K) block
+    (one phase alone makes it degenerate).
     """
     h, q = e * np.cos(om), e * np.sin(om)
-
-    def shape(hh, qq):
-        return rv_shape(ph[None, :], np.hypot(hh, qq)[:, None], np.arctan2(qq, hh)[:, None])
-
-    s0 = shape(h, q)
-    dh = (shape(h + step, q) - shape(h - step, q)) / (2 * step)
-    dq = (shape(h, q + step) - shape(h, q - step)) / (2 * step)
-    grads = np.stack([np.ones_like(s0), s0, k[:, None] * dh, k[:, None] * dq], axis=1)  # (S, 4, P)
-    fis = np.einsum("sip,sjp->sij", grads, grads) / (ph.size * sigma * sigma)
-    a, b, c = fis[:, 2:, 2:], fis[:, 2:, :2], fis[:, :2, :2]
-    if ridge:
-        c = c + ridge * np.eye(2)
-    schur = a - b @ np.linalg.solve(c, np.swapaxes(b, 1, 2))
-    theta = np.stack([h, q], axis=1)
-    return np.einsum("si,sij,sj->s", theta, schur, theta)
+    s0, dh, dq = rv_shape_gradient(ph[None, :], e[:, None], om[:, None])
+    # Fisher entries (per visit, times sigma^2) for (gamma, K, h, q): means over the phases
+    m = lambda x: x.mean(axis=1)  # noqa: E731
+    f_k, f_kk = m(s0), m(s0 * s0)
+    f_h, f_q, f_kh, f_kq = k * m(dh), k * m(dq), k * m(s0 * dh), k * m(s0 * dq)
+    f_hh, f_hq, f_qq = k * k * m(dh * dh), k * k * m(dh * dq), k * k * m(dq * dq)
+    # (h, q) block profiled over (gamma, K): theta^T (A - B C^-1 B^T) theta with C the (gamma, K)
+    # block (+ ridge I), by the explicit 2 x 2 inverse; u = B^T theta
+    c_gg, c_kk = 1.0 + ridge, f_kk + ridge
+    det = c_gg * c_kk - f_k * f_k
+    u_g, u_k = h * f_h + q * f_q, h * f_kh + q * f_kq
+    quad = h * h * f_hh + 2.0 * h * q * f_hq + q * q * f_qq
+    return (quad - (u_g * u_g * c_kk - 2.0 * u_g * u_k * f_k + u_k * u_k * c_gg) / det) / (sigma * sigma)
 
 
 def fisher_epochs_to_confirm(e, omega, k, sigma, weights=None, fap=0.01, power=0.8, n_min=5,

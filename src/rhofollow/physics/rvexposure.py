@@ -14,7 +14,7 @@ import math
 import numpy as np
 from scipy import stats
 
-from rhofollow.physics.rvconfirm import fisher_lambda_at_phases
+from rhofollow.physics.rvconfirm import fisher_lambda_at_phases, fisher_noncentrality
 from rhofollow.physics.rvnoise import epoch_precision
 
 __all__ = ["N_MIN", "fisher_noncentrality_at", "choose_exposure", "choose_exposure_uniform"]
@@ -30,7 +30,7 @@ def _draw_indices(weights, n, rng, size):
     return rng.permutation(np.searchsorted(cw, (rng.random() + np.arange(n)) / n))
 
 
-def fisher_noncentrality_at(e, omega, k, phases, step: float = 1e-4) -> np.ndarray:
+def fisher_noncentrality_at(e, omega, k, phases) -> np.ndarray:
     """Per-visit Fisher non-centrality of the eccentricity test at unit RV error, per sample.
 
     As :func:`rhofollow.physics.rvconfirm.fisher_noncentrality` but with the Fisher matrix averaged
@@ -40,7 +40,6 @@ def fisher_noncentrality_at(e, omega, k, phases, step: float = 1e-4) -> np.ndarr
     ----------
     e, omega, k : posterior samples (eccentricity, omega [rad], K [m/s])
     phases : the phases (0..1) the Fisher matrix is averaged over
-    step : central-difference step in e cos omega and e sin omega
 
     Returns
     -------
@@ -52,7 +51,7 @@ def fisher_noncentrality_at(e, omega, k, phases, step: float = 1e-4) -> np.ndarr
     k = np.atleast_1d(np.asarray(k, float))
     ph = np.asarray(phases, float).ravel()
     # c + 1e-9 I: with one phase only, gamma and K are degenerate
-    return np.maximum(fisher_lambda_at_phases(e, om, k, ph, 1.0, step, ridge=1e-9), 0.0)
+    return np.maximum(fisher_lambda_at_phases(e, om, k, ph, 1.0, ridge=1e-9), 0.0)
 
 
 def choose_exposure(lam_unit, weights, vmag, jitter_ms, inst, *, n_cap: int, loss: float = 0.0,
@@ -159,7 +158,7 @@ def choose_exposure_uniform(e, omega, k, weights, vmag, jitter_ms, inst, *, fap:
     rng = np.random.default_rng(seed)
     n = min(max_samples, e.size)
     idx = _draw_indices(weights, n, rng, e.size)
-    ph = (np.arange(256) + 0.5) / 256
-    lam = fisher_noncentrality_at(e[idx], omega[idx], k[idx], ph)
+    # uniform phases: the midpoint rule at the e-dependent number of phases of fisher_noncentrality
+    lam = np.maximum(fisher_noncentrality(e[idx], omega[idx], k[idx], 1.0), 0.0)
     lad = list(ladder or N_LADDER)
     return choose_exposure(lam, None, vmag, jitter_ms, inst, n_cap=lad[-1], fap=fap, power=power, ns=lad)
