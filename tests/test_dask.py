@@ -71,3 +71,27 @@ def test_stages_on_dask_and_pool_equal_serial(targets, cluster):
     # byte-identical records, lrt_threshold included, in every execution mode
     assert _dump(remote) == _dump(serial)
     assert _dump(pool) == _dump(serial)
+
+
+def test_reachable_rv_and_request_equal_serial(targets, cluster):
+    # the reachable-epoch power curves run through the executor as well: the RV records (power
+    # curves, visits, thresholds) and the campaign's request are the same bytes in every mode
+    import datetime as dt
+
+    from rhofollow.pipeline import run_pipeline
+
+    site = load_site(ROOT / "site_configs" / "alto_quemado.toml")
+    start, end = dt.date(2026, 12, 10), dt.date(2026, 12, 20)
+    base = dict(samples=2000, seed=5, sims=100)
+
+    def dump(res):
+        return json.dumps({"rv": res.stages.rv, "request": res.campaign.get("rv_request"),
+                           "science": [{k: v for k, v in s.items() if k == "n_done"} for s in res.stages.science]},
+                          sort_keys=True, default=str)
+
+    serial = run_pipeline(targets, site, start, end, PipelineOptions(**base))
+    assert any((r.get("confirm_reachable") or {}).get("power_curve") for r in serial.stages.rv)
+    pool = run_pipeline(targets, site, start, end, PipelineOptions(workers=2, **base))
+    remote = run_pipeline(targets, site, start, end, PipelineOptions(dask_address=cluster.scheduler_address, **base))
+    assert dump(pool) == dump(serial)
+    assert dump(remote) == dump(serial)

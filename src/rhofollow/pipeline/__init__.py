@@ -185,7 +185,8 @@ def rv_request(stages: Stages, nights, site, opts: PipelineOptions, progress: St
     req = plan_rv_requests(stages.assessments, stages.science, nights, spec, loss_fraction=site.loss_fraction,
                            fap=opts.fap, power=opts.power, seed=opts.seed, n_null=opts.sims,
                            n_alt=min(400, opts.sims), hours=opts.rv_hours, progress=adv,
-                           epochs_in_hand=epochs_from_ledger(opts.ledger, [e["name"] for e in stages.science]))
+                           epochs_in_hand=epochs_from_ledger(opts.ledger, [e["name"] for e in stages.science]),
+                           workers=max(1, int(opts.workers or 1)), dask_address=opts.dask_address)
     stages.timings["rv_reachable_s"] = time.perf_counter() - t
     return req
 

@@ -44,11 +44,12 @@ __all__ = ["NightVis", "range_nights", "CampaignPlan", "plan_campaign", "schedul
            "TABLE_FORMATS", "TIME_LIMIT_S", "MIP_REL_GAP"]
 
 # hours_table, to_ical and TABLE_FORMATS live in .campaign_export; importable from here as before.
-#: Solver time limit per night (seconds) when RV visits compete (the MILP); a night's problem is
-#: solved in well under a second, so the limit only guards against a pathological instance.
+#: Solver time limit per night (seconds) when RV visits compete (the MILP; see
+#: :data:`rhofollow.planning.milp.DEFAULT_TIME_LIMIT_S`).
 TIME_LIMIT_S = DEFAULT_TIME_LIMIT_S
-#: Relative optimality gap accepted per night: 0, each night's schedule is proven optimal unless
-#: the time limit stops the solver (then ``scheduler.nights_not_optimal`` names the night and gap).
+#: Relative optimality gap accepted per night (1 %): each night's schedule is proven within it
+#: unless the time limit stops the solver (then ``scheduler.nights_not_optimal`` names the night
+#: and the gap reached).
 MIP_REL_GAP = DEFAULT_MIP_REL_GAP
 
 

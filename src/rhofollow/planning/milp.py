@@ -22,11 +22,17 @@ from rhofollow.planning.blocks import (EPS, Candidate, Schedule, ScheduleError, 
 
 __all__ = ["solve_milp", "DEFAULT_TIME_LIMIT_S", "DEFAULT_MIP_REL_GAP"]
 
-#: Solver time limit per problem (seconds) unless the caller gives one: a night's problem is
-#: solved in well under a second; the limit only guards against a pathological instance.
-DEFAULT_TIME_LIMIT_S = 60.0
-#: Relative optimality gap accepted by default: 0, the schedule is proven optimal.
-DEFAULT_MIP_REL_GAP = 0.0
+#: Solver time limit per problem (seconds) unless the caller gives one. A night of a few dozen
+#: targets is solved in well under a second; with hundreds of competing RV visits the LP relaxation
+#: stays fractional (its bound 1-2 % above the integer optimum) and proving the last fraction of a
+#: per cent took 5-60 s per night on 200 candidates (2026-12-03), so the limit is what bounds a
+#: survey-size run. Hitting it returns the best schedule found, with its gap.
+DEFAULT_TIME_LIMIT_S = 20.0
+#: Relative optimality gap accepted by default (dimensionless): the schedule's value is proven
+#: within 1 % of the best possible. On 200 candidates x 10 nights this solved 3.5x faster than
+#: a proof of optimality, for a total value 0.03 % lower; the values themselves are scores
+#: whose inputs (posteriors, weather) are far less certain than 1 %.
+DEFAULT_MIP_REL_GAP = 0.01
 
 
 def solve_milp(tasks: Sequence[Task], overhead: float = 0.0, horizon: tuple | None = None,

@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from rhofollow.core.timescales import bjd_minus_jd  # noqa: F401  (its home; importable from here)
+from rhofollow.planning.milp import DEFAULT_TIME_LIMIT_S
 from rhofollow.planning.scheduler import Schedule, schedule
 from rhofollow.planning.tasks import ValueModel, VisGrid, ecc_evidence, jd_to_iso, occultation_tasks, rv_task
 
@@ -108,7 +109,7 @@ def _what(task_name: str, target: str) -> str:
 
 def plan_night(science: list[dict], vis: VisGrid, *, site: str, night_start_jd: float,
                night_end_jd: float, overhead_h: float = 0.0, model: ValueModel = ValueModel(),
-               method: str = "auto", time_limit: float | None = 60.0) -> NightPlan:
+               method: str = "auto", time_limit: float | None = DEFAULT_TIME_LIMIT_S) -> NightPlan:
     """Choose the night's blocks (exact: DP for windows only, MILP as soon as RV visits compete).
 
     Parameters
@@ -129,7 +130,8 @@ def plan_night(science: list[dict], vis: VisGrid, *, site: str, night_start_jd: 
     method : str
         Scheduler method ("auto", "dp", "milp", "greedy"); "greedy" only for comparisons.
     time_limit : float or None
-        MILP time limit (seconds), used when RV visits compete.
+        MILP time limit (seconds), used when RV visits compete (the MILP accepts its default
+        relative gap, :data:`rhofollow.planning.milp.DEFAULT_MIP_REL_GAP`).
 
     Returns
     -------

@@ -131,8 +131,14 @@ def _subsample(s, k, seed, name):
 
 def reachable_rv(assessments, science: list[dict], nights, inst, *, loss_fraction: float,
                  fap: float = 0.01, power: float = 0.8, seed: int = 0, n_alt: int = 400, n_null: int = 2000,
-                 relation: str = "auto", progress=None, epochs_in_hand: dict | None = None) -> None:
+                 relation: str = "auto", progress=None, epochs_in_hand: dict | None = None, workers: int = 1,
+                 dask_address: str | None = None) -> None:
     """Time-to-confirm at reachable epochs for every science entry with an RV record (in place).
+
+    The posterior draws of each target (mass and K, then the weighted resample) are made here; the
+    power curves run through :func:`rhofollow.core.executor.dispatch` (this process, a process pool
+    or a dask cluster), each target with only its draws and its own rows of the nights' visibility,
+    so every mode gives the same records.
 
     Parameters
     ----------
@@ -150,36 +156,102 @@ def reachable_rv(assessments, science: list[dict], nights, inst, *, loss_fractio
     epochs_in_hand : target name -> (BJD_TDB (days), RV errors (m/s)) of the RVs already measured
         (:func:`epochs_from_ledger`), or None. They enter the power curve (:func:`_in_hand`), so the
         visits to request are those on top of them.
+    workers, dask_address : where the power curves run (as ``plan --workers`` / ``--dask``)
 
     Returns
     -------
     None (the records are updated in place)
     """
-    from rhofollow.stages.rv import _rng, planet_mass_and_k
+    from rhofollow.core.executor import dispatch
 
     samples = {a.name: a.samples for a in assessments if getattr(a, "samples", None) is not None}
-    for entry in science:
+    hand = epochs_in_hand or {}
+    todo = []
+    for i, entry in enumerate(science):
         rec = entry.get("rv")
-        s = samples.get(entry["name"])
-        if rec and rec.get("ok", True) and s is not None and "sigma_rv_ms" in rec \
+        if rec and rec.get("ok", True) and samples.get(entry["name"]) is not None and "sigma_rv_ms" in rec \
                 and np.isfinite(entry.get("period_d", np.nan)) and np.isfinite(entry.get("t0_bjd", np.nan)):
-            try:
-                _one(rec, entry, s, nights, inst, loss_fraction, fap, power, seed, n_alt, n_null, relation,
-                     _rng, planet_mass_and_k, (epochs_in_hand or {}).get(entry["name"]))
-            except Exception as exc:  # noqa: BLE001 - one target's failure stays with that target
-                rec.setdefault("warnings", []).append(
-                    f"time-to-confirm at reachable epochs failed ({type(exc).__name__}: {exc}); "
-                    "the uniform-phase answer is kept")
-        if progress is not None:
+            todo.append(i)
+        elif progress is not None:
             progress()
+    settings = (inst, loss_fraction, fap, power, seed, n_alt, n_null)
+
+    def make_job(part):
+        return ([_reach_job(i, science[i], samples[science[i]["name"]], nights, seed, relation,
+                            hand.get(science[i]["name"])) for i in part], settings)
+
+    for done in dispatch(_reach_chunk, todo, workers=workers, dask_address=dask_address, make_job=make_job):
+        for i, rec, n_done in done:
+            entry = science[i]
+            if rec is not entry["rv"]:  # from another process: the stage's dict keeps its identity
+                entry["rv"].clear()
+                entry["rv"].update(rec)
+            if n_done is not None:
+                entry["n_done"] = n_done
+            if progress is not None:
+                progress()
 
 
-def _one(rec, entry, s, nights, inst, loss, fap, power, seed, n_alt, n_null, relation, _rng, mass_and_k,
-         in_hand=None):
+def _target_nights(nights, name: str) -> list:
+    """The nights with only ``name``'s row of their visibility (what one target's curve needs)."""
+    from rhofollow.planning.campaign import NightVis
+    from rhofollow.planning.visgrid import VisGrid
+
+    out = []
+    for n in nights:
+        v = n.vis
+        rows = [v.row(name)] if name in v.names else []
+        out.append(NightVis(n.date, VisGrid(v.t_jd, [name] if rows else [], v.observable[rows], v.airmass[rows]),
+                            n.start_jd, n.end_jd))
+    return out
+
+
+def _reach_job(i, entry, s, nights, seed, relation, in_hand):
+    """One target's job for :func:`_reach_chunk`: its draws (or the error they raised) and its nights."""
+    from rhofollow.stages.rv import _rng, planet_mass_and_k
+
     name = entry["name"]
-    _mp, k, _used = mass_and_k(s, _rng(seed, name, "mass"), relation)
-    e, om, kk = _subsample(s, k, seed, name)
-    vmag = float(s.meta.get("vmag"))
+    small = {key: entry[key] for key in ("name", "t0_bjd", "period_d", "bjd_minus_jd", "n_done") if key in entry}
+    try:
+        _mp, k, _used = planet_mass_and_k(s, _rng(seed, name, "mass"), relation)
+        draws = _subsample(s, k, seed, name) + (float(s.meta.get("vmag")),)
+    except Exception as exc:  # noqa: BLE001 - reported with the target by _reach_chunk
+        draws = exc
+    return i, entry["rv"], small, draws, _target_nights(nights, name), in_hand
+
+
+def _reach_chunk(jobs, settings):
+    """The reachable-epoch answers of a chunk of targets: ``[(index, rv record, n_done)]``.
+
+    Parameters
+    ----------
+    jobs : list of :func:`_reach_job` tuples
+    settings : (spectrograph, loss fraction, fap, power, seed, n_alt, n_null)
+
+    Returns
+    -------
+    list of tuples (index in the science list, the updated record, the entry's ``n_done`` or None)
+    """
+    inst, loss, fap, power, seed, n_alt, n_null = settings
+    out = []
+    for i, rec, entry, draws, nights, in_hand in jobs:
+        try:
+            if isinstance(draws, Exception):
+                raise draws
+            _one(rec, entry, draws, nights, inst, loss, fap, power, seed, n_alt, n_null, in_hand)
+        except Exception as exc:  # noqa: BLE001 - one target's failure stays with that target
+            rec.setdefault("warnings", []).append(
+                f"time-to-confirm at reachable epochs failed ({type(exc).__name__}: {exc}); "
+                "the uniform-phase answer is kept")
+        out.append((i, rec, entry.get("n_done")))
+    return out
+
+
+def _one(rec, entry, draws, nights, inst, loss, fap, power, seed, n_alt, n_null, in_hand=None):
+    from rhofollow.stages.rv import _rng
+
+    name = entry["name"]
+    e, om, kk, vmag = draws
     rec.setdefault("uniform_phase", {key: rec.get(key) for key in ("n_epochs_confirm_ecc", "hours_confirm_ecc",
                                                           "exposure_s", "sigma_rv_ms", "visit_h", "power_at_n")})
     # exposure: fewest hours on the Fisher estimate at the reachable phases of the shortest visit

@@ -43,7 +43,7 @@ def plan_rv_requests(assessments, science: list[dict], nights, inst, *, loss_fra
                      fap: float = 0.01, power: float = 0.8, seed: int = 0, n_alt: int = 400,
                      n_null: int = 2000, hours: dict | None = None,
                      min_gain_per_hour: float = MIN_GAIN_PER_HOUR, progress=None,
-                     epochs_in_hand: dict | None = None) -> dict:
+                     epochs_in_hand: dict | None = None, workers: int = 1, dask_address: str | None = None) -> dict:
     """Reachable-epoch time-to-confirm, then the request (see the module docstring).
 
     Parameters
@@ -54,13 +54,15 @@ def plan_rv_requests(assessments, science: list[dict], nights, inst, *, loss_fra
     min_gain_per_hour : threshold of the rule without a budget (expected confirmations per hour)
     epochs_in_hand : target name -> (BJD_TDB, errors in m/s) of the RVs already measured (e.g.
         :func:`rhofollow.planning.rvreach.epochs_from_ledger`): the visits requested are on top
+    workers, dask_address : where the power curves run (:func:`rhofollow.planning.rvreach.reachable_rv`)
 
     Returns
     -------
     dict, the run-level summary (module docstring)
     """
     reachable_rv(assessments, science, nights, inst, loss_fraction=loss_fraction, fap=fap, power=power,
-                 seed=seed, n_alt=n_alt, n_null=n_null, progress=progress, epochs_in_hand=epochs_in_hand)
+                 seed=seed, n_alt=n_alt, n_null=n_null, progress=progress, epochs_in_hand=epochs_in_hand,
+                 workers=workers, dask_address=dask_address)
     by_name = {a.name: a for a in assessments}
     items, recs = [], {}
     for entry in science:
