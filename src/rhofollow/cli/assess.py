@@ -203,14 +203,15 @@ def write_samples(assessments, directory) -> int:
 def _stream(targets, args):
     """Assess in chunks, writing samples as they come and keeping only the records (bounded memory)."""
     from rhofollow.stages.assess_many import assess_stream
-    from rhofollow.cli.common import checked_prior, count_progress
+    from rhofollow.cli.common import checked_prior, count_progress, resolve_workers
 
     prior = checked_prior(args)
     kept = []
     with count_progress(len(targets)) as prog:
         task = prog.add_task("assessing", total=len(targets))
         for part in assess_stream(targets, n_samples=args.samples, prior=prior, seed=args.seed,
-                                  transit_prob=not args.no_transit_weight, workers=max(1, args.workers)):
+                                  transit_prob=not args.no_transit_weight,
+                                  workers=max(1, resolve_workers(args.workers, len(targets)))):
             if args.samples_out:
                 write_samples(part, args.samples_out)
             for a in part:

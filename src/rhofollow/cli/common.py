@@ -93,8 +93,8 @@ def add_assess_options(p) -> None:
                    f"rayleigh:S, uniform:EMAX (default {DEFAULT_PRIOR})")
     p.add_argument("--no-transit-weight", action="store_true",
                    help="do not weight the prior by the transit probability (1 + e sin w)/(1 - e^2)")
-    p.add_argument("--workers", type=int, default=1, metavar="N",
-                   help="processes for the per-target work (results identical to 1 worker)")
+    p.add_argument("--workers", type=int, default=None, metavar="N",
+                   help="processes for the per-target work (default: one per CPU core, at most 8, for 16 targets or more, else 1; results identical to 1 worker)")
     add_seed_option(p)
 
 
@@ -275,3 +275,24 @@ def run_assessment(targets, args, label: str = "assessing"):
                                transit_prob=not args.no_transit_weight,
                                workers=max(1, int(getattr(args, "workers", 1) or 1)),
                                progress=lambda k=1: prog.advance(task, k))
+
+
+def resolve_workers(requested, n_targets: int) -> int:
+    """The processes a command uses: ``--workers`` as given, else
+    :func:`rhofollow.core.executor.auto_workers` for the catalogue's size.
+
+    Parameters
+    ----------
+    requested : int or None
+        The ``--workers`` value (None when not given).
+    n_targets : int
+        Valid catalogue rows.
+
+    Returns
+    -------
+    int
+        Worker processes (>= 1 when given as such; a value below 1 is left for the caller to refuse).
+    """
+    from rhofollow.core.executor import auto_workers
+
+    return auto_workers(n_targets) if requested is None else int(requested)

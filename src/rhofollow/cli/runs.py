@@ -9,7 +9,8 @@ from __future__ import annotations
 import datetime as dt
 from dataclasses import dataclass
 
-from rhofollow.cli.common import UserError, load_catalogue, report_row_issues, stage_progress, write_json
+from rhofollow.cli.common import (UserError, load_catalogue, report_row_issues, resolve_workers, stage_progress,
+                                  write_json)
 from rhofollow.cli.options import load_site_arg
 from rhofollow.cli.render import message
 from rhofollow.core.defaults import MIN_PLANNING_SAMPLES, MIN_SAMPLES, MIN_SIMS
@@ -64,8 +65,8 @@ def prepare(args, site, start_iso: str, end_iso: str) -> Prepared:
     if not cat.targets:
         return Prepared(site, VisibilityEngine(site), [], [], 0.0, None, {}, [], None, cat)
     opts = PipelineOptions(samples=args.samples, seed=args.seed, ecc_prior=args.ecc_prior,
-                           transit_weight=not args.no_transit_weight, workers=args.workers,
-                           ledger=args.ledger)
+                           transit_weight=not args.no_transit_weight,
+                           workers=max(1, resolve_workers(args.workers, len(cat.targets))), ledger=args.ledger)
     try:
         with stage_progress() as stage:
             st = run_stages(cat.targets, site, start_iso, end_iso, opts, progress=stage)
@@ -151,8 +152,9 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
         message(f"{catalog}: no valid target rows to plan; no report written", "error")
         return {"doc": envelope(command, catalogue=cat, seed=args.seed), "files": [], "result": None}
     opts = PipelineOptions(samples=args.samples, seed=args.seed, ecc_prior=args.ecc_prior,
-                           transit_weight=not args.no_transit_weight, workers=args.workers,
-                           dask_address=args.dask, sims=args.sims, rv_data=rv_data, rv_hours=hours)
+                           transit_weight=not args.no_transit_weight,
+                           workers=resolve_workers(args.workers, len(cat.targets)), dask_address=args.dask,
+                           sims=args.sims, rv_data=rv_data, rv_hours=hours)
     with stage_progress(transient=False) as stage:
         try:
             result = run_pipeline(cat.targets, site, start, end, opts, progress=stage, catalogue=cat)
@@ -175,7 +177,7 @@ def _check_report_options(args, start: dt.date, end: dt.date) -> None:
         raise UserError(f"--samples must be at least {MIN_SAMPLES}, got {args.samples}")
     if args.sims < MIN_SIMS:
         raise UserError(f"--sims must be at least {MIN_SIMS}, got {args.sims}")
-    if args.workers < 1:
+    if args.workers is not None and args.workers < 1:
         raise UserError(f"--workers must be at least 1, got {args.workers}")
     if end < start:
         raise UserError(f"--end {end} is before --start {start}")

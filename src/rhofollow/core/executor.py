@@ -21,7 +21,12 @@ import threading
 from collections import deque
 from concurrent.futures import ProcessPoolExecutor
 
-__all__ = ["chunked", "dispatch", "chunk_size", "single_blas_thread"]
+__all__ = ["chunked", "dispatch", "chunk_size", "single_blas_thread", "auto_workers", "AUTO_MIN_ITEMS", "AUTO_MAX_WORKERS"]
+
+#: ``--workers`` left to choose: one process for catalogues smaller than this (a pool's start-up
+#: and copies cost more than they save), else one per CPU core up to :data:`AUTO_MAX_WORKERS`.
+AUTO_MIN_ITEMS = 16
+AUTO_MAX_WORKERS = 8
 
 _BLAS_LOCK = threading.RLock()
 _blas_state = {"depth": 0, "limiter": None}
@@ -83,6 +88,32 @@ def _run_part(fn, *args):
     """One part of :func:`dispatch`'s work, in whichever process runs it, with one BLAS thread."""
     with single_blas_thread():
         return fn(*args)
+
+
+def auto_workers(n_items: int, cpus: int | None = None) -> int:
+    """Processes for ``n_items`` targets when the user did not say: 1 below :data:`AUTO_MIN_ITEMS`
+    targets, else one per CPU core (at most :data:`AUTO_MAX_WORKERS`). Every mode gives the same
+    records, so the choice only changes the time taken.
+
+    Parameters
+    ----------
+    n_items : int
+        Number of targets (catalogue rows) to work on.
+    cpus : int, optional
+        CPU cores available (default: those this process may run on).
+
+    Returns
+    -------
+    int
+        Worker processes, >= 1.
+    """
+    import os
+
+    if cpus is None:
+        cpus = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
+    if n_items < AUTO_MIN_ITEMS:
+        return 1
+    return max(1, min(int(cpus), AUTO_MAX_WORKERS))
 
 
 def chunked(seq, size):

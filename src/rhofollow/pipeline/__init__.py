@@ -251,20 +251,18 @@ def run_pipeline(targets, site, start: _dt.date, end: _dt.date, options: Pipelin
     timings = dict(stages.timings)
 
     t = time.perf_counter()
-    adv = progress("visibility", len(grids) + 1)
+    adv = progress("visibility", len(grids))
     first = grids[0]
-    # the first night is planned before the campaign loop: night_visibility stores each target's
-    # BJD - JD offset of the night it last saw in the science dicts
-    night_doc = _first_night(eng, first, stages, site, opts, catalogue)
-    adv(1)
     nights = range_nights(eng, grids, stages.science, lambda: adv(1))
     timings["visibility_s"] = time.perf_counter() - t
 
     req = rv_request(stages, nights, site, opts, progress)
-    if req is not None:   # the night plan sees the request, with the first night's BJD offsets
-        night_doc = _first_night(eng, first, stages, site, opts, catalogue)
-        for g in grids[-1:]:
-            night_visibility(eng, g, stages.science)
+    # the first night is planned once, seeing the request; night_visibility stores each target's
+    # BJD - JD offset of the night it saw last in the science dicts, so the last night's offsets
+    # are put back for the campaign afterwards
+    night_doc = _first_night(eng, first, stages, site, opts, catalogue)
+    for g in grids[-1:]:
+        night_visibility(eng, g, stages.science)
     t = time.perf_counter()
     adv = progress("scheduling", 1)
     cplan = plan_campaign(stages.science, nights, site=site.name, overhead_h=stages.overhead_h,
