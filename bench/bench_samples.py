@@ -102,8 +102,10 @@ def main() -> None:
     try:
         t = time.perf_counter()
         items = _assessed(args.samples, spool)
+        rows = sum(s.n for _, s in items)
         print(f"{len(items)} targets x {args.samples} samples assessed in {time.perf_counter() - t:.1f} s "
-              f"(not timed below); cpus {os.cpu_count()}, load {os.getloadavg()[0]:.1f}")
+              f"(not timed below; {rows} rows in all: the sampler draws more where the ESS asks for it); "
+              f"cpus {os.cpu_count()}, load {os.getloadavg()[0]:.1f}")
         writers = {"ecsv, old loop": lambda d: _old_loop(items, d)}
         for fmt in ("ecsv", "fits"):
             for w in (1, 2):

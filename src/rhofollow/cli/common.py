@@ -85,7 +85,7 @@ def add_sample_format_option(p) -> None:
 
     p.add_argument("--sample-format", choices=SAMPLE_FORMATS, default="auto",
                    help="format of the per-target sample files: ecsv (text), fits (FITS binary tables, about "
-                   "15 times faster to write), or auto: ECSV for a run of at most "
+                   "20 times faster to write), or auto: ECSV for a run of at most "
                    f"{AUTO_FITS_ABOVE} targets, FITS above (default auto)")
 
 

@@ -4,10 +4,10 @@ Two formats hold the same table (:meth:`rhofollow.core.samples.SampleSet.to_tabl
 columns, units and meta, every float64 value bit for bit):
 
 * ``ecsv``: text (:meth:`~rhofollow.core.samples.SampleSet.to_ecsv_text`), readable by eye and by
-  ``astropy.table.Table.read``; about 2.2 MB and a quarter of a second of CPU per target at 20,000
-  samples (the shortest repr of every float);
+  ``astropy.table.Table.read``; on the demo targets at 20,000 samples about 5.7 MB and 0.23 s of CPU
+  per target (the shortest repr of every float; ``bench/bench_samples.py``);
 * ``fits``: a FITS binary table (:meth:`~rhofollow.core.samples.SampleSet.to_fits_bytes`), about
-  2.1 MB and some hundredths of a second per target;
+  2.4 MB and 11 ms per target;
 * ``auto`` (the default): ECSV for a run of at most :data:`AUTO_FITS_ABOVE` targets, FITS above.
 
 With more than one worker the files are written by a process pool
@@ -31,7 +31,8 @@ __all__ = ["SAMPLE_FORMATS", "AUTO_FITS_ABOVE", "resolve_sample_format", "sample
 SAMPLE_FORMATS = ("auto", "ecsv", "fits")
 
 #: ``auto`` writes ECSV for a run of at most this many assessed targets, FITS above: at 200 targets
-#: of 20,000 samples the ECSV files cost about 50 s of CPU and 440 MB; FITS about 4 s.
+#: of 20,000 samples the ECSV files cost about 46 s of CPU and 1.1 GB, the FITS files 2 s and 0.5 GB
+#: (``bench/bench_samples.py``: 228 ms and 5.7 MB against 10.6 ms and 2.4 MB per target).
 AUTO_FITS_ABOVE = 200
 
 _LABELS = {"ecsv": "ECSV text", "fits": "FITS binary tables"}
