@@ -5,8 +5,8 @@ from pathlib import Path
 
 from rich.text import Text
 
-from rhofollow.cli.common import (add_assess_options, add_json_option, console, load_catalogue, report_row_issues,
-                     write_json, atomic_write_text)
+from rhofollow.cli.common import (add_assess_options, add_json_option, add_sample_format_option, console,
+                                  load_catalogue, report_row_issues, write_json, atomic_write_text)
 from rhofollow.cli.render import Col, FittedTable, fit_table, message, say, table_note
 
 __all__ = ["register", "run", "summary_table", "assessment_table", "legend"]
@@ -32,7 +32,9 @@ def register(subparsers) -> None:
     add_json_option(p)
     p.add_argument("--ecsv", metavar="PATH", help="write the per-target summary table as ECSV")
     p.add_argument("--samples-out", metavar="DIR",
-                   help="write each target's weighted posterior samples as DIR/<name-slug>-<hash>.ecsv")
+                   help="write each target's weighted posterior samples as DIR/<name-slug>-<hash>.ecsv (or "
+                   ".fits, see --sample-format)")
+    add_sample_format_option(p)
     add_assess_options(p)
     p.set_defaults(func=run)
 
@@ -171,8 +173,8 @@ def assessment_table(records: list[dict]):
     return t
 
 
-def write_samples(assessments, directory) -> int:
-    """Write each target's samples to DIR/<stem>.ecsv atomically.
+def write_samples(assessments, directory, fmt: str = "ecsv") -> int:
+    """Write each target's samples to DIR/<stem>.ecsv (or .fits) atomically.
 
     Parameters
     ----------
@@ -180,28 +182,25 @@ def write_samples(assessments, directory) -> int:
         Assessments (those without samples are skipped).
     directory : str or path-like
         The folder (created when missing).
+    fmt : str
+        ``"ecsv"`` or ``"fits"`` (:mod:`rhofollow.report.sample_files`).
 
     Returns
     -------
     int
         Number of files written.
     """
-    d = Path(directory)
-    d.mkdir(parents=True, exist_ok=True)
-    n = 0
-    for a in assessments:
-        if a.samples is None:
-            continue
-        from rhofollow.io.safety import file_stem
+    from rhofollow.report.sample_files import write_sample_files
 
-        safe = file_stem(a.name)
-        atomic_write_text(d / f"{safe}.ecsv", a.samples.to_ecsv_text())
-        n += 1
-    return n
+    return len(write_sample_files([(a.name, a.samples) for a in assessments if a.samples is not None],
+                                  directory, fmt))
 
 
-def _stream(targets, args):
-    """Assess in chunks, writing samples as they come and keeping only the records (bounded memory)."""
+def _stream(targets, args, fmt: str):
+    """Assess in chunks, writing samples as they come and keeping only the records (bounded memory).
+
+    The sample files are written here while the workers assess the next chunks (the executor keeps
+    a window of chunks in flight), so they need no pool of their own."""
     from rhofollow.stages.assess_many import assess_stream
     from rhofollow.cli.common import checked_prior, count_progress, resolve_workers
 
@@ -213,7 +212,7 @@ def _stream(targets, args):
                                   transit_prob=not args.no_transit_weight,
                                   workers=max(1, resolve_workers(args.workers, len(targets)))):
             if args.samples_out:
-                write_samples(part, args.samples_out)
+                write_samples(part, args.samples_out, fmt)
             for a in part:
                 a.samples = None  # the record is all this command keeps
             kept.extend(part)
@@ -236,7 +235,10 @@ def run(args) -> int:
     """
     result = load_catalogue(args.catalog)
     report_row_issues(result, quiet=True)
-    assessments = _stream(result.targets, args)
+    from rhofollow.report.sample_files import resolve_sample_format, sample_files_note, sample_files_text
+
+    fmt = resolve_sample_format(args.sample_format, len(result.targets))
+    assessments = _stream(result.targets, args, fmt)
     records = [a.record for a in assessments]
     con = console()
     fitted = summary_table(records, con.width)
@@ -251,8 +253,12 @@ def run(args) -> int:
     say(CAUTION, style="dim")
     from rhofollow.stages.records import envelope
 
-    payload = envelope("assess", catalogue=result, seed=args.seed, targets=records,
-                       payload={"prior": args.ecc_prior, "samples": args.samples, "caveat": CAUTION})
+    extra = {"prior": args.ecc_prior, "samples": args.samples, "caveat": CAUTION}
+    if args.samples_out:
+        extra["sample_files"] = dict(sample_files_note(args.sample_format, fmt),
+                                     files=str(Path(args.samples_out) / f"*.{fmt}"))
+        say("Sample files: " + sample_files_text(extra["sample_files"]), style="dim")
+    payload = envelope("assess", catalogue=result, seed=args.seed, targets=records, payload=extra)
     if args.json:
         write_json(args.json, payload)
     if args.ecsv:

@@ -9,7 +9,7 @@ from rhofollow.io.jsonout import _clean, json_default, write_json  # noqa: F401 
 from rhofollow.errors import InputError
 
 __all__ = ["UserError", "atomic_write_text", "console", "err_console", "add_json_option", "add_seed_option",
-           "write_json", "atomic_write_text", "json_default"]
+           "add_sample_format_option", "write_json", "atomic_write_text", "json_default"]
 
 
 class UserError(InputError):
@@ -71,6 +71,22 @@ def add_seed_option(p, default: int = DEFAULT_SEED):
     """
     p.add_argument("--seed", type=int, default=default,
                    help=f"random seed; the same inputs and seed give the same outputs (default {default})")
+
+
+def add_sample_format_option(p) -> None:
+    """Add ``--sample-format {auto,ecsv,fits}``: the format of the per-target sample files.
+
+    Parameters
+    ----------
+    p : argparse.ArgumentParser
+        The command's parser.
+    """
+    from rhofollow.report.sample_files import AUTO_FITS_ABOVE, SAMPLE_FORMATS
+
+    p.add_argument("--sample-format", choices=SAMPLE_FORMATS, default="auto",
+                   help="format of the per-target sample files: ecsv (text), fits (FITS binary tables, about "
+                   "20 times faster to write), or auto: ECSV for a run of at most "
+                   f"{AUTO_FITS_ABOVE} targets, FITS above (default auto)")
 
 
 # --------------------------------------------------------------------------------------------

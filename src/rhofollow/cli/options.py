@@ -12,7 +12,7 @@ from __future__ import annotations
 import datetime as dt
 from pathlib import Path
 
-from rhofollow.cli.common import UserError, add_seed_option
+from rhofollow.cli.common import UserError, add_sample_format_option, add_seed_option
 from rhofollow.core.defaults import DEFAULT_SAMPLES, DEFAULT_SIMS, QUICK_SAMPLES, QUICK_SIMS
 
 __all__ = ["add_report_options", "load_site_arg", "demo_paths", "site_evening_date", "DEMO_DAYS",
@@ -65,6 +65,7 @@ def add_report_options(p, demo: bool = False) -> None:
     add_hours_option(p)
     p.add_argument("--plot-targets", type=int, default=10, metavar="N",
                    help="per-target figures for the N highest-ranked targets (0: all; default 10)")
+    add_sample_format_option(p)
     add_seed_option(p)
 
 

@@ -163,7 +163,7 @@ def plan_to_folder(catalog, site_path, start: dt.date, end: dt.date, out, args, 
         result.command = command
         try:
             written = write_report(result, out, plot_targets=args.plot_targets, rv_data=rv_data,
-                                   progress=stage)
+                                   progress=stage, sample_format=args.sample_format)
         except (ReportFolderError, NoSpaceError) as exc:
             raise UserError(str(exc)) from None
     written["result"] = result

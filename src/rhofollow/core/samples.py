@@ -344,6 +344,21 @@ class SampleSet:
         buf.write("\n")
         return buf.getvalue()
 
+    def to_fits_bytes(self) -> bytes:
+        """The FITS file of :meth:`to_table` (a binary table, float64 columns, units as ``TUNITn``,
+        the meta as ``HIERARCH`` cards; see :mod:`rhofollow.core.sample_fits`), as bytes.
+        ``astropy.table.Table.read`` reads it; every value comes back bit for bit, and
+        :meth:`from_table` of it gives what :meth:`from_table` of :meth:`to_table` gives.
+
+        Returns
+        -------
+        bytes
+            The file's bytes (the same samples give the same bytes).
+        """
+        from rhofollow.core.sample_fits import table_fits_bytes
+
+        return table_fits_bytes(self.to_table())
+
     @classmethod
     def from_table(cls, t) -> "SampleSet":
         """Inverse of :meth:`to_table`.
@@ -351,7 +366,8 @@ class SampleSet:
         Parameters
         ----------
         t : astropy.table.Table
-            A table written by :meth:`to_table` (omega and inc in degrees).
+            A table written by :meth:`to_table` (omega and inc in degrees), or read from the ECSV
+            or FITS file of one (:meth:`to_ecsv_text`, :meth:`to_fits_bytes`).
 
         Returns
         -------
@@ -364,5 +380,8 @@ class SampleSet:
                 kw[c] = np.radians(np.asarray(t[c + "_deg"], dtype=float))
             else:
                 kw[c] = np.asarray(t[c], dtype=float)
-        meta = {k: v for k, v in t.meta.items() if k not in ("name", "ess")}
-        return cls(name=t.meta["name"], weights=np.asarray(t["weight"], dtype=float), meta=meta, **kw)
+        from rhofollow.core.sample_fits import decode_fits_meta
+
+        table_meta = decode_fits_meta(t.meta)
+        meta = {k: v for k, v in table_meta.items() if k not in ("name", "ess")}
+        return cls(name=table_meta["name"], weights=np.asarray(t["weight"], dtype=float), meta=meta, **kw)

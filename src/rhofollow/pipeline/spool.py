@@ -19,9 +19,54 @@ import numpy as np
 
 from rhofollow.core.samples import SAMPLE_COLUMNS, SampleSet
 
-__all__ = ["SampleSpool", "SpooledSamples"]
+__all__ = ["SampleSpool", "SpooledSamples", "SpoolFile"]
 
 _ARRAYS = tuple(SAMPLE_COLUMNS) + ("weights",)
+
+
+def _read_set(path: str, name: str, meta: dict) -> SampleSet:
+    """The sample set stored in the ``.npy`` file ``path``, bit for bit (no renormalisation)."""
+    block = np.load(path, allow_pickle=False)
+    s = SampleSet.__new__(SampleSet)       # no __post_init__: the weights are not renormalised
+    s.name, s.meta = name, meta
+    for i, c in enumerate(_ARRAYS):
+        setattr(s, c, block[i].copy())
+    return s
+
+
+class SpoolFile:
+    """A picklable reference to one spooled set: its file, name and meta (no arrays), so another
+    process on this machine can read the set itself (:meth:`load`) instead of being sent it.
+
+    Parameters
+    ----------
+    path : str
+        The set's ``.npy`` file in the spool folder.
+    name : str
+        The target name.
+    meta : dict
+        The set's scalar metadata.
+    """
+
+    __slots__ = ("path", "name", "meta")
+
+    def __init__(self, path: str, name: str, meta: dict):
+        self.path, self.name, self.meta = path, name, meta
+
+    def __getstate__(self):
+        return (self.path, self.name, self.meta)
+
+    def __setstate__(self, state):
+        self.path, self.name, self.meta = state
+
+    def load(self) -> SampleSet:
+        """The full sample set, bit for bit as it was written (the spool must still be open).
+
+        Returns
+        -------
+        SampleSet
+        """
+        return _read_set(self.path, self.name, self.meta)
 
 
 class SpooledSamples:
@@ -50,6 +95,15 @@ class SpooledSamples:
         SampleSet
         """
         return self._spool.load(self._key, self.name, self.meta)
+
+    def detached(self) -> SpoolFile:
+        """A reference to the set's file that pickles without the spool or the arrays.
+
+        Returns
+        -------
+        SpoolFile
+        """
+        return SpoolFile(self._spool.path_of(self._key), self.name, self.meta)
 
     def __getattr__(self, attr):
         if attr.startswith("__"):
@@ -118,13 +172,24 @@ class SampleSpool:
         """
         if self._cache[0] == key:
             return self._cache[1]
-        block = np.load(os.path.join(self._dir, key + ".npy"), allow_pickle=False)
-        s = SampleSet.__new__(SampleSet)       # no __post_init__: the weights are not renormalised
-        s.name, s.meta = name, meta
-        for i, c in enumerate(_ARRAYS):
-            setattr(s, c, block[i].copy())
+        s = _read_set(self.path_of(key), name, meta)
         self._cache = (key, s)
         return s
+
+    def path_of(self, key: str) -> str:
+        """The file of the set written under ``key``.
+
+        Parameters
+        ----------
+        key : str
+            Handle key.
+
+        Returns
+        -------
+        str
+            Path of its ``.npy`` file.
+        """
+        return os.path.join(self._dir, key + ".npy")
 
     def close(self) -> None:
         """Remove the spool folder (handles made by it can no longer be read)."""

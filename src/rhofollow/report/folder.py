@@ -3,7 +3,11 @@
 Layout::
 
     summary.md  summary.html  results.json  results.ecsv  results.csv  night.json  campaign.json
-    windows.ics  samples/<target>.ecsv  plots/*.png
+    windows.ics  samples/<target>.ecsv (or .fits)  plots/*.png
+
+The sample files are ECSV or FITS binary tables (:mod:`rhofollow.report.sample_files`,
+``--sample-format``; ``auto``: ECSV up to ``AUTO_FITS_ABOVE`` targets, FITS above); results.json
+(``sample_files``) and summary.md say which. With more than one worker a process pool writes them.
 
 Every file is written into a fresh temporary folder beside the target folder, which is swapped
 in by renaming once the whole report is there (the folder it replaces is kept until then, and
@@ -101,7 +105,7 @@ def write_report(result, out_dir, **kw) -> dict:
     out_dir : str or os.PathLike
         The report folder (see :func:`check_report_folder`).
     **kw
-        ``plot_targets``, ``rv_data``, ``progress`` as :func:`write_report_files`.
+        ``plot_targets``, ``rv_data``, ``progress``, ``sample_format`` as :func:`write_report_files`.
 
     Returns
     -------
@@ -169,8 +173,9 @@ class _Figures:
         self.adv(1)
 
 
-def _write_tables(result, out: Path, files: list):
-    """results.json / .ecsv / .csv, night.json, campaign.json and windows.ics; returns
+def _write_tables(result, out: Path, files: list, sample_note: dict):
+    """results.json / .ecsv / .csv, night.json, campaign.json and windows.ics (``sample_note``: how
+    the sample files are written, :func:`~rhofollow.report.sample_files.sample_files_note`); returns
     ``(doc, ranking, periods)`` (periods: target name -> posterior-mean period in days)."""
     from rhofollow.io.jsonout import write_json
     from rhofollow.planning.campaign import to_ical
@@ -180,6 +185,7 @@ def _write_tables(result, out: Path, files: list):
     ranking = rank_targets(result)
     doc = results_document(result, ranking, [], list(CAUTIONS))
     doc["assumptions"] = assumptions(doc)
+    doc["sample_files"] = sample_note
     periods = {a.name: float((a.samples.weights * a.samples.period).sum()) for a in result.assessments if a.ok}
 
     files.append(write_json(out / "results.json", doc))
@@ -256,7 +262,7 @@ def _target_figures(figs: _Figures, result, chosen, ranking, rv_data) -> None:
 
 
 def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict | None = None,
-                       progress=None) -> dict:
+                       progress=None, sample_format: str = "auto") -> dict:
     """Write every report file of ``result`` into the folder ``out_dir`` as it is (no swap;
     :func:`write_report` calls this on a temporary folder).
 
@@ -272,12 +278,17 @@ def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict
         Target name -> measured RVs (BJD_TDB days, m/s), drawn on the RV figures.
     progress : callable, optional
         ``progress(label, total)`` returning ``advance(k=1)``.
+    sample_format : str
+        ``"auto"``, ``"ecsv"`` or ``"fits"``: the sample files' format
+        (:func:`rhofollow.report.sample_files.resolve_sample_format` of the number of assessed targets).
 
     Returns
     -------
     dict
-        ``doc`` (the results.json document), ``files`` (paths written) and ``ranking``.
+        ``doc`` (the results.json document), ``files`` (paths written), ``ranking`` and
+        ``sample_format`` (the format used).
     """
+    from rhofollow.report.sample_files import resolve_sample_format, sample_files_note, write_sample_files
     from rhofollow.report.summary import html_summary, markdown_summary
 
     progress = progress or (lambda label, total: (lambda k=1: None))
@@ -285,13 +296,12 @@ def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict
     (out / "plots").mkdir(parents=True, exist_ok=True)
     (out / "samples").mkdir(parents=True, exist_ok=True)
     files = []
-    doc, ranking, periods = _write_tables(result, out, files)
+    fmt = resolve_sample_format(sample_format, len(result.assessments))
+    doc, ranking, periods = _write_tables(result, out, files, sample_files_note(sample_format, fmt))
 
     ok = [a for a in result.assessments if a.ok and a.samples is not None]
-    adv = progress("writing samples", len(ok))
-    for a in ok:
-        files.append(_text(out / "samples" / f"{slug(a.name)}.ecsv", a.samples.to_ecsv_text()))
-        adv(1)
+    files += write_sample_files([(a.name, a.samples) for a in ok], out / "samples", fmt,
+                                workers=result.options.workers, progress=progress("writing samples", len(ok)))
 
     # figures: run-level first, then per target in rank order
     ranked, chosen = _figure_targets(result, ok, ranking, plot_targets)
@@ -301,4 +311,4 @@ def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict
 
     files.append(_text(out / "summary.md", markdown_summary(doc, figs.md, result.night)))
     files.append(_text(out / "summary.html", html_summary(doc, figs.html, result.night)))
-    return {"doc": doc, "files": [Path(f) for f in files], "ranking": ranking}
+    return {"doc": doc, "files": [Path(f) for f in files], "ranking": ranking, "sample_format": fmt}

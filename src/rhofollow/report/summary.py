@@ -10,6 +10,7 @@ import html
 
 from rhofollow.stages.records import CAUTION
 from rhofollow.io.safety import md_text
+from rhofollow.report.sample_files import sample_files_text
 
 __all__ = ["assumptions", "CAUTIONS", "ranked_table", "first_night_table", "markdown_summary", "html_summary",
            "proposal_entries"]
@@ -322,8 +323,9 @@ def markdown_summary(doc: dict, figures: dict[str, list[str]], night: dict | Non
     lines += ["## Cautions", ""] + [f"- {c}" for c in doc.get("cautions", CAUTIONS)] + [""]
     if doc.get("notices"):
         lines += ["## Notices", ""] + [f"- {e(n)}" for n in doc["notices"]] + [""]
+    samples = sample_files_text(doc.get("sample_files"))
     lines += ["Files: results.json / results.ecsv / results.csv (per target), night.json, campaign.json, "
-              "windows.ics, samples/*.ecsv (weighted posterior samples), plots/*.png.", ""]
+              f"windows.ics, {samples}, plots/*.png.", ""]
     return "\n".join(lines)
 
 
