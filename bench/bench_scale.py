@@ -90,7 +90,7 @@ def write_catalogue(path, rows, seed=3):
             w.writerow(row)
 
 
-def run_plan(rows, samples, sims, nights, workers=1):
+def run_plan(rows, samples, sims, nights, workers=None):
     """``rhofollow plan`` under /usr/bin/time -v: (wall s, peak MiB, exit status, CPU s)."""
     import re
     import tempfile
@@ -102,7 +102,9 @@ def run_plan(rows, samples, sims, nights, workers=1):
         cmd = ["/usr/bin/time", "-v", sys.executable, "-c", code, "plan", str(cat),
                "--site", str(ROOT / "site_configs" / "alto_quemado.toml"), "--start", "2027-01-05",
                "--end", f"2027-01-{4 + nights:02d}", "--out", str(Path(d) / "report"), "--samples",
-               str(samples), "--sims", str(sims), "--workers", str(workers), "--plot-targets", "10"]
+               str(samples), "--sims", str(sims), "--plot-targets", "10"]
+        if workers is not None:
+            cmd += ["--workers", str(workers)]
         p = subprocess.run(cmd, capture_output=True, text=True)
     peak = float(re.search(r"Maximum resident set size \(kbytes\): (\d+)", p.stderr).group(1)) / 1024
     wall = re.search(r"Elapsed \(wall clock\) time \(h:mm:ss or m:ss\): ([\d:.]+)", p.stderr).group(1)
@@ -117,7 +119,8 @@ def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--plan", action="store_true", help="time the whole plan command (see module doc)")
     ap.add_argument("--nights", type=int, default=7, help="--plan: evenings planned (1-27)")
-    ap.add_argument("--workers", type=int, default=1, help="--plan: processes")
+    ap.add_argument("--workers", type=int, default=None,
+                    help="--plan: processes (default: the plan command's own default, one per core)")
     ap.add_argument("--full", action="store_true")
     ap.add_argument("--rows", help="rows (--plan: one or more, comma-separated)")
     ap.add_argument("--samples", type=int, default=20000)
@@ -133,7 +136,7 @@ def main():
             secs, peak, rc, cpu = run_plan(n, a.samples, a.sims, a.nights, a.workers)
             peaks[n] = peak
             print(f"rhofollow plan: {n} rows x {a.samples} samples, {a.sims} RV simulations, {a.nights} "
-                  f"evenings, {a.workers} worker(s): {secs:.1f} s wall, {cpu:.1f} s CPU ({secs / n:.2f} s wall "
+                  f"evenings, {a.workers or 'default'} worker(s): {secs:.1f} s wall, {cpu:.1f} s CPU ({secs / n:.2f} s wall "
                   f"and {cpu / n:.2f} s CPU per row), peak memory {peak:.0f} MiB (/usr/bin/time -v), "
                   f"exit status {rc}; load average {os.getloadavg()[0]:.1f}", flush=True)
         if len(peaks) > 1:
