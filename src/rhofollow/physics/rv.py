@@ -93,8 +93,9 @@ def rv_shape_gradient(phase, e, omega):
     At a fixed phase from mid-transit the mean anomaly is M = 2 pi phase + M_t(e, omega), with M_t
     the mean anomaly at transit (true anomaly f_t = pi/2 - omega). With Kepler's equation in the form
     M(f, e), whose partials are dM/df = (1 - e^2)^(3/2) / (1 + e cos f)^2 and
-    dM/de = -sin f (2 + e cos f) sqrt(1 - e^2) / (1 + e cos f)^2 (Murray & Dermott 1999, *Solar
-    System Dynamics*, sec. 2.4, df/dM and df/de at fixed M), the true anomaly moves by
+    dM/de = -sin f (2 + e cos f) sqrt(1 - e^2) / (1 + e cos f)^2 (differentiating Kepler's equation
+    and tan(f/2) = sqrt((1+e)/(1-e)) tan(E/2); the orbit relations of Murray & Dermott 1999, *Solar
+    System Dynamics*, ch. 2; checked against central differences in the tests), the true anomaly moves by
     df/de = (dM/de(f_t) - dM/de(f)) / dM/df(f) and df/domega = -dM/df(f_t) / dM/df(f), and
     s = cos(f + omega) + e cos(omega) follows by the chain rule; (h, q) from (e, omega) by
     de/dh = cos w, de/dq = sin w, dw/dh = -sin w / e, dw/dq = cos w / e, with the 1/e factors
