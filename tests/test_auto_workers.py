@@ -21,3 +21,14 @@ def test_given_value_wins():
     assert resolve_workers(1, 1000) == 1
     assert resolve_workers(None, 5) == 1
     assert resolve_workers(0, 1000) == 0  # refused by the command with a clear message
+
+
+def test_summary_states_the_schedule_gap():
+    # the report's assumptions say how close to the best the nights' schedules are proven to be
+    from rhofollow.report.summary import assumptions
+
+    sch = {"time_limit_s": 20.0, "mip_rel_gap": 0.01, "nights_scheduled": 9, "max_gap": 0.0042,
+           "nights_not_optimal": [{"night": "2027-01-07", "status": "time limit", "gap": 0.0042}]}
+    text = assumptions({}, sch)[-1]
+    assert "within 1 %" in text and "20 s per night" in text and "0.42 %" in text and "2027-01-07" in text
+    assert len(assumptions({})) == len(assumptions({}, sch)) - 1

@@ -110,7 +110,8 @@ def add_assess_options(p) -> None:
     p.add_argument("--no-transit-weight", action="store_true",
                    help="do not weight the prior by the transit probability (1 + e sin w)/(1 - e^2)")
     p.add_argument("--workers", type=int, default=None, metavar="N",
-                   help="processes for the per-target work (default: one per CPU core, at most 8, for 16 targets or more, else 1; results identical to 1 worker)")
+                   help="processes for the per-target work (default: one per CPU core, at most 8, "
+                   "for 16 targets or more, else 1; results identical to 1 worker)")
     add_seed_option(p)
 
 

@@ -54,7 +54,8 @@ def add_report_options(p, demo: bool = False) -> None:
     p.add_argument("--no-transit-weight", action="store_true",
                    help="do not weight the prior by the transit probability")
     p.add_argument("--workers", type=int, default=None, metavar="N",
-                   help="processes for the per-target work (default: one per CPU core, at most 8, for 16 targets or more, else 1; results identical to 1 worker)")
+                   help="processes for the per-target work (default: one per CPU core, at most 8, "
+                   "for 16 targets or more, else 1; results identical to 1 worker)")
     p.add_argument("--dask", metavar="ADDRESS",
                    help="send the per-target work to this dask.distributed scheduler (e.g. tcp://host:8786)")
     p.add_argument("--rv-data", metavar="PATH",

@@ -21,7 +21,8 @@ import threading
 from collections import deque
 from concurrent.futures import ProcessPoolExecutor
 
-__all__ = ["chunked", "dispatch", "chunk_size", "single_blas_thread", "auto_workers", "AUTO_MIN_ITEMS", "AUTO_MAX_WORKERS"]
+__all__ = ["chunked", "dispatch", "chunk_size", "single_blas_thread", "auto_workers", "AUTO_MIN_ITEMS",
+           "AUTO_MAX_WORKERS"]
 
 #: ``--workers`` left to choose: one process for catalogues smaller than this (a pool's start-up
 #: and copies cost more than they save), else one per CPU core up to :data:`AUTO_MAX_WORKERS`.

@@ -184,7 +184,7 @@ def _write_tables(result, out: Path, files: list, sample_note: dict):
 
     ranking = rank_targets(result)
     doc = results_document(result, ranking, [], list(CAUTIONS))
-    doc["assumptions"] = assumptions(doc)
+    doc["assumptions"] = assumptions(doc, (result.campaign or {}).get("scheduler"))
     doc["sample_files"] = sample_note
     periods = {a.name: float((a.samples.weights * a.samples.period).sum()) for a in result.assessments if a.ok}
 

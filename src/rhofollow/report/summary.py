@@ -25,14 +25,17 @@ CAUTIONS = [
 ]
 
 
-def assumptions(doc: dict) -> list[str]:
-    """The stated assumptions of the run (conventions, prior, mass-radius relation, ranking).
+def assumptions(doc: dict, scheduler: dict | None = None) -> list[str]:
+    """The stated assumptions of the run (conventions, prior, mass-radius relation, ranking, schedule).
 
     Parameters
     ----------
     doc : dict
         The results document (``prior``, ``transit_weight``, ``coverage``, ``fap``, ``power``,
         ``priority_rule``, ``seed``, ``samples``).
+    scheduler : dict, optional
+        The campaign's ``scheduler`` summary (:func:`rhofollow.planning.campaign.scheduler_summary`):
+        the solver limits and the gap reached, stated when given.
 
     Returns
     -------
@@ -59,7 +62,24 @@ def assumptions(doc: dict) -> list[str]:
         "Ranking: " + doc.get("priority_rule", ""),
         f"Random seed {doc.get('seed')}, {doc.get('samples')} posterior samples per target: the same inputs and "
         "seed give the same numbers.",
-    ]
+    ] + ([] if not scheduler else [_schedule_sentence(scheduler)])
+
+
+def _schedule_sentence(sch: dict) -> str:
+    """How close to the best the nights' schedules are proven to be (the MILP's limits and gaps)."""
+    gap, limit = 100 * float(sch.get("mip_rel_gap", 0.0)), sch.get("time_limit_s")
+    reached = sch.get("max_gap")
+    text = (f"Each night whose blocks compete is scheduled by a 0/1 programme accepted within {gap:g} % of the "
+            f"best possible value (at most {limit:g} s per night); ")
+    if reached is None:
+        text += "the solver did not report the gap reached on every night."
+    else:
+        text += (f"the largest gap reached was {100 * float(reached):.2f} % over "
+                 f"{sch.get('nights_scheduled', 0)} nights.")
+    stopped = [n["night"] for n in sch.get("nights_not_optimal", []) if n.get("status") == "time limit"]
+    if stopped:
+        text += f" The time limit stopped the solver on {', '.join(stopped)}."
+    return text
 
 
 def _f(x, nd=2):
