@@ -137,6 +137,13 @@ def test_same_seed_one_and_two_workers_identical(tmp_path):
         assert (outs[0] / name).read_bytes() == (outs[1] / name).read_bytes(), name
     for p in (outs[0] / "samples").glob("*.ecsv"):
         assert p.read_bytes() == (outs[1] / "samples" / p.name).read_bytes(), p.name
+    # the per-target figures come from a process pool with 2 workers: same files, bytes and order
+    pngs = sorted(p.name for p in (outs[0] / "plots").glob("*.png"))
+    assert len(pngs) == 3 + 4 * 2 and pngs == sorted(p.name for p in (outs[1] / "plots").glob("*.png"))
+    for name in pngs:
+        assert (outs[0] / "plots" / name).read_bytes() == (outs[1] / "plots" / name).read_bytes(), name
+    for name in ("summary.md", "summary.html"):
+        assert (outs[0] / name).read_bytes() == (outs[1] / name).read_bytes(), name
 
 
 def test_interrupted_run_leaves_no_complete_looking_file(tmp_path, monkeypatch):

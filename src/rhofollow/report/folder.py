@@ -166,8 +166,23 @@ class _Figures:
         caption : str
             Its caption in the HTML summary.
         """
-        png = save_figure(fig, self.out / "plots" / name)
-        self.files.append(self.out / "plots" / name)
+        self.add_png(section, name, save_figure(fig), caption)
+
+    def add_png(self, section: str, name: str, png: bytes, caption: str) -> None:
+        """Write the rendered figure ``png`` to ``plots/name`` and list it under ``section``.
+
+        Parameters
+        ----------
+        section : str
+            Summary section title.
+        name : str
+            PNG file name inside ``plots/``.
+        png : bytes
+            The PNG file's bytes.
+        caption : str
+            Its caption in the HTML summary.
+        """
+        self.files.append(atomic_write_bytes(self.out / "plots" / name, png))
         self.md.setdefault(section, []).append(f"plots/{name}")
         self.html.setdefault(section, []).append((caption, png))
         self.adv(1)
@@ -235,30 +250,17 @@ def _run_figures(figs: _Figures, result, ranked, periods) -> None:
              "Occultation windows and RV visits per night, targets in rank order")
 
 
-def _target_figures(figs: _Figures, result, chosen, ranking, rv_data) -> None:
-    """Density, (e, omega), occultation and RV figures of each chosen target, in rank order."""
-    from rhofollow.report import plots
+def _target_figures(figs: _Figures, result, chosen, ranking, rv_data, meanwhile) -> None:
+    """Density, (e, omega), occultation and RV figures of each chosen target, in rank order, rendered by
+    :mod:`rhofollow.report.target_figures` (a process pool with more than one worker, while
+    ``meanwhile`` draws the run-level figures here)."""
+    from rhofollow.report.target_figures import FIGURE_KINDS, render_target_figures
 
-    occ = {r["name"]: r for r in result.occultations["targets"]}
-    rv = {r["name"]: r for r in result.rv}
-    camp = {t["name"]: t for t in result.campaign["targets"]}
-    night_phases = {}
-    for b in (result.night or {}).get("blocks", []):
-        if b.get("kind") == "rv" and b.get("phase") is not None:
-            night_phases.setdefault(b["name"], []).append(b["phase"])
-    for a in chosen:
-        s, n = a.samples, slug(a.name)
-        sec = f"{a.name} (rank {ranking[a.name]['rank']})"
-        figs.add(sec, f"{n}_density.png", plots.density_figure(a.record), "Circular-orbit vs independent density")
-        figs.add(sec, f"{n}_ecc_omega.png", plots.ecc_omega_figure(s, a.record), "Eccentricity posterior")
-        figs.add(sec, f"{n}_occultation.png",
-                 plots.occultation_figure(s, occ.get(a.name, {}), camp.get(a.name, {}).get("occultation_windows"),
-                                          coverage=result.options.coverage),
-                 "Occultation phase and the timing of the next events")
-        figs.add(sec, f"{n}_rv.png",
-                 plots.rv_figure(s, rv.get(a.name), camp.get(a.name, {}).get("rv_visits"), night_phases.get(a.name),
-                                 (rv_data or {}).get(a.name), seed=result.options.seed),
-                 "Predicted RV curves, informative phases and planned visits")
+    for a, pngs in render_target_figures(result, chosen, rv_data, workers=result.options.workers,
+                                         meanwhile=meanwhile):
+        n, sec = slug(a.name), f"{a.name} (rank {ranking[a.name]['rank']})"
+        for (kind, caption), png in zip(FIGURE_KINDS, pngs):
+            figs.add_png(sec, f"{n}_{kind}.png", png, caption)
 
 
 def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict | None = None,
@@ -306,8 +308,7 @@ def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict
     # figures: run-level first, then per target in rank order
     ranked, chosen = _figure_targets(result, ok, ranking, plot_targets)
     figs = _Figures(out, files, progress("plotting", 3 + 4 * len(chosen)))
-    _run_figures(figs, result, ranked, periods)
-    _target_figures(figs, result, chosen, ranking, rv_data)
+    _target_figures(figs, result, chosen, ranking, rv_data, lambda: _run_figures(figs, result, ranked, periods))
 
     files.append(_text(out / "summary.md", markdown_summary(doc, figs.md, result.night)))
     files.append(_text(out / "summary.html", html_summary(doc, figs.html, result.night)))
