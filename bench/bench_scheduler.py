@@ -19,6 +19,7 @@ import time
 
 import numpy as np
 
+from rhofollow.planning.milp import DEFAULT_TIME_LIMIT_S
 from rhofollow.planning.night import plan_night, science_entry
 from rhofollow.planning.scheduler import FixedTask, FlexibleTask, schedule
 from rhofollow.planning.tasks import VisGrid, jd_to_iso
@@ -118,7 +119,8 @@ def main():
     ap.add_argument("--full", action="store_true", help="larger instances and more repetitions")
     ap.add_argument("--targets", type=int, default=500, help="targets in the nightly plan (default 500)")
     ap.add_argument("--seed", type=int, default=7)
-    ap.add_argument("--time-limit", type=float, default=60.0, help="MILP time limit per solve (s)")
+    ap.add_argument("--time-limit", type=float, default=DEFAULT_TIME_LIMIT_S,
+                    help=f"MILP time limit per solve (s; default the planners' {DEFAULT_TIME_LIMIT_S:g})")
     a = ap.parse_args()
     if a.full:
         sizes, reps = [(200, 0), (2000, 0), (10, 20), (20, 60), (30, 150)], 5

@@ -153,7 +153,7 @@ class _Figures:
         self.html: dict[str, list[tuple[str, bytes]]] = {}
 
     def add(self, section: str, name: str, fig, caption: str) -> None:
-        """Write ``fig`` to ``plots/name`` (closing it) and list it under ``section``.
+        """Write a figure to ``plots/name`` and list it under ``section``.
 
         Parameters
         ----------
@@ -161,27 +161,12 @@ class _Figures:
             Summary section title.
         name : str
             PNG file name inside ``plots/``.
-        fig : matplotlib.figure.Figure
-            The figure.
+        fig : matplotlib.figure.Figure or bytes
+            The figure (rendered and closed here), or its PNG bytes rendered elsewhere.
         caption : str
             Its caption in the HTML summary.
         """
-        self.add_png(section, name, save_figure(fig), caption)
-
-    def add_png(self, section: str, name: str, png: bytes, caption: str) -> None:
-        """Write the rendered figure ``png`` to ``plots/name`` and list it under ``section``.
-
-        Parameters
-        ----------
-        section : str
-            Summary section title.
-        name : str
-            PNG file name inside ``plots/``.
-        png : bytes
-            The PNG file's bytes.
-        caption : str
-            Its caption in the HTML summary.
-        """
+        png = fig if isinstance(fig, bytes) else save_figure(fig)
         self.files.append(atomic_write_bytes(self.out / "plots" / name, png))
         self.md.setdefault(section, []).append(f"plots/{name}")
         self.html.setdefault(section, []).append((caption, png))
@@ -260,7 +245,7 @@ def _target_figures(figs: _Figures, result, chosen, ranking, rv_data, meanwhile)
                                          meanwhile=meanwhile):
         n, sec = slug(a.name), f"{a.name} (rank {ranking[a.name]['rank']})"
         for (kind, caption), png in zip(FIGURE_KINDS, pngs):
-            figs.add_png(sec, f"{n}_{kind}.png", png, caption)
+            figs.add(sec, f"{n}_{kind}.png", png, caption)
 
 
 def write_report_files(result, out_dir, *, plot_targets: int = 10, rv_data: dict | None = None,
